@@ -1,0 +1,212 @@
+"""The solved bench as the versioned JSON beam table (DESIGN section 6) and as text.
+
+The JSON is a contract other programs read: keys and units are fixed here and
+documented in the README.  Radii are micrometres, positions millimetres, powers watts.
+Anything unknown (an unstable plane, a cavity without power data) is ``null``.
+"""
+
+from __future__ import annotations
+
+import math
+
+from .abcd import PLANES, SAGITTAL, TANGENTIAL
+from .resonator import STATUS_TEXT
+from .solve import BeamResult, CavityResult, HitResult, Solution
+
+JSON_FORMAT = 1
+SAFETY_CAUTION = (
+    "Power figures are advisory. The laser safety officer, IEC 60825-1 / ANSI Z136.1 and local "
+    "regulations decide what is safe."
+)
+
+
+def _num(x, digits: int = 9):
+    if x is None:
+        return None
+    x = float(x)
+    if math.isnan(x):
+        return None
+    if math.isinf(x):
+        return None
+    return float(f"{x:.{digits}g}")
+
+
+def _um(w_mm):
+    return None if w_mm is None else _num(w_mm * 1000.0)
+
+
+def _hit_json(h: HitResult) -> dict:
+    out = {
+        "optic": h.optic,
+        "s_mm": _num(h.s),
+        "aoi_deg": _num(h.aoi_deg),
+        "w_um": {p: _um(h.w.get(p)) for p in PLANES},
+        "power_w": _num(h.power_w),
+        "peak_w_cm2": _num(h.peak_w_cm2),
+        "kind": h.kind,
+        "action": h.action,
+    }
+    if h.peak_j_cm2 is not None:
+        out["peak_j_cm2"] = _num(h.peak_j_cm2)
+    if h.counter_propagating:
+        out["counter_propagating"] = True
+    return out
+
+
+def _waists_json(waists) -> list:
+    return [{"plane": w.plane, "w_um": _um(w.w), "s_mm": _num(w.s)} for w in waists]
+
+
+def cavity_json(c: CavityResult) -> dict:
+    out = {
+        "id": c.id,
+        "kind": c.kind,
+        "stable": {p: c.stable(p) for p in PLANES},
+        "m": {p: _num(c.modes[p].m, 12) for p in PLANES},
+        "status": {p: c.modes[p].status for p in PLANES},
+        "round_trip_mm": _num(c.round_trip_mm),
+        "fsr_hz": _num(c.fsr_hz),
+        "gouy_deg": {p: _num(c.gouy_deg(p)) for p in PLANES},
+        "tms_hz": {p: _num(c.tms_hz(p)) for p in PLANES},
+        "circulating_w": _num(c.circulating_w),
+        "passive": c.passive,
+        "hits": [_hit_json(h) for h in c.hits],
+        "waists": _waists_json(c.waists),
+        "notes": list(c.notes),
+    }
+    if c.thermal is not None:
+        t = c.thermal
+        out["thermal_lens"] = {
+            "stable_over_range": dict(t.stable),
+            "m_range": {p: [_num(v, 12) for v in t.m_range[p]] for p in PLANES},
+            "design_f_mm": {cid: {p: _num(f) for p, f in d.items()} for cid, d in t.design_f.items()},
+        }
+    return out
+
+
+def beam_json(b: BeamResult) -> dict:
+    return {
+        "id": b.id,
+        "from": b.origin,
+        "power_w": _num(b.power_w),
+        "hits": [_hit_json(h) for h in b.hits],
+        "waists": _waists_json(b.waists),
+        "notes": list(b.notes),
+    }
+
+
+def solution_json(sol: Solution) -> dict:
+    """The beam table of DESIGN section 6, with a few extra keys (documented in the README)."""
+    issues = [
+        {"kind": i.kind, "message": i.message, "targets": list(i.targets), "line": i.loc.line,
+         "value": _num(i.value), "limit": _num(i.limit), "unit": i.unit}
+        for i in sol.trace.issues
+    ]
+    return {
+        "format": JSON_FORMAT,
+        "layout": sol.layout.file,
+        "bench": sol.layout.bench.name,
+        "cavities": [cavity_json(c) for c in sol.cavities.values()],
+        "beams": [beam_json(b) for b in sol.beams.values()],
+        "geometry": issues,
+        "notes": list(sol.notes),
+        "caution": SAFETY_CAUTION,
+    }
+
+
+# --- text -------------------------------------------------------------------------------
+
+def _f(x, fmt: str, none: str = "-") -> str:
+    if x is None or (isinstance(x, float) and (math.isnan(x) or math.isinf(x))):
+        return none
+    return format(x, fmt)
+
+
+def _si(x: float | None, unit: str) -> str:
+    if x is None or math.isinf(x) or math.isnan(x):
+        return "-"
+    for factor, prefix in ((1e9, "G"), (1e6, "M"), (1e3, "k")):
+        if abs(x) >= factor:
+            return f"{x / factor:.4g} {prefix}{unit}"
+    return f"{x:.4g} {unit}"
+
+
+def _hits_table(hits: list[HitResult], pulsed: bool) -> list[str]:
+    head = ["optic", "s [mm]", "AOI [deg]", "w_t [um]", "w_s [um]", "w_t/w_s", "P [W]",
+            "peak [W/cm^2]"] + (["peak [J/cm^2]"] if pulsed else [])
+    rows = []
+    for h in hits:
+        wt, ws = h.w.get(TANGENTIAL), h.w.get(SAGITTAL)
+        ratio = wt / ws if wt and ws else None
+        row = [h.optic, _f(h.s, ".2f"), _f(h.aoi_deg, ".2f"), _f(None if wt is None else wt * 1e3, ".1f"),
+               _f(None if ws is None else ws * 1e3, ".1f"), _f(ratio, ".3f"), _f(h.power_w, ".4g"),
+               _f(h.peak_w_cm2, ".3e")]
+        if pulsed:
+            row.append(_f(h.peak_j_cm2, ".3e"))
+        rows.append(row)
+    return _grid(head, rows)
+
+
+def _grid(head, rows) -> list[str]:
+    widths = [max(len(str(x)) for x in col) for col in zip(head, *rows)]
+    fmt = lambda r: "  ".join(str(x).rjust(w) if i else str(x).ljust(w) for i, (x, w) in enumerate(zip(r, widths)))  # noqa: E731
+    return ["  " + fmt(head), "  " + "  ".join("-" * w for w in widths)] + ["  " + fmt(r) for r in rows]
+
+
+def _waist_lines(waists) -> list[str]:
+    if not waists:
+        return ["  waists: none inside the path"]
+    parts = [f"{w.plane}: {w.w * 1e3:.1f} um at s = {w.s:.2f} mm" for w in waists]
+    return ["  waists: " + "; ".join(parts)]
+
+
+def cavity_text(c: CavityResult) -> list[str]:
+    lines = [f"cavity {c.id} ({c.kind}{', passive' if c.passive else ''})"]
+    for p, name in ((TANGENTIAL, "tangential"), (SAGITTAL, "sagittal")):
+        mode = c.modes[p]
+        margin = 1.0 - abs(mode.m)
+        state = "STABLE" if mode.status == "stable" else STATUS_TEXT[mode.status].upper().split(":")[0]
+        lines.append(f"  {name:<10}  m = {mode.m:+.6f}  margin 1-|m| = {margin:.4f}  {state}"
+                     + (f"  Gouy {c.gouy_deg(p):.2f} deg  TMS {_si(c.tms_hz(p), 'Hz')}" if mode.gouy is not None else ""))
+        if mode.status != "stable":
+            lines.append(f"    {STATUS_TEXT[mode.status]}")
+    lines.append(f"  round trip {c.round_trip_mm:.3f} mm (optical)  FSR {_si(c.fsr_hz, 'Hz')}  "
+                 f"circulating {_f(c.circulating_w, '.4g', 'unknown')} W one-way")
+    if c.thermal is not None:
+        t = c.thermal
+        for p in PLANES:
+            lo, hi = t.m_range[p]
+            lines.append(f"  thermal-lens range, {p}: m from {lo:+.4f} to {hi:+.4f}: "
+                         + ("stable over the whole range" if t.stable[p] else "NOT stable over the whole range"))
+    lines += _hits_table(c.hits, c.pulsed)
+    if c.kind == "linear":
+        lines.append("  (linear cavity: the counter-propagating beams overlap at every optic; power is one-way)")
+    lines += _waist_lines(c.waists)
+    lines += [f"  note: {n}" for n in c.notes]
+    return lines
+
+
+def beam_text(b: BeamResult) -> list[str]:
+    lines = [f"beam {b.id} (from {b.origin}, {_f(b.power_w, '.4g', 'unknown')} W)"]
+    pulsed = any(h.peak_j_cm2 is not None for h in b.hits)
+    lines += _hits_table(b.hits, pulsed)
+    lines += _waist_lines(b.waists)
+    lines += [f"  note: {n}" for n in b.notes]
+    return lines
+
+
+def solution_text(sol: Solution) -> str:
+    lines = [f"{sol.layout.file}: {sol.layout.bench.name}", ""]
+    for c in sol.cavities.values():
+        lines += cavity_text(c) + [""]
+    for b in sol.beams.values():
+        lines += beam_text(b) + [""]
+    if sol.trace.issues:
+        lines.append("geometry:")
+        lines += [f"  {i.loc.file}:{i.loc.line}:{i.loc.column}: {i.message}" for i in sol.trace.issues]
+        lines.append("")
+    if sol.notes:
+        lines += ["notes:"] + [f"  {n}" for n in sol.notes] + [""]
+    if any(c.circulating_w for c in sol.cavities.values()) or any(b.power_w for b in sol.beams.values()):
+        lines.append(SAFETY_CAUTION)
+    return "\n".join(lines).rstrip() + "\n"

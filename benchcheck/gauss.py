@@ -1,0 +1,46 @@
+"""Gaussian beams as the reduced complex beam parameter q^ = q/n.
+
+1/q^ = n/R - i*lambda0*M^2/(pi*w^2) (DESIGN section 4; Kogelnik & Li 1966 with Siegman's
+reduced slope), so the ABCD law q2 = (A q1 + B)/(C q1 + D) holds with the reduced
+matrices of ``abcd`` and the radius needs only the vacuum wavelength.  An M^2 beam is
+the embedded Gaussian: it propagates as a Gaussian of wavelength M^2 * lambda0.
+
+All functions broadcast over numpy arrays.  Lengths in mm, wavelengths in mm too (the
+callers convert from nm once).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+
+def q_at_distance_from_waist(w0, z, wavelength, m2=1.0, index=1.0):
+    """q^ at distance ``z`` past a waist of radius ``w0`` in a medium of ``index``."""
+    w0 = np.asarray(w0, dtype=float)
+    rayleigh = np.pi * np.asarray(index, dtype=float) * w0**2 / (np.asarray(m2, dtype=float) * wavelength)
+    return (np.asarray(z, dtype=float) + 1j * rayleigh) / np.asarray(index, dtype=float)
+
+
+def rayleigh_range(w0, wavelength, m2=1.0, index=1.0):
+    """z_R = pi n w0^2 / (M^2 lambda0) (Kogelnik & Li 1966; Siegman ch. 17)."""
+    return np.pi * index * np.asarray(w0, dtype=float) ** 2 / (m2 * wavelength)
+
+
+def radius(q, wavelength, m2=1.0):
+    """1/e^2 intensity radius from q^: w^2 = -lambda0 M^2 / (pi Im(1/q^))."""
+    inv = 1.0 / np.asarray(q, dtype=complex)
+    return np.sqrt(-np.asarray(m2, dtype=float) * wavelength / (np.pi * inv.imag))
+
+
+def propagate(matrix, q):
+    """The ABCD law, q2 = (A q + B) / (C q + D), over arrays of matrices and q."""
+    a = matrix[..., 0, 0]
+    b = matrix[..., 0, 1]
+    c = matrix[..., 1, 0]
+    d = matrix[..., 1, 1]
+    return (a * q + b) / (c * q + d)
+
+
+def waist_offset(q):
+    """Reduced distance to the waist ahead (positive: the waist is still to come)."""
+    return -np.asarray(q, dtype=complex).real

@@ -1,0 +1,617 @@
+"""Read a layout file (format 1) into the validated ``model.Layout``.
+
+Everything the user can get wrong is caught here, once, with the file, line and column of
+the key and a sentence saying what was expected, so that later stages can trust their
+input.  Nothing here computes optics; cross-references that need geometry (placement,
+folds) are checked by ``placement``.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import difflib
+import math
+import re
+import sys
+from pathlib import Path
+from typing import Any, Iterable
+
+from .model import (
+    Beam, Bench, Cavity, Layout, LayoutError, Lidt, Loc, Optic, PathEntry, Source, Spectral,
+    Waiver, Zone,
+)
+from .tomlpos import key_positions
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover - exercised only on Python 3.10
+    import tomli as tomllib
+
+FORMAT_VERSION = 1
+
+OPTIC_KINDS = ("mirror", "lens", "crystal", "plate", "aperture", "splitter", "dump", "detector", "obstacle")
+_COMMON = ("id", "kind", "at", "diameter", "mount", "lidt", "note")
+OPTIC_KEYS = {
+    "mirror": _COMMON + ("roc", "reflectivity", "absorption", "fold", "substrate"),
+    "lens": _COMMON + ("focal_length", "absorption"),
+    "crystal": _COMMON + ("length", "index", "faces", "thermal_lens", "thermal_lens_t", "thermal_lens_s", "absorption"),
+    "plate": _COMMON + ("thickness", "index", "aoi", "faces", "reflectivity", "absorption"),
+    "aperture": _COMMON,
+    "splitter": _COMMON + ("reflectivity", "absorption", "fold", "substrate"),
+    "dump": _COMMON + ("max_power_w",),
+    "detector": _COMMON + ("max_power_w",),
+    "obstacle": ("id", "kind", "at", "polygon", "size", "angle", "note"),
+}
+TOP_KEYS = ("format", "bench", "zone", "optic", "source", "cavity", "beam", "waiver")
+BENCH_KEYS = ("name", "size", "note")
+ZONE_KEYS = ("id", "kind", "polygon", "note")
+ZONE_KINDS = ("keepout", "enclosure")
+SOURCE_KEYS = (
+    "id", "at", "toward", "heading", "wavelength_nm", "power_w", "pulse_energy_j", "pulse_s",
+    "rep_hz", "waist", "waist_t", "waist_s", "waist_at", "m2", "m2_t", "m2_s", "note",
+)
+CAVITY_KEYS = (
+    "id", "kind", "path", "wavelength_nm", "heading", "output_coupler", "output_power_w",
+    "input_coupler", "input_power_w", "loss", "rep_hz", "pulse_s", "note",
+)
+CAVITY_KINDS = ("linear", "ring")
+BEAM_KEYS = ("id", "from", "path", "heading", "note")
+WAIVER_KEYS = ("rule", "target", "reason", "approved_by", "until")
+PATH_ENTRY_KEYS = ("id", "distance", "fold")
+MOUNT_KEYS = ("size",)
+LIDT_KEYS = ("w_cm", "w_cm2", "j_cm2", "pulse_s", "wavelength_nm")
+SUBSTRATE_KEYS = ("thickness", "index")
+FACES = ("normal", "brewster")
+_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.\-]*$")
+
+
+def load_path(path: str | Path) -> Layout:
+    """Load and validate a layout file; raises ``LayoutError`` for anything unusable."""
+    name = str(path)
+    try:
+        data = Path(path).read_bytes()
+    except IsADirectoryError:
+        raise LayoutError("is a folder, not a layout file", file=name) from None
+    except OSError as exc:
+        raise LayoutError(f"cannot read the file: {exc.strerror or exc}", file=name) from None
+    return load_bytes(data, name)
+
+
+def load_bytes(data: bytes, file: str = "<layout>") -> Layout:
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        col = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise LayoutError(
+            f"not UTF-8 text (byte 0x{data[exc.start]:02x}); a layout is a TOML text file",
+            Loc(file, line, col),
+        ) from None
+    if text.startswith("\ufeff"):
+        text = text[1:]
+    return load_text(text, file)
+
+
+def load_text(text: str, file: str = "<layout>") -> Layout:
+    """Validate TOML text; ``file`` is only used in messages."""
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise _syntax_error(exc, text, file) from None
+    try:
+        positions = key_positions(text)
+    except Exception:  # the scanner must never turn a good file into a crash
+        positions = {}
+    return _Reader(file, positions).layout(doc)
+
+
+def _syntax_error(exc: Exception, text: str, file: str) -> LayoutError:
+    msg = str(exc)
+    line = getattr(exc, "lineno", None)
+    col = getattr(exc, "colno", None)
+    found = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+    if found and line is None:
+        line, col = int(found.group(1)), int(found.group(2))
+    if found:
+        msg = msg[: found.start()].strip()
+    if line is None:
+        line, col = (text.count("\n") + 1, 1) if "end of document" in msg else (1, 1)
+    return LayoutError(f"TOML syntax: {msg[:1].lower() + msg[1:]}", Loc(file, line, col or 1))
+
+
+def _kind_name(value: Any) -> str:
+    if isinstance(value, bool):
+        return "a boolean"
+    if isinstance(value, (int, float)):
+        return f"the number {value!r}"
+    if isinstance(value, str):
+        return f"the string {value!r}" if len(value) < 40 else "a string"
+    if isinstance(value, list):
+        return "an array"
+    if isinstance(value, dict):
+        return "a table"
+    if isinstance(value, (_dt.date, _dt.time)):
+        return "a date or time"
+    return type(value).__name__
+
+
+class _Reader:
+    """Walks the parsed document, converting and checking values against their paths."""
+
+    def __init__(self, file: str, positions: dict):
+        self.file = file
+        self.positions = positions
+
+    # -- locations and errors ------------------------------------------------------
+    def loc(self, path: tuple) -> Loc:
+        p = tuple(path)
+        while p:
+            if p in self.positions:
+                line, col = self.positions[p]
+                return Loc(self.file, line, col)
+            p = p[:-1]
+        return Loc(self.file, 1, 1)
+
+    def fail(self, path: tuple, message: str) -> LayoutError:
+        return LayoutError(message, self.loc(path))
+
+    def name(self, path: tuple) -> str:
+        out = ""
+        for part in path:
+            out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out else part)
+        return out
+
+    def key_locs(self, path: tuple, table: dict) -> dict:
+        return {k: self.loc(path + (k,)) for k in table}
+
+    # -- primitive checks ------------------------------------------------------------
+    def table(self, value: Any, path: tuple, allowed: Iterable[str], what: str) -> dict:
+        if not isinstance(value, dict):
+            raise self.fail(path, f"{self.name(path)} must be a table ({what}), found {_kind_name(value)}")
+        allowed = tuple(allowed)
+        for key in value:
+            if key not in allowed:
+                raise self.fail(path + (key,), self._unknown(key, allowed, what))
+        return value
+
+    @staticmethod
+    def _unknown(key: str, allowed: tuple, what: str) -> str:
+        close = difflib.get_close_matches(key, allowed, n=1, cutoff=0.6)
+        hint = f"; did you mean '{close[0]}'?" if close else f"; allowed keys: {', '.join(allowed)}"
+        return f"unknown key '{key}' in {what}{hint}"
+
+    def require(self, table: dict, key: str, path: tuple, what: str) -> Any:
+        if key not in table:
+            raise self.fail(path, f"{what} needs '{key}'")
+        return table[key]
+
+    def number(self, value: Any, path: tuple, unit: str = "", *, low: float | None = None,
+               high: float | None = None, low_open: bool = False, nonzero: bool = False) -> float:
+        label = self.name(path)
+        unit_txt = f" in {unit}" if unit else ""
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise self.fail(path, f"{label} must be a number{unit_txt}, found {_kind_name(value)}")
+        x = float(value)
+        if math.isnan(x) or math.isinf(x):
+            raise self.fail(path, f"{label} must be a finite number{unit_txt}, found {value}")
+        if nonzero and x == 0:
+            raise self.fail(path, f"{label} must not be zero")
+        if low is not None and (x <= low if low_open else x < low):
+            op = ">" if low_open else ">="
+            raise self.fail(path, f"{label} must be {op} {low:g}{unit_txt}, found {value}")
+        if high is not None and x > high:
+            raise self.fail(path, f"{label} must be <= {high:g}{unit_txt}, found {value}")
+        return x
+
+    def string(self, value: Any, path: tuple, choices: tuple | None = None) -> str:
+        label = self.name(path)
+        if not isinstance(value, str):
+            raise self.fail(path, f"{label} must be a string, found {_kind_name(value)}")
+        if choices is not None and value not in choices:
+            close = difflib.get_close_matches(value, choices, n=1, cutoff=0.6)
+            hint = f" (did you mean \"{close[0]}\"?)" if close else ""
+            opts = " | ".join(f'"{c}"' for c in choices)
+            raise self.fail(path, f"{label} must be one of {opts}, found \"{value}\"{hint}")
+        return value
+
+    def ident(self, value: Any, path: tuple) -> str:
+        s = self.string(value, path)
+        if not _ID.match(s):
+            raise self.fail(path, f"{self.name(path)} must be an id of letters, digits, '_', '-' or '.', "
+                                  f"starting with a letter or digit; found \"{s}\"")
+        return s
+
+    def point(self, value: Any, path: tuple, what: str = "[x, y] in mm", positive: bool = False) -> tuple[float, float]:
+        if not isinstance(value, list) or len(value) != 2:
+            raise self.fail(path, f"{self.name(path)} must be {what}, found {_kind_name(value)}"
+                                  + (f" of {len(value)} items" if isinstance(value, list) else ""))
+        return tuple(self.number(v, path + (i,), "mm", low=0.0 if positive else None, low_open=positive)
+                     for i, v in enumerate(value))  # type: ignore[return-value]
+
+    def polygon(self, value: Any, path: tuple) -> tuple[tuple[float, float], ...]:
+        if not isinstance(value, list) or len(value) < 3:
+            raise self.fail(path, f"{self.name(path)} must be an array of at least 3 points [[x, y], ...] in mm")
+        return tuple(self.point(p, path + (i,)) for i, p in enumerate(value))
+
+    def array_of_tables(self, doc: dict, key: str) -> list:
+        value = doc.get(key, [])
+        if not isinstance(value, list) or not all(isinstance(v, dict) for v in value):
+            raise self.fail((key,), f"'{key}' must be written as [[{key}]] tables")
+        return value
+
+    def fraction(self, value: Any, path: tuple) -> Spectral:
+        """A fraction 0..1, or a table keyed by wavelength in nm."""
+        if isinstance(value, dict):
+            if not value:
+                raise self.fail(path, f"{self.name(path)} table is empty; give {{ 780 = 0.99 }} or one number")
+            rows = []
+            for k, v in value.items():
+                try:
+                    nm = float(k)
+                except ValueError:
+                    nm = float("nan")
+                if not math.isfinite(nm) or nm <= 0:
+                    raise self.fail(path + (k,), f"{self.name(path)} keys must be wavelengths in nm, found \"{k}\"")
+                rows.append((nm, self.number(v, path + (k,), "", low=0.0, high=1.0)))
+            return Spectral(table=tuple(rows))
+        return Spectral(value=self.number(value, path, "", low=0.0, high=1.0))
+
+    def focal_range(self, value: Any, path: tuple) -> tuple[float, ...]:
+        values = value if isinstance(value, list) else [value]
+        if not 1 <= len(values) <= 2:
+            raise self.fail(path, f"{self.name(path)} must be one focal length (mm) or a range [f1, f2]")
+        return tuple(self.number(v, path + ((i,) if isinstance(value, list) else ()), "mm", nonzero=True)
+                     for i, v in enumerate(values))
+
+    # -- sections ------------------------------------------------------------------
+    def layout(self, doc: dict) -> Layout:
+        self.table(doc, (), TOP_KEYS, "the layout file")
+        if "format" not in doc:
+            raise LayoutError("the layout needs 'format = 1' at the top", Loc(self.file, 1, 1))
+        fmt = doc["format"]
+        if isinstance(fmt, bool) or not isinstance(fmt, int) or fmt != FORMAT_VERSION:
+            raise self.fail(("format",), f"unsupported format {fmt!r}: this benchcheck reads format = {FORMAT_VERSION}")
+        if "bench" not in doc:
+            raise LayoutError("the layout needs a [bench] table with name and size", Loc(self.file, 1, 1))
+        bench = self.bench(doc["bench"])
+        seen: dict[str, Loc] = {}
+
+        def claim(ident: str, path: tuple) -> None:
+            if ident in seen:
+                raise self.fail(path, f"id \"{ident}\" is used twice (first at line {seen[ident].line}); ids must be unique")
+            seen[ident] = self.loc(path)
+
+        zones = []
+        for i, z in enumerate(self.array_of_tables(doc, "zone")):
+            zones.append(self.zone(z, ("zone", i)))
+            claim(zones[-1].id, ("zone", i, "id"))
+        optics = {}
+        for i, o in enumerate(self.array_of_tables(doc, "optic")):
+            optic = self.optic(o, ("optic", i))
+            claim(optic.id, ("optic", i, "id"))
+            optics[optic.id] = optic
+        sources = {}
+        for i, s in enumerate(self.array_of_tables(doc, "source")):
+            src = self.source(s, ("source", i))
+            claim(src.id, ("source", i, "id"))
+            sources[src.id] = src
+        cavities = {}
+        for i, c in enumerate(self.array_of_tables(doc, "cavity")):
+            cav = self.cavity(c, ("cavity", i), optics)
+            claim(cav.id, ("cavity", i, "id"))
+            cavities[cav.id] = cav
+        beams = {}
+        for i, b in enumerate(self.array_of_tables(doc, "beam")):
+            beam = self.beam(b, ("beam", i), optics, sources, cavities)
+            claim(beam.id, ("beam", i, "id"))
+            beams[beam.id] = beam
+        waivers = tuple(self.waiver(w, ("waiver", i)) for i, w in enumerate(self.array_of_tables(doc, "waiver")))
+        for i, src in enumerate(sources.values()):
+            if src.toward is not None and src.toward not in optics:
+                raise self._dangling(("source", i, "toward"), src.toward, optics, "an optic")
+        self._check_placement_refs(optics, cavities, beams)
+        return Layout(
+            file=self.file, format=fmt, bench=bench, optics=optics, sources=sources,
+            cavities=cavities, beams=beams, zones=tuple(zones), waivers=waivers,
+            key_locs={k: Loc(self.file, *v) for k, v in self.positions.items()},
+        )
+
+    def _dangling(self, path: tuple, ident: str, known: Iterable[str], what: str) -> LayoutError:
+        known = list(known)
+        close = difflib.get_close_matches(ident, known, n=1, cutoff=0.5)
+        hint = f"; did you mean \"{close[0]}\"?" if close else (f"; known: {', '.join(known)}" if known else "")
+        return self.fail(path, f"\"{ident}\" is not {what} in this layout{hint}")
+
+    def bench(self, value: Any) -> Bench:
+        path = ("bench",)
+        t = self.table(value, path, BENCH_KEYS, "[bench]")
+        name = self.string(self.require(t, "name", path, "[bench]"), path + ("name",))
+        size = self.point(self.require(t, "size", path, "[bench]"), path + ("size",),
+                          "[width, height] of the table in mm", positive=True)
+        return Bench(name, size, self.loc(path))
+
+    def zone(self, value: dict, path: tuple) -> Zone:
+        t = self.table(value, path, ZONE_KEYS, "a [[zone]]")
+        ident = self.ident(self.require(t, "id", path, "a [[zone]]"), path + ("id",))
+        kind = self.string(self.require(t, "kind", path, f"zone \"{ident}\""), path + ("kind",), ZONE_KINDS)
+        poly = self.polygon(self.require(t, "polygon", path, f"zone \"{ident}\""), path + ("polygon",))
+        return Zone(ident, kind, poly, self.loc(path))
+
+    def optic(self, value: dict, path: tuple) -> Optic:
+        if not isinstance(value, dict):
+            raise self.fail(path, "each [[optic]] must be a table")
+        ident = self.ident(self.require(value, "id", path, "an [[optic]]"), path + ("id",))
+        kind = self.string(self.require(value, "kind", path, f"optic \"{ident}\""), path + ("kind",), OPTIC_KINDS)
+        allowed = OPTIC_KEYS[kind]
+        for key in value:
+            if key not in allowed:
+                others = [k for k, keys in OPTIC_KEYS.items() if key in keys]
+                if others and difflib.get_close_matches(key, allowed, n=1, cutoff=0.8) == []:
+                    raise self.fail(path + (key,), f"'{key}' does not apply to a {kind} (optic \"{ident}\"); "
+                                                   f"it is a key of: {', '.join(others)}. Keys for a {kind}: {', '.join(allowed)}")
+                raise self.fail(path + (key,), self._unknown(key, allowed, f"optic \"{ident}\" ({kind})"))
+        p = lambda k: path + (k,)  # noqa: E731
+        fields: dict[str, Any] = {}
+        if "at" in value:
+            fields["at"] = self.point(value["at"], p("at"))
+        if "note" in value:
+            fields["note"] = self.string(value["note"], p("note"))
+        if kind == "obstacle":
+            return self._obstacle(ident, value, path, fields)
+        if "diameter" in value:
+            fields["diameter"] = self.number(value["diameter"], p("diameter"), "mm", low=0, low_open=True)
+        if "mount" in value:
+            m = self.table(value["mount"], p("mount"), MOUNT_KEYS, f"the mount of \"{ident}\"")
+            fields["mount_size"] = self.point(self.require(m, "size", p("mount"), "mount"), p("mount") + ("size",),
+                                              "[width, depth] in mm", positive=True)
+        if "lidt" in value:
+            fields["lidt"] = self.lidt(value["lidt"], p("lidt"), ident)
+        if "roc" in value:
+            fields["roc"] = self.number(value["roc"], p("roc"), "mm", nonzero=True)
+        for key in ("reflectivity", "absorption"):
+            if key in value:
+                fields[key] = self.fraction(value[key], p(key))
+        if "fold" in value:
+            fields["fold"] = self.number(value["fold"], p("fold"), "degrees", low=-180.0, high=180.0)
+        if "substrate" in value:
+            s = self.table(value["substrate"], p("substrate"), SUBSTRATE_KEYS, f"the substrate of \"{ident}\"")
+            if "thickness" in s:
+                fields["substrate_thickness"] = self.number(s["thickness"], p("substrate") + ("thickness",), "mm", low=0.0)
+            if "index" in s:
+                fields["substrate_index"] = self.number(s["index"], p("substrate") + ("index",), "", low=1.0)
+        if kind == "lens":
+            fields["focal_length"] = self.number(self.require(value, "focal_length", path, f"lens \"{ident}\""),
+                                                 p("focal_length"), "mm", nonzero=True)
+        if kind == "crystal":
+            fields["length"] = self.number(self.require(value, "length", path, f"crystal \"{ident}\""),
+                                           p("length"), "mm", low=0.0, low_open=True)
+        if kind == "plate":
+            fields["thickness"] = self.number(self.require(value, "thickness", path, f"plate \"{ident}\""),
+                                              p("thickness"), "mm", low=0.0, low_open=True)
+        if kind in ("crystal", "plate"):
+            fields["index"] = self.number(self.require(value, "index", path, f"{kind} \"{ident}\""),
+                                          p("index"), "", low=1.0)
+            if "faces" in value:
+                fields["faces"] = self.string(value["faces"], p("faces"), FACES)
+        if "aoi" in value:
+            if fields.get("faces") == "brewster":
+                raise self.fail(p("aoi"), f"plate \"{ident}\" has faces = \"brewster\", which sets the angle; remove 'aoi'")
+            fields["aoi"] = self.number(value["aoi"], p("aoi"), "degrees", low=0.0, high=89.0)
+        for key in ("thermal_lens", "thermal_lens_t", "thermal_lens_s"):
+            if key in value:
+                fields[key] = self.focal_range(value[key], p(key))
+        if ("thermal_lens_t" in value) != ("thermal_lens_s" in value):
+            raise self.fail(path, f"crystal \"{ident}\": give both thermal_lens_t and thermal_lens_s, or thermal_lens")
+        if "thermal_lens" in value and "thermal_lens_t" in value:
+            raise self.fail(p("thermal_lens"), f"crystal \"{ident}\": give thermal_lens or thermal_lens_t/_s, not both")
+        if "max_power_w" in value:
+            fields["max_power_w"] = self.number(value["max_power_w"], p("max_power_w"), "W", low=0.0, low_open=True)
+        if kind == "aperture" and "diameter" not in value:
+            raise self.fail(path, f"aperture \"{ident}\" needs 'diameter' (mm)")
+        if kind == "splitter" and "reflectivity" not in value:
+            raise self.fail(path, f"splitter \"{ident}\" needs 'reflectivity' (a fraction, or a table by wavelength)")
+        refl, absn = fields.get("reflectivity"), fields.get("absorption")
+        if refl and absn and refl.value is not None and absn.value is not None and refl.value + absn.value > 1.0 + 1e-12:
+            raise self.fail(p("absorption"), f"reflectivity + absorption of \"{ident}\" exceed 1")
+        return Optic(ident, kind, self.loc(path), self.key_locs(path, value), **fields)
+
+    def _obstacle(self, ident: str, value: dict, path: tuple, fields: dict) -> Optic:
+        p = lambda k: path + (k,)  # noqa: E731
+        if "polygon" in value:
+            if "at" in value or "size" in value:
+                raise self.fail(path, f"obstacle \"{ident}\": give 'polygon', or 'at' with 'size' (and 'angle'), not both")
+            fields["polygon"] = self.polygon(value["polygon"], p("polygon"))
+        else:
+            if "at" not in value or "size" not in value:
+                raise self.fail(path, f"obstacle \"{ident}\" needs 'polygon', or 'at' and 'size' = [w, d] in mm")
+            fields["size"] = self.point(value["size"], p("size"), "[w, d] in mm", positive=True)
+            if "angle" in value:
+                fields["angle"] = self.number(value["angle"], p("angle"), "degrees")
+        return Optic(ident, "obstacle", self.loc(path), self.key_locs(path, value), **fields)
+
+    def lidt(self, value: Any, path: tuple, ident: str) -> Lidt:
+        t = self.table(value, path, LIDT_KEYS, f"the LIDT of \"{ident}\"")
+        out = {k: self.number(v, path + (k,), k.split("_")[-1] if k != "pulse_s" else "s", low=0.0, low_open=True)
+               for k, v in t.items()}
+        if "j_cm2" in out and "pulse_s" not in out:
+            raise self.fail(path, f"a pulsed LIDT (j_cm2) of \"{ident}\" needs pulse_s, the pulse length it was measured at")
+        if not any(k in out for k in ("w_cm", "w_cm2", "j_cm2")):
+            raise self.fail(path, f"the LIDT of \"{ident}\" needs w_cm, w_cm2 or j_cm2")
+        return Lidt(**out)
+
+    def source(self, value: dict, path: tuple) -> Source:
+        t = self.table(value, path, SOURCE_KEYS, "a [[source]]")
+        ident = self.ident(self.require(t, "id", path, "a [[source]]"), path + ("id",))
+        what = f"source \"{ident}\""
+        p = lambda k: path + (k,)  # noqa: E731
+        f: dict[str, Any] = {}
+        f["at"] = self.point(self.require(t, "at", path, what), p("at"))
+        if "toward" in t and "heading" in t:
+            raise self.fail(p("heading"), f"{what}: give 'toward' or 'heading', not both")
+        if "toward" in t:
+            f["toward"] = self.ident(t["toward"], p("toward"))
+        if "heading" in t:
+            f["heading"] = self.number(t["heading"], p("heading"), "degrees")
+        f["wavelength_nm"] = self.number(self.require(t, "wavelength_nm", path, what), p("wavelength_nm"), "nm",
+                                         low=0.0, low_open=True)
+        for key, unit in (("power_w", "W"), ("pulse_energy_j", "J"), ("pulse_s", "s"), ("rep_hz", "Hz")):
+            if key in t:
+                f[key] = self.number(t[key], p(key), unit, low=0.0, low_open=key != "power_w")
+        if "pulse_energy_j" in f and "pulse_s" not in f:
+            raise self.fail(p("pulse_energy_j"), f"{what}: a pulsed source needs pulse_s as well")
+        if "pulse_energy_j" in f and "power_w" in f and "rep_hz" in f:
+            if not math.isclose(f["pulse_energy_j"] * f["rep_hz"], f["power_w"], rel_tol=1e-3):
+                raise self.fail(p("power_w"), f"{what}: power_w differs from pulse_energy_j x rep_hz")
+        f["waist_t"], f["waist_s"] = self._pair(t, "waist", path, what, "mm", low=0.0, low_open=True, default=None)
+        f["m2_t"], f["m2_s"] = self._pair(t, "m2", path, what, "", low=1.0, default=1.0)
+        if "waist_at" in t:
+            f["waist_at"] = self.number(t["waist_at"], p("waist_at"), "mm")
+        if "note" in t:
+            f["note"] = self.string(t["note"], p("note"))
+        return Source(ident, self.loc(path), self.key_locs(path, t), **f)
+
+    def _pair(self, t: dict, key: str, path: tuple, what: str, unit: str, default, **bounds):
+        both = (f"{key}_t", f"{key}_s")
+        if key in t:
+            if any(k in t for k in both):
+                raise self.fail(path + (key,), f"{what}: give '{key}' or '{key}_t' and '{key}_s', not both")
+            v = self.number(t[key], path + (key,), unit, **bounds)
+            return v, v
+        if all(k in t for k in both):
+            return tuple(self.number(t[k], path + (k,), unit, **bounds) for k in both)
+        if any(k in t for k in both):
+            raise self.fail(path, f"{what}: give both '{key}_t' and '{key}_s' (or one '{key}')")
+        if default is None:
+            raise self.fail(path, f"{what} needs '{key}' ({unit}), or '{key}_t' and '{key}_s'")
+        return default, default
+
+    def path_entries(self, value: Any, path: tuple, optics: dict, what: str) -> tuple[PathEntry, ...]:
+        if not isinstance(value, list) or not value:
+            raise self.fail(path, f"{what}: 'path' must be a non-empty array of optic ids or "
+                                  "{ id = ..., distance = ..., fold = ... } tables")
+        out = []
+        for i, item in enumerate(value):
+            ip = path + (i,)
+            if isinstance(item, dict):
+                t = self.table(item, ip, PATH_ENTRY_KEYS, f"a path entry of {what}")
+                ident = self.ident(self.require(t, "id", ip, f"a path entry of {what}"), ip + ("id",))
+                dist = self.number(t["distance"], ip + ("distance",), "mm", low=0.0, low_open=True) if "distance" in t else None
+                fold = self.number(t["fold"], ip + ("fold",), "degrees", low=-180.0, high=180.0) if "fold" in t else None
+            else:
+                ident = self.ident(item, ip)
+                dist = fold = None
+            if ident not in optics:
+                raise self._dangling(ip, ident, optics, "an optic")
+            optic = optics[ident]
+            if optic.kind == "obstacle":
+                raise self.fail(ip, f"\"{ident}\" is an obstacle; obstacles have no optical role and cannot be on a path")
+            if fold is not None:
+                if optic.kind not in ("mirror", "splitter"):
+                    raise self.fail(ip + ("fold",), f"\"{ident}\" is a {optic.kind}; only a mirror or splitter folds the beam")
+                if optic.fold is not None and abs(optic.fold - fold) > 1e-9:
+                    raise self.fail(ip + ("fold",), f"fold {fold:g} deg here contradicts fold = {optic.fold:g} deg "
+                                                    f"on optic \"{ident}\" (line {optic.where('fold').line})")
+            out.append(PathEntry(ident, self.loc(ip), dist, fold))
+        return tuple(out)
+
+    def cavity(self, value: dict, path: tuple, optics: dict) -> Cavity:
+        t = self.table(value, path, CAVITY_KEYS, "a [[cavity]]")
+        ident = self.ident(self.require(t, "id", path, "a [[cavity]]"), path + ("id",))
+        what = f"cavity \"{ident}\""
+        p = lambda k: path + (k,)  # noqa: E731
+        kind = self.string(self.require(t, "kind", path, what), p("kind"), CAVITY_KINDS)
+        entries = self.path_entries(self.require(t, "path", path, what), p("path"), optics, what)
+        ids = [e.id for e in entries]
+        if kind == "linear":
+            if len(entries) < 2:
+                raise self.fail(p("path"), f"{what}: a linear cavity needs at least two mirrors, end to end")
+            for end in (0, len(entries) - 1):
+                if optics[ids[end]].kind != "mirror":
+                    raise self.fail(p("path") + (end,), f"{what}: a linear cavity ends on mirrors; \"{ids[end]}\" is a {optics[ids[end]].kind}")
+        elif len(entries) < 3:
+            raise self.fail(p("path"), f"{what}: a ring needs at least three elements in travel order")
+        limit = 2 if kind == "linear" else 1
+        for i, e in enumerate(entries):
+            if ids.count(e.id) > 1 and (kind == "ring" or ids.count(e.id) > limit):
+                raise self.fail(p("path") + (i,), f"{what}: \"{e.id}\" appears more than once in the path")
+            if optics[e.id].kind in ("dump", "detector"):
+                raise self.fail(p("path") + (i,), f"{what}: a {optics[e.id].kind} cannot be inside a cavity")
+        f: dict[str, Any] = {}
+        f["wavelength_nm"] = self.number(self.require(t, "wavelength_nm", path, what), p("wavelength_nm"), "nm",
+                                         low=0.0, low_open=True)
+        if "heading" in t:
+            f["heading"] = self.number(t["heading"], p("heading"), "degrees")
+        for key in ("output_coupler", "input_coupler"):
+            if key in t:
+                f[key] = self.ident(t[key], p(key))
+                if f[key] not in ids:
+                    raise self.fail(p(key), f"{what}: {key} \"{f[key]}\" is not on the cavity path ({', '.join(ids)})")
+                if optics[f[key]].kind not in ("mirror", "splitter"):
+                    raise self.fail(p(key), f"{what}: {key} \"{f[key]}\" must be a mirror")
+        for key in ("output_power_w", "input_power_w"):
+            if key in t:
+                f[key] = self.number(t[key], p(key), "W", low=0.0)
+        if "loss" in t:
+            f["loss"] = self.number(t["loss"], p("loss"), "", low=0.0, high=0.999999)
+        for key, unit in (("rep_hz", "Hz"), ("pulse_s", "s")):
+            if key in t:
+                f[key] = self.number(t[key], p(key), unit, low=0.0, low_open=True)
+        if "note" in t:
+            f["note"] = self.string(t["note"], p("note"))
+        active = "output_power_w" in f
+        passive = "input_power_w" in f or "input_coupler" in f
+        if active and passive:
+            raise self.fail(path, f"{what}: give output_power_w (active laser) or input_coupler with input_power_w "
+                                  "(passive cavity), not both")
+        if active and "output_coupler" not in f:
+            raise self.fail(p("output_power_w"), f"{what}: output_power_w needs output_coupler, the mirror it leaves by")
+        if ("input_coupler" in f) != ("input_power_w" in f):
+            raise self.fail(path, f"{what}: a passive cavity needs both input_coupler and input_power_w")
+        if "loss" in f and not passive:
+            raise self.fail(p("loss"), f"{what}: 'loss' (extra round-trip loss) applies to passive cavities")
+        if ("rep_hz" in f) != ("pulse_s" in f):
+            raise self.fail(path, f"{what}: a pulsed cavity needs both rep_hz and pulse_s")
+        return Cavity(ident, kind, self.loc(path), self.key_locs(path, t), entries, **f)
+
+    def beam(self, value: dict, path: tuple, optics: dict, sources: dict, cavities: dict) -> Beam:
+        t = self.table(value, path, BEAM_KEYS, "a [[beam]]")
+        ident = self.ident(self.require(t, "id", path, "a [[beam]]"), path + ("id",))
+        what = f"beam \"{ident}\""
+        origin = self.ident(self.require(t, "from", path, what), path + ("from",))
+        if origin not in sources and origin not in cavities:
+            raise self._dangling(path + ("from",), origin, list(sources) + list(cavities), "a source or cavity")
+        if origin in cavities and cavities[origin].output_coupler is None:
+            raise self.fail(path + ("from",), f"{what} comes from cavity \"{origin}\", which names no output_coupler")
+        entries = self.path_entries(self.require(t, "path", path, what), path + ("path",), optics, what)
+        heading = self.number(t["heading"], path + ("heading",), "degrees") if "heading" in t else None
+        if heading is not None and origin in cavities:
+            raise self.fail(path + ("heading",), f"{what} leaves cavity \"{origin}\" through its output coupler, "
+                                                 "which sets its direction; remove 'heading'")
+        if heading is not None and origin in sources and (sources[origin].heading is not None or sources[origin].toward):
+            raise self.fail(path + ("heading",), f"{what}: source \"{origin}\" already gives the direction")
+        note = self.string(t["note"], path + ("note",)) if "note" in t else None
+        return Beam(ident, origin, self.loc(path), self.key_locs(path, t), entries, heading, note)
+
+    def waiver(self, value: dict, path: tuple) -> Waiver:
+        t = self.table(value, path, WAIVER_KEYS, "a [[waiver]]")
+        f = {}
+        for key in ("rule", "target", "reason", "approved_by"):
+            f[key] = self.string(self.require(t, key, path, "a [[waiver]]"), path + (key,))
+            if not f[key].strip():
+                raise self.fail(path + (key,), f"waiver '{key}' must not be empty")
+        until = t.get("until")
+        if until is not None and (isinstance(until, _dt.datetime) or not isinstance(until, _dt.date)):
+            raise self.fail(path + ("until",), "waiver 'until' must be a TOML date such as 2027-03-31 (no quotes)")
+        return Waiver(loc=self.loc(path), until=until, **f)
+
+    def _check_placement_refs(self, optics: dict, cavities: dict, beams: dict) -> None:
+        """A relatively placed optic may be placed once; a mirror folded in-path must be a mirror."""
+        placed_at: dict[str, Loc] = {oid: o.where("at") for oid, o in optics.items() if o.at is not None}
+        for holder in list(cavities.values()) + list(beams.values()):
+            for e in holder.path:
+                if e.distance is None:
+                    continue
+                if e.id in placed_at:
+                    raise LayoutError(f"\"{e.id}\" is placed twice: here by distance and at line "
+                                      f"{placed_at[e.id].line}; an optic may be placed once", e.loc)
+                placed_at[e.id] = e.loc

@@ -1,0 +1,222 @@
+"""The validated layout: plain, immutable records in the layout's own units (mm, degrees).
+
+Every record carries the ``Loc`` of the table it came from, and ``key_locs`` for its
+keys, so that any later stage (placement, rules, reports) can point the user at the
+line they wrote without knowing anything about TOML.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+from dataclasses import dataclass, field
+from typing import Mapping
+
+
+@dataclass(frozen=True)
+class Loc:
+    file: str
+    line: int
+    column: int
+
+    def __str__(self) -> str:
+        return f"{self.file}:{self.line}:{self.column}"
+
+
+class LayoutError(Exception):
+    """A layout (or configuration) the tool cannot use; the CLI prints it and exits 2."""
+
+    def __init__(self, message: str, loc: Loc | None = None, file: str | None = None):
+        super().__init__(message)
+        self.message = message
+        self.loc = loc
+        self.file = loc.file if loc else file
+
+    def __str__(self) -> str:
+        if self.loc:
+            return f"{self.loc}: error: {self.message}"
+        if self.file:
+            return f"{self.file}: error: {self.message}"
+        return f"error: {self.message}"
+
+
+#: A beam uses a wavelength-keyed entry within this fraction of its wavelength (DESIGN §3).
+WAVELENGTH_MATCH = 0.02
+
+
+@dataclass(frozen=True)
+class Spectral:
+    """One number for every wavelength, or a table keyed by wavelength in nm."""
+
+    value: float | None = None
+    table: tuple[tuple[float, float], ...] = ()
+
+    def at(self, wavelength_nm: float) -> float | None:
+        """The entry within 2 % of ``wavelength_nm``; None when there is none."""
+        if self.value is not None:
+            return self.value
+        best = None
+        for nm, v in self.table:
+            err = abs(nm - wavelength_nm) / wavelength_nm
+            if err <= WAVELENGTH_MATCH and (best is None or err < best[0]):
+                best = (err, v)
+        return None if best is None else best[1]
+
+    def describe(self) -> str:
+        if self.value is not None:
+            return f"{self.value:g}"
+        return ", ".join(f"{nm:g} nm" for nm, _ in self.table)
+
+
+@dataclass(frozen=True)
+class Lidt:
+    w_cm: float | None = None          # CW, linear power density
+    w_cm2: float | None = None         # CW, intensity
+    j_cm2: float | None = None         # pulsed, fluence
+    pulse_s: float | None = None
+    wavelength_nm: float | None = None
+
+
+@dataclass(frozen=True)
+class Optic:
+    id: str
+    kind: str
+    loc: Loc
+    key_locs: Mapping[str, Loc]
+    at: tuple[float, float] | None = None
+    roc: float | None = None                    # mirror: >0 concave; None = flat
+    diameter: float | None = None               # clear aperture (mm)
+    reflectivity: Spectral | None = None
+    absorption: Spectral | None = None
+    fold: float | None = None                   # declared full fold angle (deg)
+    mount_size: tuple[float, float] | None = None
+    lidt: Lidt | None = None
+    substrate_thickness: float | None = None
+    substrate_index: float | None = None
+    length: float | None = None                 # crystal, along the beam inside
+    index: float | None = None                  # crystal, plate
+    faces: str = "normal"                       # crystal, plate: "normal" | "brewster"
+    thermal_lens: tuple[float, ...] | None = None       # focal lengths (mm): one value or a range
+    thermal_lens_t: tuple[float, ...] | None = None
+    thermal_lens_s: tuple[float, ...] | None = None
+    focal_length: float | None = None           # lens
+    thickness: float | None = None              # plate
+    aoi: float | None = None                    # plate: angle of incidence (deg)
+    polygon: tuple[tuple[float, float], ...] | None = None   # obstacle
+    size: tuple[float, float] | None = None                  # obstacle
+    angle: float = 0.0                                       # obstacle rotation (deg)
+    max_power_w: float | None = None            # dump, detector rating
+    note: str | None = None
+
+    def where(self, key: str) -> Loc:
+        return self.key_locs.get(key, self.loc)
+
+
+@dataclass(frozen=True)
+class PathEntry:
+    id: str
+    loc: Loc
+    distance: float | None = None
+    fold: float | None = None
+
+
+@dataclass(frozen=True)
+class Source:
+    id: str
+    loc: Loc
+    key_locs: Mapping[str, Loc]
+    at: tuple[float, float]
+    wavelength_nm: float
+    waist_t: float
+    waist_s: float
+    waist_at: float = 0.0
+    m2_t: float = 1.0
+    m2_s: float = 1.0
+    toward: str | None = None
+    heading: float | None = None
+    power_w: float | None = None
+    pulse_energy_j: float | None = None
+    pulse_s: float | None = None
+    rep_hz: float | None = None
+    note: str | None = None
+
+    def where(self, key: str) -> Loc:
+        return self.key_locs.get(key, self.loc)
+
+
+@dataclass(frozen=True)
+class Cavity:
+    id: str
+    kind: str                                    # "linear" | "ring"
+    loc: Loc
+    key_locs: Mapping[str, Loc]
+    path: tuple[PathEntry, ...]
+    wavelength_nm: float
+    heading: float | None = None
+    output_coupler: str | None = None
+    output_power_w: float | None = None
+    input_coupler: str | None = None
+    input_power_w: float | None = None
+    loss: float = 0.0
+    rep_hz: float | None = None
+    pulse_s: float | None = None
+    note: str | None = None
+
+    @property
+    def passive(self) -> bool:
+        return self.input_coupler is not None
+
+    def where(self, key: str) -> Loc:
+        return self.key_locs.get(key, self.loc)
+
+
+@dataclass(frozen=True)
+class Beam:
+    id: str
+    origin: str                                  # the `from` key: a source or cavity id
+    loc: Loc
+    key_locs: Mapping[str, Loc]
+    path: tuple[PathEntry, ...]
+    heading: float | None = None
+    note: str | None = None
+
+    def where(self, key: str) -> Loc:
+        return self.key_locs.get(key, self.loc)
+
+
+@dataclass(frozen=True)
+class Zone:
+    id: str
+    kind: str                                    # "keepout" | "enclosure"
+    polygon: tuple[tuple[float, float], ...]
+    loc: Loc
+
+
+@dataclass(frozen=True)
+class Waiver:
+    rule: str
+    target: str
+    reason: str
+    approved_by: str
+    loc: Loc
+    until: _dt.date | None = None
+
+
+@dataclass(frozen=True)
+class Bench:
+    name: str
+    size: tuple[float, float]
+    loc: Loc
+
+
+@dataclass(frozen=True)
+class Layout:
+    file: str
+    format: int
+    bench: Bench
+    optics: Mapping[str, Optic]
+    sources: Mapping[str, Source]
+    cavities: Mapping[str, Cavity]
+    beams: Mapping[str, Beam]
+    zones: tuple[Zone, ...] = ()
+    waivers: tuple[Waiver, ...] = ()
+    key_locs: Mapping[tuple, Loc] = field(default_factory=dict)

@@ -1,0 +1,387 @@
+"""Solve the unfolded bench: cavity eigenmodes, beam sizes at every hit, waists, power.
+
+Input is the traced layout, output a ``Solution`` of plain numbers that reports and rules
+read.  The numerics live in ``abcd``, ``gauss`` and ``resonator``; this module decides
+what to multiply and where to look.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import abcd, gauss, resonator
+from .abcd import PLANES, SAGITTAL, TANGENTIAL
+from .model import Cavity, Layout, LayoutError
+from .placement import Placement, place
+from .trace import REFLECT, TRANSMIT, PathTrace, Trace, trace
+from .unfold import (
+    Marker, Space, Thin, Train, absorption_at, beam_train, cavity_train, overlap_issues, reflectivity_at,
+    substrate_steps, thermal_range,
+)
+
+SPEED_OF_LIGHT_MM_S = 299_792_458_000.0
+NM_TO_MM = 1e-6
+MM2_TO_CM2 = 1e-2
+
+
+@dataclass
+class HitResult:
+    optic: str
+    kind: str
+    s: float                   # mm
+    aoi_deg: float
+    action: str
+    w: dict                    # plane -> 1/e^2 radius in mm (None where no mode)
+    power_w: float | None
+    peak_w_cm2: float | None
+    peak_j_cm2: float | None = None
+    counter_propagating: bool = False
+
+
+@dataclass
+class WaistResult:
+    plane: str
+    w: float                   # mm
+    s: float                   # mm
+
+
+@dataclass
+class ThermalScan:
+    """Stability over the whole thermal-lens range (every corner of the range box)."""
+
+    lenses: dict               # crystal id -> {plane: (f_min, f_max) mm}
+    design_f: dict             # crystal id -> {plane: f used for the table (mm)}
+    stable: dict               # plane -> bool over the whole range
+    m_range: dict              # plane -> (min m, max m)
+
+
+@dataclass
+class CavityResult:
+    id: str
+    kind: str
+    modes: dict                # plane -> resonator.PlaneMode
+    round_trip_mm: float       # optical path length of one round trip
+    fsr_hz: float
+    circulating_w: float | None
+    hits: list[HitResult]
+    waists: list[WaistResult]
+    thermal: ThermalScan | None
+    trains: dict               # plane -> Train (for rules that vary spacings)
+    passive: bool = False
+    pulsed: bool = False
+    notes: list[str] = field(default_factory=list)
+
+    def stable(self, plane: str) -> bool:
+        return self.modes[plane].stable
+
+    def gouy_deg(self, plane: str) -> float | None:
+        g = self.modes[plane].gouy
+        return None if g is None else math.degrees(g)
+
+    def tms_hz(self, plane: str) -> float | None:
+        g = self.gouy_deg(plane)
+        return None if g is None else self.fsr_hz * g / 360.0
+
+
+@dataclass
+class BeamResult:
+    id: str
+    origin: str
+    hits: list[HitResult]
+    waists: list[WaistResult]
+    power_w: float | None
+    notes: list[str] = field(default_factory=list)
+
+
+@dataclass
+class Solution:
+    layout: Layout
+    placement: Placement
+    trace: Trace
+    cavities: dict[str, CavityResult]
+    beams: dict[str, BeamResult]
+    notes: list[str] = field(default_factory=list)
+
+
+def solve_layout(layout: Layout) -> Solution:
+    """The whole chain after loading: place, trace, unfold, solve."""
+    placement = place(layout)
+    traced = trace(placement)
+    notes = list(placement.notes)
+    cavities = {}
+    for cid, path in traced.cavities.items():
+        cavities[cid] = solve_cavity(layout, layout.cavities[cid], path)
+        notes += overlap_issues(layout, path)
+    beams = {}
+    for bid, path in traced.beams.items():
+        beams[bid] = solve_beam(layout, path, cavities, traced)
+        notes += overlap_issues(layout, path)
+    return Solution(layout, placement, traced, cavities, beams, notes)
+
+
+# --- matrices over a train ------------------------------------------------------------
+
+def _product(steps) -> np.ndarray:
+    m = abcd.identity()
+    for st in steps:
+        if not isinstance(st, Marker):
+            m = np.matmul(st.matrix(), m)
+    return m
+
+
+def _reduced_length(train: Train) -> float:
+    return sum(st.length * st.k for st in train.steps if isinstance(st, Space))
+
+
+def _halves(train: Train, role: str, n_hits: int):
+    """(H1, H2) splits of the round trip for a +-I boundary: the repeating halves."""
+    marks = [i for i, st in enumerate(train.steps) if isinstance(st, Marker)]
+    out = []
+    if role == "linear":
+        k = marks[-1]
+        out.append((_product(train.steps[:k]), _product(train.steps[k:])))
+    else:
+        scale = max(_reduced_length(train), 1e-9)
+        for k in marks[1:]:
+            h1, h2 = _product(train.steps[:k]), _product(train.steps[k:])
+            d = np.abs(h1 - h2)
+            if d[0, 0] < 1e-9 and d[1, 1] < 1e-9 and d[0, 1] < 1e-9 * scale and d[1, 0] * scale < 1e-9:
+                out.append((h1, h2))
+    return out
+
+
+def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):
+    """Propagate q^ through a train: radii (physical, mm) at markers and waists in spaces."""
+    at_marks: dict[int, float] = {}
+    waists: list[tuple[float, float]] = []
+    q = q0
+    for st in train.steps:
+        if isinstance(st, Marker):
+            at_marks.setdefault(st.hit, float(st.scale * gauss.radius(q, wavelength, m2)))
+            continue
+        if isinstance(st, Space):
+            if st.forward and st.k > 0:
+                z = float(gauss.waist_offset(q)) / st.k
+                if -1e-9 <= z <= st.length + 1e-9:
+                    z = min(max(z, 0.0), st.length)
+                    w0 = st.scale * float(gauss.radius(q + z * st.k, wavelength, m2))
+                    waists.append((st.s0 + z, w0))
+        q = complex(gauss.propagate(st.matrix(), q))
+    return at_marks, waists
+
+
+def _dedupe_waists(plane: str, raw, tol: float = 1e-6) -> list[WaistResult]:
+    out: list[WaistResult] = []
+    for s, w in sorted(raw):
+        if out and abs(out[-1].s - s) <= tol:
+            continue
+        out.append(WaistResult(plane, w, s))
+    return out
+
+
+# --- cavities ---------------------------------------------------------------------------
+
+def _thermal_scan(layout: Layout, cav: Cavity, path: PathTrace, trains: dict) -> ThermalScan | None:
+    crystals = [h.optic for h in path.hits if layout.optics[h.optic].kind == "crystal"
+                and any(thermal_range(layout.optics[h.optic], p) for p in PLANES)]
+    if not crystals:
+        return None
+    lenses, design = {}, {}
+    stable, m_range = {}, {}
+    for plane in PLANES:
+        ranges = []
+        for cid in crystals:
+            vals = thermal_range(layout.optics[cid], plane) or ()
+            lenses.setdefault(cid, {})[plane] = (min(vals), max(vals)) if vals else None
+            powers = [1.0 / f for f in vals] or [0.0]
+            ranges.append((min(powers), max(powers)))
+            design.setdefault(cid, {})[plane] = (1.0 / (sum(powers) / len(powers))
+                                                 if sum(powers) else math.inf)
+        corners = np.array(list(itertools.product(*ranges)))        # (K, crystals)
+        powers = {(cid, plane): corners[:, j] for j, cid in enumerate(crystals)}
+        train = cavity_train(layout, path, plane, powers)
+        m = abcd.half_trace(_product(train.steps))
+        stable[plane] = bool(np.all(np.abs(m) < 1.0 - resonator.BOUNDARY_TOL))
+        m_range[plane] = (float(np.min(m)), float(np.max(m)))
+    return ThermalScan(lenses, design, stable, m_range)
+
+
+def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | None:
+    """One-way circulating power (W) at the output or input coupler.
+
+    Active: P_out / T_oc.  Passive, on resonance: P_in T_in / (1 - sqrt(R_in R_rest (1-loss)))^2
+    with R_rest the product of every other pass factor of one round trip (mirror
+    reflectivities, fold mirrors twice in a linear cavity, single-pass transmission of
+    crystals, plates and lenses) (Siegman, "Lasers", ch. 11, from memory; the field sum
+    E_c = t1 E_in / (1 - r1 r_rest)).
+    """
+    wl = cav.wavelength_nm
+    if cav.output_power_w is not None:
+        oc = layout.optics[cav.output_coupler]
+        t = _transmission(oc, wl)
+        if t <= 0:
+            raise LayoutError(f"output coupler \"{oc.id}\" transmits nothing at {wl:g} nm (reflectivity 1)",
+                              oc.where("reflectivity"))
+        return cav.output_power_w / t
+    if cav.input_power_w is None:
+        return None
+    ic = layout.optics[cav.input_coupler]
+    r_in = reflectivity_at(ic, wl, None)
+    if r_in is None:
+        raise LayoutError(f"input coupler \"{ic.id}\" needs a reflectivity", ic.loc)
+    t_in = _transmission(ic, wl)
+    rest = 1.0
+    passes = 2 if cav.kind == "linear" else 1
+    for i, hit in enumerate(path.hits):
+        if hit.optic == cav.input_coupler:
+            continue
+        optic = layout.optics[hit.optic]
+        n = 1 if (cav.kind == "ring" or i in (0, len(path.hits) - 1)) else passes
+        rest *= _pass_factor(optic, hit.action, wl) ** n
+    denom = (1.0 - math.sqrt(r_in * rest * (1.0 - cav.loss))) ** 2
+    return cav.input_power_w * t_in / denom if denom > 0 else math.inf
+
+
+def _transmission(optic, wl: float) -> float:
+    r = reflectivity_at(optic, wl, 1.0 if optic.kind == "mirror" else 0.0)
+    return max(0.0, 1.0 - r - absorption_at(optic, wl))
+
+
+def _pass_factor(optic, action: str, wl: float) -> float:
+    """Fraction of power that stays in the beam at one pass of an element."""
+    if optic.kind in ("mirror", "splitter"):
+        if action == REFLECT:
+            return reflectivity_at(optic, wl, 1.0 if optic.kind == "mirror" else None) or 0.0
+        return _transmission(optic, wl)
+    if optic.kind == "plate":
+        return max(0.0, 1.0 - (reflectivity_at(optic, wl, 0.0) or 0.0) - absorption_at(optic, wl))
+    if optic.kind in ("crystal", "lens"):
+        return 1.0 - absorption_at(optic, wl)
+    return 1.0
+
+
+def _peak(power, w_t, w_s):
+    """2P/(pi w_t w_s) in W/cm^2 (or J/cm^2 for an energy): elliptical Gaussian peak."""
+    if power is None or w_t is None or w_s is None:
+        return None
+    return 2.0 * power / (math.pi * w_t * w_s * MM2_TO_CM2)
+
+
+def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
+    wavelength = cav.wavelength_nm * NM_TO_MM
+    trains = {p: cavity_train(layout, path, p) for p in PLANES}
+    notes: list[str] = []
+    modes, radii, waists = {}, {}, []
+    for plane, train in trains.items():
+        rt = _product(train.steps)
+        scale = max(_reduced_length(train), 1e-9)
+        mode = resonator.solve_plane(rt, scale, _halves(train, path.role, len(path.hits)))
+        modes[plane] = mode
+        if mode.q is not None:
+            marks, raw = _walk(train, mode.q, wavelength)
+            radii[plane] = marks
+            waists += _dedupe_waists(plane, raw)
+        else:
+            radii[plane] = {}
+        notes += train.notes
+    waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
+    round_trip = sum(st.length * st.index for st in trains[TANGENTIAL].steps if isinstance(st, Space))
+    fsr = SPEED_OF_LIGHT_MM_S / round_trip if round_trip > 0 else math.inf
+    p_circ = circulating_power(layout, cav, path)
+    pulsed = cav.rep_hz is not None
+    hits = []
+    for i, hit in enumerate(path.hits):
+        w = {p: radii[p].get(i) for p in PLANES}
+        peak = _peak(p_circ, w[TANGENTIAL], w[SAGITTAL])
+        fluence = _peak(p_circ / cav.rep_hz, w[TANGENTIAL], w[SAGITTAL]) if pulsed and p_circ is not None else None
+        hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p_circ, peak,
+                              fluence, counter_propagating=cav.kind == "linear"))
+    thermal = _thermal_scan(layout, cav, path, trains)
+    return CavityResult(cav.id, cav.kind, modes, round_trip, fsr, p_circ, hits, waists, thermal, trains,
+                        passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)))
+
+
+# --- beams ------------------------------------------------------------------------------
+
+def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -> BeamResult:
+    notes: list[str] = []
+    wl_nm = path.wavelength_nm
+    wavelength = wl_nm * NM_TO_MM
+    origin = path.origin
+    energy = None
+    if origin in layout.sources:
+        src = layout.sources[origin]
+        q0 = {TANGENTIAL: gauss.q_at_distance_from_waist(src.waist_t, -src.waist_at, wavelength, src.m2_t),
+              SAGITTAL: gauss.q_at_distance_from_waist(src.waist_s, -src.waist_at, wavelength, src.m2_s)}
+        m2 = {TANGENTIAL: src.m2_t, SAGITTAL: src.m2_s}
+        power = src.power_w
+        if power is None and src.pulse_energy_j is not None and src.rep_hz is not None:
+            power = src.pulse_energy_j * src.rep_hz
+        if src.pulse_energy_j is not None:
+            energy = src.pulse_energy_j
+        elif src.pulse_s is not None and src.rep_hz is not None and power is not None:
+            energy = power / src.rep_hz
+        prefixes = {p: [] for p in PLANES}
+    else:
+        cav = layout.cavities[origin]
+        result = cavities[origin]
+        cpath = traced.cavities[origin]
+        k = [h.optic for h in cpath.hits].index(cav.output_coupler)
+        oc_hit = cpath.hits[k]
+        q0, m2, prefixes = {}, {TANGENTIAL: 1.0, SAGITTAL: 1.0}, {}
+        for plane in PLANES:
+            mode = result.modes[plane]
+            q0[plane] = None if mode.q is None else _q_at_marker(result.trains[plane], mode.q, k)
+            through = _as_transmitted(oc_hit)
+            prefixes[plane] = substrate_steps(through, layout.optics[cav.output_coupler], plane, notes)
+        oc = layout.optics[cav.output_coupler]
+        power = None if result.circulating_w is None else result.circulating_w * _transmission(oc, cav.wavelength_nm)
+        if cav.rep_hz is not None and power is not None:
+            energy = power / cav.rep_hz
+        if any(v is None for v in q0.values()):
+            notes.append(f"cavity \"{origin}\" has no mode in every plane, so beam \"{path.id}\" has no size there")
+    radii, waists = {}, []
+    for plane in PLANES:
+        train = beam_train(layout, path, plane, prefixes[plane])
+        notes += train.notes
+        if q0[plane] is None:
+            radii[plane] = {}
+            continue
+        marks, raw = _walk(train, complex(q0[plane]), wavelength, m2[plane])
+        radii[plane] = marks
+        waists += _dedupe_waists(plane, raw)
+    waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
+    hits = []
+    p = power
+    for i, hit in enumerate(path.hits):
+        optic = layout.optics[hit.optic]
+        w = {pl: radii[pl].get(i) for pl in PLANES}
+        fluence = _peak(energy * (p / power), w[TANGENTIAL], w[SAGITTAL]) if energy is not None and power else None
+        hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p,
+                              _peak(p, w[TANGENTIAL], w[SAGITTAL]), fluence))
+        if p is not None and hit.action != "end":
+            if optic.kind == "splitter" and optic.reflectivity is not None:
+                reflectivity_at(optic, wl_nm, None)  # a missing wavelength entry is an error
+            p *= _pass_factor(optic, hit.action, wl_nm)
+    return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)))
+
+
+def _q_at_marker(train: Train, q0: complex, hit_index: int) -> complex:
+    q = q0
+    for st in train.steps:
+        if isinstance(st, Marker):
+            if st.hit == hit_index:
+                return q
+            continue
+        q = complex(gauss.propagate(st.matrix(), q))
+    raise AssertionError("marker not in train")
+
+
+def _as_transmitted(hit):
+    """The cavity's hit at its output coupler, seen by the beam that passes through it."""
+    from dataclasses import replace
+    return replace(hit, action=TRANSMIT, from_back=False, s=0.0)

@@ -1,0 +1,283 @@
+"""Line and column numbers for the keys and values of a TOML document.
+
+``tomllib`` turns a TOML document into plain dicts and lists but keeps no
+record of where anything was written, so a validation error could only name a
+path such as ``optic[2].mount.size[1]``.  To point the user at the exact spot
+in the file, :func:`key_positions` re-reads the text with a small hand-written
+scanner and maps every path of the parsed document to its ``(line, column)``.
+
+Paths have the shape of the data ``tomllib.loads`` returns: tuples of ``str``
+keys and ``int`` list indices, e.g. ``("optic", 0, "mount", "size", 1)``.
+
+* A key maps to the first character of the key (the opening quote of a quoted
+  key).  A dotted key ``a.b.c = 1`` maps ``("a", "b", "c")`` and, unless they
+  are already known, ``("a",)`` and ``("a", "b")`` to the start of ``a``.
+* A table header ``[t]`` or ``[[t]]`` maps to its opening ``[``; the n-th
+  ``[[t]]`` header is ``("t", n)`` and ``("t",)`` is the first such header.
+  A table that is only implied (``[a.b]`` before or without ``[a]``) maps to
+  the first header implying it until an explicit definition takes over.
+* An array element maps to the first character of the element.
+
+Lines and columns are 1-based; columns count characters (code points) and a
+``\\r\\n`` line ending counts as a single line break.
+
+The scanner assumes text that ``tomllib.loads`` has already accepted.  It never
+raises: if it meets something it does not understand it stops and returns the
+positions found so far.
+"""
+
+from __future__ import annotations
+
+import bisect
+import tomllib
+
+__all__ = ["key_positions"]
+
+_BARE_KEY_CHARS = frozenset(
+    "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_-"
+)
+_BLANK = " \t\r\n"
+_SCALAR_END = ",]}#\n"  # characters that can never occur inside a bare value
+
+
+def key_positions(text: str) -> dict[tuple, tuple[int, int]]:
+    """Map each path in the parsed document to the (line, column) where it is written, both 1-based."""
+    scanner = _Scanner(text)
+    try:
+        scanner.document()
+    except (_Stop, ValueError, IndexError):
+        pass  # keep the partial map; callers then just lack some positions
+    return scanner.positions
+
+
+class _Stop(Exception):
+    """The scanner met text it cannot make sense of."""
+
+
+class _Scanner:
+    """A cursor over the text plus the bookkeeping needed to build paths."""
+
+    def __init__(self, text: str) -> None:
+        self.text = text.replace("\r\n", "\n")
+        self.i = 0
+        self.line_starts = [0] + [k + 1 for k, ch in enumerate(self.text) if ch == "\n"]
+        self.positions: dict[tuple, tuple[int, int]] = {}
+        self.implicit: set[tuple] = set()  # paths only implied so far
+        self.aot_counts: dict[tuple, int] = {}  # [[header]] path -> elements seen
+
+    # -- cursor helpers -------------------------------------------------------
+
+    def peek(self, n: int = 1) -> str:
+        return self.text[self.i : self.i + n]
+
+    def expect(self, s: str) -> None:
+        if not self.text.startswith(s, self.i):
+            raise _Stop(f"expected {s!r} at offset {self.i}")
+        self.i += len(s)
+
+    def skip_ws(self) -> None:
+        """Skip spaces and tabs on the current line."""
+        while self.i < len(self.text) and self.text[self.i] in " \t":
+            self.i += 1
+
+    def skip_blank(self) -> None:
+        """Skip whitespace, newlines and comments."""
+        while self.i < len(self.text):
+            ch = self.text[self.i]
+            if ch in _BLANK:
+                self.i += 1
+            elif ch == "#":
+                end = self.text.find("\n", self.i)
+                self.i = len(self.text) if end < 0 else end
+            else:
+                return
+
+    # -- recording --------------------------------------------------------------
+
+    def line_col(self, offset: int) -> tuple[int, int]:
+        line = bisect.bisect_right(self.line_starts, offset)
+        return line, offset - self.line_starts[line - 1] + 1
+
+    def record(self, path: tuple, offset: int, implicit: bool = False) -> None:
+        """Remember where *path* is written; the first explicit mention wins."""
+        if path in self.positions and (implicit or path not in self.implicit):
+            return
+        self.positions[path] = self.line_col(offset)
+        if implicit:
+            self.implicit.add(path)
+        else:
+            self.implicit.discard(path)
+
+    # -- document structure -------------------------------------------------
+
+    def document(self) -> None:
+        table: tuple = ()
+        while True:
+            self.skip_blank()
+            if self.i >= len(self.text):
+                return
+            if self.peek() == "[":
+                table = self.header()
+            else:
+                self.key_value(table)
+
+    def header(self) -> tuple:
+        """Read ``[a.b]`` or ``[[a.b]]`` and return the path of the table it opens."""
+        start = self.i
+        is_array = self.peek(2) == "[["
+        self.i += 2 if is_array else 1
+        names = [name for name, _ in self.key()]
+        self.skip_ws()
+        self.expect("]]" if is_array else "]")
+
+        path: tuple = ()
+        for name in names[:-1]:
+            path += (name,)
+            self.record(path, start, implicit=True)
+            if path in self.aot_counts:  # [[fruit]] then [fruit.x]: the last fruit
+                path += (self.aot_counts[path] - 1,)
+        path += (names[-1],)
+        if is_array:
+            n = self.aot_counts.get(path, 0)
+            self.aot_counts[path] = n + 1
+            self.record(path, start)
+            path += (n,)
+        self.record(path, start)
+        return path
+
+    def key_value(self, table: tuple) -> None:
+        """Read ``key = value`` belonging to the table at path *table*."""
+        start = self.i
+        names = [name for name, _ in self.key()]
+        self.skip_ws()
+        self.expect("=")
+        self.skip_ws()
+        for k in range(1, len(names)):
+            self.record(table + tuple(names[:k]), start, implicit=True)
+        path = table + tuple(names)
+        self.record(path, start)
+        self.value(path)
+
+    def key(self) -> list[tuple[str, int]]:
+        """Read a possibly dotted key; return its parts with their offsets."""
+        parts = []
+        while True:
+            self.skip_ws()
+            start = self.i
+            parts.append((self.simple_key(), start))
+            self.skip_ws()
+            if self.peek() != ".":
+                return parts
+            self.i += 1
+
+    def simple_key(self) -> str:
+        start = self.i
+        quote = self.peek()
+        if quote == '"':
+            self.skip_basic_string()
+            raw = self.text[start : self.i]
+            if "\\" in raw:  # let tomllib decode the escapes exactly as it did
+                return tomllib.loads(f"k = {raw}")["k"]
+            return raw[1:-1]
+        if quote == "'":
+            self.skip_literal_string()
+            return self.text[start + 1 : self.i - 1]
+        while self.i < len(self.text) and self.text[self.i] in _BARE_KEY_CHARS:
+            self.i += 1
+        if self.i == start:
+            raise _Stop(f"no key at offset {start}")
+        return self.text[start : self.i]
+
+    # -- values -------------------------------------------------------------------
+
+    def value(self, path: tuple) -> None:
+        ch = self.peek()
+        if ch == "[":
+            self.array(path)
+        elif ch == "{":
+            self.inline_table(path)
+        elif ch in ('"', "'"):
+            self.string()
+        else:  # number, boolean, inf/nan, date/time: up to a delimiter
+            start = self.i
+            while self.i < len(self.text) and self.text[self.i] not in _SCALAR_END:
+                self.i += 1
+            if self.i == start:
+                raise _Stop(f"no value at offset {start}")
+
+    def array(self, path: tuple) -> None:
+        self.expect("[")
+        index = 0
+        while True:
+            self.skip_blank()
+            if self.peek() == "]":
+                self.i += 1
+                return
+            self.record(path + (index,), self.i)
+            self.value(path + (index,))
+            self.skip_blank()
+            if self.peek() == ",":
+                self.i += 1
+            index += 1
+
+    def inline_table(self, path: tuple) -> None:
+        self.expect("{")
+        while True:
+            self.skip_blank()
+            if self.peek() == "}":
+                self.i += 1
+                return
+            self.key_value(path)
+            self.skip_blank()
+            if self.peek() == ",":
+                self.i += 1
+
+    # -- strings ----------------------------------------------------------------
+
+    def string(self) -> None:
+        if self.peek(3) == '"""':
+            self.skip_multiline_string('"', escapes=True)
+        elif self.peek(3) == "'''":
+            self.skip_multiline_string("'", escapes=False)
+        elif self.peek() == '"':
+            self.skip_basic_string()
+        else:
+            self.skip_literal_string()
+
+    def skip_basic_string(self) -> None:
+        self.expect('"')
+        while self.i < len(self.text):
+            ch = self.text[self.i]
+            if ch == "\\":
+                self.i += 2
+            elif ch == '"':
+                self.i += 1
+                return
+            elif ch == "\n":
+                break
+            else:
+                self.i += 1
+        raise _Stop("unterminated string")
+
+    def skip_literal_string(self) -> None:
+        self.expect("'")
+        end = self.text.find("'", self.i)
+        if end < 0 or "\n" in self.text[self.i : end]:
+            raise _Stop("unterminated literal string")
+        self.i = end + 1
+
+    def skip_multiline_string(self, quote: str, escapes: bool) -> None:
+        self.expect(quote * 3)
+        while self.i < len(self.text):
+            ch = self.text[self.i]
+            if escapes and ch == "\\":
+                self.i += 2  # also covers a line-ending backslash
+            elif ch == quote and self.peek(3) == quote * 3:
+                # Up to two quotes right before the closing delimiter belong to
+                # the content (""""" is a quote pair then """), so eat the run.
+                while self.peek() == quote:
+                    self.i += 1
+                return
+            else:
+                self.i += 1
+        raise _Stop("unterminated multi-line string")

@@ -1,0 +1,268 @@
+"""Follow every cavity and beam across the placed optics.
+
+For each path: the ordered hits with their geometric position along the path, the angle
+of incidence, the fold each mirror really makes, and the segment lengths; plus the
+geometric problems a reviewer must see (a path that bends where nothing folds, a fold
+that differs from the declared one, a ring that does not close, optics off the table).
+These problems are data here; the ``layout-geometry`` rule turns them into findings.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from shapely.geometry import Point, box
+
+from .abcd import brewster_angle
+from .model import Layout, Loc
+from .placement import (
+    FOLDING_KINDS, STRAIGHT_TOLERANCE_DEG, Placement, bends, cavity_exit, fold_for_turn, heading_of, turn_for_fold, unit, wrap180,
+)
+
+#: Default tolerance (deg) between a declared fold and the one the geometry gives.
+FOLD_TOLERANCE_DEG = 0.5
+#: A beam crossing a crystal or plate this far (deg) off its axis is reported.
+AXIS_TOLERANCE_DEG = 0.5
+
+
+REFLECT = "reflect"
+TRANSMIT = "transmit"
+END = "end"
+
+
+@dataclass
+class Hit:
+    optic: str
+    kind: str
+    point: np.ndarray
+    s: float                    # mm from the path start along the beam
+    d_in: np.ndarray            # unit vector arriving
+    d_out: np.ndarray | None    # unit vector leaving (None where the path ends)
+    action: str                 # reflect | transmit | end
+    aoi: float                  # radians, the angle the optical model uses
+    fold: float | None          # degrees, geometric full fold at a reflection
+    loc: Loc
+    #: a mirror or splitter met from its back (transmission through the substrate from behind)
+    from_back: bool = False
+
+
+@dataclass
+class GeometryIssue:
+    kind: str
+    message: str
+    targets: tuple[str, ...]
+    loc: Loc
+    value: float | None = None
+    limit: float | None = None
+    unit: str | None = None
+
+
+@dataclass
+class PathTrace:
+    id: str
+    role: str                   # "linear" | "ring" | "beam"
+    wavelength_nm: float
+    hits: list[Hit]
+    #: geometric segment lengths: between hits (ring: plus the closing one back to the
+    #: first hit); for a beam the first is from its origin to the first hit
+    segments: list[float]
+    loc: Loc
+    origin: str | None = None           # beams: source or cavity id
+    start: np.ndarray | None = None     # beams: the origin point
+
+
+@dataclass
+class Trace:
+    placement: Placement
+    cavities: dict[str, PathTrace]
+    beams: dict[str, PathTrace]
+    issues: list[GeometryIssue] = field(default_factory=list)
+
+
+def trace(placement: Placement, fold_tolerance: float = FOLD_TOLERANCE_DEG) -> Trace:
+    layout = placement.layout
+    out = Trace(placement, {}, {}, [])
+    for cav in layout.cavities.values():
+        out.cavities[cav.id] = _trace_cavity(placement, cav, fold_tolerance, out.issues)
+    for beam in layout.beams.values():
+        out.beams[beam.id] = _trace_beam(placement, beam, fold_tolerance, out.issues)
+    _off_table(placement, out.issues)
+    return out
+
+
+def _hit(placement, entry, s, d_in, d_out, role_end, holder_id, tol, issues) -> Hit:
+    placed = placement.optics[entry.id]
+    optic = placed.optic
+    if role_end:
+        action = REFLECT if optic.kind in FOLDING_KINDS else END
+    elif d_out is None:
+        action = END
+    else:
+        action = REFLECT if bends(d_in, d_out, STRAIGHT_TOLERANCE_DEG) else TRANSMIT
+    fold = None
+    from_back = False
+    if action == REFLECT and optic.kind not in FOLDING_KINDS:
+        turn = wrap180(heading_of(d_out) - heading_of(d_in))
+        issues.append(GeometryIssue(
+            "bend-at-non-folding",
+            f"the path of \"{holder_id}\" turns by {abs(turn):.3g} deg at {optic.kind} \"{optic.id}\", which does not fold a beam",
+            (optic.id, holder_id), entry.loc, abs(turn), 0.0, "deg"))
+        action = TRANSMIT
+    if action == REFLECT:
+        fold = fold_for_turn(heading_of(d_out) - heading_of(d_in))
+        declared = entry.fold if entry.fold is not None else optic.fold
+        if declared is not None and abs(wrap180(fold - declared)) > tol:
+            issues.append(GeometryIssue(
+                "fold-mismatch",
+                f"\"{optic.id}\" folds \"{holder_id}\" by {fold:.3f} deg on the table, but {declared:g} deg is declared",
+                (optic.id, holder_id), entry.loc, fold, declared, "deg"))
+        # the law of reflection against the normal set by the path that oriented the mirror
+        normal = placed.direction
+        expected = np.asarray(d_in) - 2.0 * np.dot(d_in, normal) * normal
+        miss = abs(wrap180(heading_of(d_out) - heading_of(expected)))
+        if placed.oriented_by != holder_id and miss > tol:
+            issues.append(GeometryIssue(
+                "reflection-off-normal",
+                f"\"{holder_id}\" reflects at \"{optic.id}\" {miss:.2f} deg away from the law of reflection for the "
+                f"mirror as \"{placed.oriented_by}\" sets it",
+                (optic.id, holder_id), entry.loc, miss, tol, "deg"))
+        aoi = math.acos(min(1.0, abs(float(np.dot(d_in, normal)))))
+        # a retro-reflecting end mirror: aoi from the geometry is 0
+        if fold == 0.0:
+            aoi = 0.0
+    else:
+        aoi = _transmission_aoi(placed, d_in, holder_id, entry.loc, issues)
+        if optic.kind in FOLDING_KINDS:
+            from_back = float(np.dot(d_in, placed.direction)) > 0
+    return Hit(optic.id, optic.kind, placed.point, s, np.asarray(d_in), None if d_out is None else np.asarray(d_out),
+               action, aoi, fold, entry.loc, from_back)
+
+
+def _transmission_aoi(placed, d_in, holder_id, loc, issues) -> float:
+    optic = placed.optic
+    axis = placed.direction
+    off = math.degrees(math.acos(min(1.0, abs(float(np.dot(d_in, axis))))))
+    if optic.kind in FOLDING_KINDS:
+        return math.radians(off)
+    if optic.kind in ("crystal", "plate"):
+        if off > AXIS_TOLERANCE_DEG:
+            issues.append(GeometryIssue(
+                "off-axis-crossing",
+                f"\"{holder_id}\" crosses {optic.kind} \"{optic.id}\" {off:.2f} deg off its axis; it is modelled on axis",
+                (optic.id, holder_id), loc, off, AXIS_TOLERANCE_DEG, "deg"))
+        if optic.faces == "brewster":
+            return float(brewster_angle(optic.index))
+        if optic.kind == "plate":
+            return math.radians(optic.aoi or 0.0)
+        return 0.0
+    return math.radians(off)
+
+
+def _trace_cavity(placement: Placement, cav, tol, issues) -> PathTrace:
+    entries = list(cav.path)
+    pts = [placement.optics[e.id].point for e in entries]
+    n = len(entries)
+    hits: list[Hit] = []
+    if cav.kind == "linear":
+        segs = [float(np.linalg.norm(pts[i + 1] - pts[i])) for i in range(n - 1)]
+        s = 0.0
+        for i, e in enumerate(entries):
+            fwd_in = _dir(pts[i - 1], pts[i]) if i > 0 else -_dir(pts[0], pts[1])
+            if i == 0:
+                d_in, d_out = fwd_in, _dir(pts[0], pts[1])
+            elif i == n - 1:
+                d_in, d_out = fwd_in, -fwd_in
+            else:
+                d_in, d_out = fwd_in, _dir(pts[i], pts[i + 1])
+            hits.append(_hit(placement, e, s, d_in, d_out, i in (0, n - 1), cav.id, tol, issues))
+            if i < n - 1:
+                s += segs[i]
+    else:
+        segs = [float(np.linalg.norm(pts[(i + 1) % n] - pts[i])) for i in range(n)]
+        s = 0.0
+        for i, e in enumerate(entries):
+            d_in = _dir(pts[i - 1], pts[i])
+            d_out = _dir(pts[i], pts[(i + 1) % n])
+            hits.append(_hit(placement, e, s, d_in, d_out, False, cav.id, tol, issues))
+            s += segs[i]
+        _ring_closure(placement, cav, pts, issues)
+    return PathTrace(cav.id, cav.kind, cav.wavelength_nm, hits, segs, cav.loc)
+
+
+def _ring_closure(placement, cav, pts, issues) -> None:
+    """A relatively placed ring must close: the declared heading leaving the last element
+    should lead back onto the first.  Reports the miss in mm and the angle error."""
+    entries = cav.path
+    if not any(e.distance is not None for e in entries):
+        return
+    last = entries[-1]
+    optic = placement.optics[last.id].optic
+    arrive = heading_of(pts[-1] - pts[-2])
+    fold = last.fold if last.fold is not None else optic.fold
+    if optic.kind in FOLDING_KINDS and fold is None:
+        return
+    leave = arrive + (turn_for_fold(fold) if optic.kind in FOLDING_KINDS else 0.0)
+    to_first = pts[0] - pts[-1]
+    along = unit(leave)
+    miss = abs(float(along[0] * to_first[1] - along[1] * to_first[0]))
+    angle = abs(wrap180(heading_of(to_first) - leave))
+    if miss > 1e-3 or float(np.dot(along, to_first)) <= 0:
+        issues.append(GeometryIssue(
+            "ring-not-closed",
+            f"ring \"{cav.id}\" does not close: leaving \"{last.id}\" it passes {miss:.3f} mm beside \"{entries[0].id}\" "
+            f"({angle:.3f} deg off)", (cav.id, last.id, entries[0].id), cav.loc, miss, 1e-3, "mm"))
+
+
+def _trace_beam(placement: Placement, beam, tol, issues) -> PathTrace:
+    layout = placement.layout
+    if beam.origin in layout.sources:
+        start = placement.sources[beam.origin]
+    else:
+        start, _ = cavity_exit(layout, layout.cavities[beam.origin], {k: v.point for k, v in placement.optics.items()})
+    pts = [start] + [placement.optics[e.id].point for e in beam.path]
+    segs = [float(np.linalg.norm(pts[i + 1] - pts[i])) for i in range(len(pts) - 1)]
+    hits = []
+    s = 0.0
+    for i, e in enumerate(beam.path, start=1):
+        s += segs[i - 1]
+        d_in = _dir(pts[i - 1], pts[i])
+        d_out = _dir(pts[i], pts[i + 1]) if i + 1 < len(pts) else _continue(placement, e, d_in)
+        hits.append(_hit(placement, e, s, d_in, d_out, False, beam.id, tol, issues))
+    wl = (layout.sources[beam.origin].wavelength_nm if beam.origin in layout.sources
+          else layout.cavities[beam.origin].wavelength_nm)
+    return PathTrace(beam.id, "beam", wl, hits, segs, beam.loc, beam.origin, start)
+
+
+def _continue(placement, entry, d_in):
+    """Direction after a beam's last element: None at a dump or detector, else onward."""
+    optic = placement.optics[entry.id].optic
+    if optic.kind in ("dump", "detector"):
+        return None
+    fold = entry.fold if entry.fold is not None else optic.fold
+    if optic.kind in FOLDING_KINDS and fold is not None:
+        return unit(heading_of(d_in) + turn_for_fold(fold))
+    return np.asarray(d_in)
+
+
+def _dir(a, b) -> np.ndarray:
+    v = np.asarray(b, dtype=float) - np.asarray(a, dtype=float)
+    return v / float(np.hypot(v[0], v[1]))
+
+
+def _off_table(placement: Placement, issues) -> None:
+    layout: Layout = placement.layout
+    w, h = layout.bench.size
+    table = box(0.0, 0.0, w, h)
+    for placed in placement.optics.values():
+        o = placed.optic
+        if not table.contains(Point(placed.point)) and o.kind != "obstacle":
+            issues.append(GeometryIssue(
+                "off-table", f"\"{o.id}\" at ({placed.point[0]:.1f}, {placed.point[1]:.1f}) mm is off the "
+                             f"{w:g} x {h:g} mm table", (o.id,), o.loc))
+        elif not table.contains(placed.footprint):
+            over = placed.footprint.difference(table).area
+            issues.append(GeometryIssue(
+                "off-table", f"the mount of \"{o.id}\" overhangs the table edge by {over:.0f} mm^2",
+                (o.id,), o.loc, over, 0.0, "mm^2"))

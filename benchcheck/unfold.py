@@ -1,0 +1,284 @@
+"""Unfold traced paths into tangential and sagittal trains of reduced ABCD steps.
+
+A train is a flat list of steps: ``Space`` (free propagation, with what is needed to
+report physical radii and waists inside media), ``Thin`` (a matrix of zero length) and
+``Marker`` (where a hit is reported).  Building steps from optic parameters is the only
+place that knows how each kind of optic acts on a beam; the solver only multiplies.
+
+Media use the air-equivalent ("reduced length") model of Kogelnik et al., IEEE JQE 8, 373
+(1972): a Brewster-cut crystal of length L is L/n sagittal and L/n^3 tangential; inside
+it the physical tangential radius is larger than the model's by cos(t2)/cos(t1) (= n at
+Brewster), which ``Space.scale`` carries.  Thin lenses, including thermal lenses, are
+applied in those model coordinates in both planes (DESIGN section 4).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import abcd
+from .abcd import SAGITTAL, TANGENTIAL
+from .model import Layout, LayoutError, Optic
+from .trace import REFLECT, TRANSMIT, Hit, PathTrace
+
+
+@dataclass
+class Space:
+    length: float               # geometric mm along the beam
+    k: float                    # reduced (air-equivalent) mm per geometric mm
+    scale: float = 1.0          # physical radius / model radius inside this medium
+    index: float = 1.0
+    s0: float = 0.0             # path coordinate (mm) where it starts
+    forward: bool = True        # False on the return half of a linear cavity
+
+    def matrix(self) -> np.ndarray:
+        return abcd.free_space(self.length * self.k)
+
+
+@dataclass
+class Thin:
+    m: np.ndarray
+    label: str
+    #: for a thermal lens: the crystal id, so the solver can vary its power
+    thermal: str | None = None
+
+    def matrix(self) -> np.ndarray:
+        return self.m
+
+
+@dataclass
+class Marker:
+    hit: int                    # index into the path's hits
+    s: float
+    scale: float = 1.0          # physical radius / model radius at this point
+
+
+@dataclass
+class Train:
+    plane: str
+    steps: list = field(default_factory=list)
+    #: indices of the steps that are Markers, in order (for splitting a round trip)
+    notes: list[str] = field(default_factory=list)
+
+
+def thermal_design_power(values: tuple[float, ...] | None) -> float:
+    """Dioptric power (1/mm) used for the beam table: the value, or mid-range in 1/f."""
+    if not values:
+        return 0.0
+    powers = [1.0 / f for f in values]
+    return sum(powers) / len(powers)
+
+
+def thermal_range(optic: Optic, plane: str) -> tuple[float, ...] | None:
+    if optic.thermal_lens_t is not None:
+        return optic.thermal_lens_t if plane == TANGENTIAL else optic.thermal_lens_s
+    return optic.thermal_lens
+
+
+def medium_factors(index: float, aoi: float, plane: str) -> tuple[float, float]:
+    """(k, scale) of a medium entered from air at angle ``aoi`` through a flat face.
+
+    k_s = 1/n, k_t = cos^2 t1 / (n cos^2 t2); scale_t = cos t2 / cos t1 (Kogelnik et al.
+    1972, from memory; the plate formulas d = k * t / cos t2 follow).
+    """
+    t2 = math.asin(math.sin(aoi) / index)
+    if plane == SAGITTAL:
+        return 1.0 / index, 1.0
+    c1, c2 = math.cos(aoi), math.cos(t2)
+    return c1 * c1 / (index * c2 * c2), c2 / c1
+
+
+def internal_length(optic: Optic, aoi: float) -> float:
+    """Geometric length (mm) a beam travels inside a crystal or plate."""
+    if optic.kind == "crystal":
+        return optic.length
+    t2 = math.asin(math.sin(aoi) / optic.index)
+    return optic.thickness / math.cos(t2)
+
+
+def extent(hit: Hit, optic: Optic) -> tuple[float, float]:
+    """Geometric length an element takes from the air before and after its hit point."""
+    if optic.kind in ("crystal", "plate") and hit.action == TRANSMIT:
+        half = internal_length(optic, hit.aoi) / 2.0
+        return half, half
+    return 0.0, 0.0
+
+
+def element_steps(hit: Hit, optic: Optic, plane: str, thermal_powers: dict, notes: list) -> tuple[list, list, float]:
+    """Steps before and after the hit point of one element, and the radius scale there."""
+    kind = optic.kind
+    if kind == "mirror" and hit.action == REFLECT:
+        if optic.roc is None:
+            return [], [], 1.0
+        return [], [Thin(abcd.mirror(optic.roc, hit.aoi, plane), f"mirror {optic.id}")], 1.0
+    if kind == "splitter" and hit.action == REFLECT:
+        return [], [], 1.0
+    if kind in ("mirror", "splitter"):
+        return [], substrate_steps(hit, optic, plane, notes), 1.0
+    if kind == "lens":
+        return [], [Thin(abcd.thin_lens(optic.focal_length), f"lens {optic.id}")], 1.0
+    if kind in ("crystal", "plate"):
+        k, scale = medium_factors(optic.index, hit.aoi, plane)
+        half = internal_length(optic, hit.aoi) / 2.0
+        pre = [Space(half, k, scale, optic.index, hit.s - half)]
+        post = []
+        if kind == "crystal" and thermal_range(optic, plane):
+            power = thermal_powers.get((optic.id, plane))
+            if power is None:
+                power = thermal_design_power(thermal_range(optic, plane))
+            post.append(Thin(abcd.lens_power(power), f"thermal lens {optic.id}", thermal=optic.id))
+        post.append(Space(half, k, scale, optic.index, hit.s))
+        return pre, post, scale
+    return [], [], 1.0   # aperture, dump, detector: no action on the beam's shape
+
+
+def substrate_steps(hit: Hit, optic: Optic, plane: str, notes: list) -> list:
+    """A beam passing through a mirror or splitter: its substrate as a (tilted) thick lens.
+
+    The reflecting face carries the curvature (roc > 0: centre of curvature on the front
+    side); the back face is flat.  Refraction by the Coddington equations in ``abcd.interface``.
+    """
+    n = optic.substrate_index
+    t = optic.substrate_thickness
+    if n is None:
+        if optic.roc is not None:
+            notes.append(f"\"{optic.id}\" is curved but gives no substrate index: the beam passing through it is "
+                         "taken without the substrate's lens (add substrate = {{ thickness = ..., index = ... }})")
+        return []
+    t = t or 0.0
+    aoi = hit.aoi
+    t2 = math.asin(math.sin(aoi) / n)
+    roc = math.inf if optic.roc is None else optic.roc
+    if hit.from_back:   # flat back face first, curved front face last; centre of curvature lies ahead
+        first = abcd.interface(1.0, n, aoi, math.inf, plane)
+        last = abcd.interface(n, 1.0, t2, roc, plane)
+    else:               # curved front face first; its centre of curvature lies behind the beam
+        first = abcd.interface(1.0, n, aoi, -roc, plane)
+        last = abcd.interface(n, 1.0, t2, math.inf, plane)
+    inside = Space(t / math.cos(t2), 1.0 / n, 1.0, n, hit.s)
+    return [Thin(first, f"substrate face {optic.id}"), inside, Thin(last, f"substrate face {optic.id}")]
+
+
+def _air(length: float, s0: float, forward: bool = True) -> Space:
+    return Space(max(length, 0.0), 1.0, 1.0, 1.0, s0, forward)
+
+
+def _element_parts(layout: Layout, path: PathTrace, plane: str, thermal_powers: dict, notes: list):
+    parts = []
+    for i, hit in enumerate(path.hits):
+        optic = layout.optics[hit.optic]
+        pre, post, scale = element_steps(hit, optic, plane, thermal_powers, notes)
+        parts.append((pre, Marker(i, hit.s, scale), post, extent(hit, optic)))
+    return parts
+
+
+def _reversed_steps(steps: list) -> list:
+    out = []
+    for st in reversed(steps):
+        if isinstance(st, Space):
+            out.append(Space(st.length, st.k, st.scale, st.index, st.s0, False))
+        elif isinstance(st, Thin):
+            out.append(st)
+    return out
+
+
+def cavity_train(layout: Layout, path: PathTrace, plane: str, thermal_powers: dict | None = None) -> Train:
+    """Round trip of a cavity from its first element (before any action there).
+
+    Linear: there and back between the end mirrors; markers only on the way out.
+    Ring: once round in travel order.
+    """
+    thermal_powers = thermal_powers or {}
+    train = Train(plane)
+    parts = _element_parts(layout, path, plane, thermal_powers, train.notes)
+    steps: list = []
+    n = len(parts)
+    if path.role == "linear":
+        pre0, mark0, post0, _ = parts[0]
+        steps += [mark0] + post0
+        for i in range(1, n):
+            gap = path.segments[i - 1] - parts[i - 1][3][1] - parts[i][3][0]
+            steps.append(_air(gap, path.hits[i - 1].s + parts[i - 1][3][1]))
+            pre, mark, post, _ = parts[i]
+            steps += pre + [mark] + post
+        back = []
+        for i in range(n - 1, 0, -1):
+            gap = path.segments[i - 1] - parts[i - 1][3][1] - parts[i][3][0]
+            if i < n - 1:
+                pre, _, post, _ = parts[i]
+                back += _reversed_steps(pre + post)
+            back.append(_air(gap, path.hits[i - 1].s + parts[i - 1][3][1], forward=False))
+        steps += back + _reversed_steps(pre0)
+    else:
+        pre0, mark0, post0, _ = parts[0]
+        steps += [mark0] + post0
+        for i in range(1, n + 1):
+            j = i % n
+            gap = path.segments[i - 1] - parts[i - 1][3][1] - parts[j][3][0]
+            steps.append(_air(gap, path.hits[i - 1].s + parts[i - 1][3][1]))
+            if j:
+                pre, mark, post, _ = parts[j]
+                steps += pre + [mark] + post
+        steps += pre0
+    train.steps = steps
+    return train
+
+
+def beam_train(layout: Layout, path: PathTrace, plane: str, prefix: list | None = None) -> Train:
+    """From the beam's origin through every hit; ``prefix`` steps (the output coupler's
+    substrate for a beam leaving a cavity) come first."""
+    train = Train(plane)
+    parts = _element_parts(layout, path, plane, {}, train.notes)
+    steps = list(prefix or [])
+    prev_ext = 0.0
+    prev_s = 0.0
+    for i, (pre, mark, post, (before, after)) in enumerate(parts):
+        gap = path.segments[i] - prev_ext - before
+        steps.append(_air(gap, prev_s + prev_ext))
+        steps += pre + [mark] + post
+        prev_ext, prev_s = after, path.hits[i].s
+    train.steps = steps
+    return train
+
+
+def overlap_issues(layout: Layout, path: PathTrace) -> list[str]:
+    """Elements whose lengths overlap along the path (a crystal longer than its gap)."""
+    out = []
+    hits = path.hits
+    n = len(hits)
+    pairs = [(i, i + 1) for i in range(n - 1)]
+    if path.role == "ring":
+        pairs.append((n - 1, 0))
+    for a, b in pairs:
+        ea = extent(hits[a], layout.optics[hits[a].optic])[1]
+        eb = extent(hits[b], layout.optics[hits[b].optic])[0]
+        seg = path.segments[a] if path.role != "beam" else path.segments[a + 1]
+        if ea + eb > seg + 1e-9:
+            out.append(f"\"{hits[a].optic}\" and \"{hits[b].optic}\" overlap along \"{path.id}\": "
+                       f"{seg:.2f} mm apart but {ea + eb:.2f} mm of material between their centres")
+    return out
+
+
+def reflectivity_at(optic: Optic, wavelength_nm: float, default: float | None) -> float | None:
+    spec = optic.reflectivity
+    if spec is None:
+        return default
+    value = spec.at(wavelength_nm)
+    if value is None:
+        raise LayoutError(f"\"{optic.id}\" gives reflectivity for {spec.describe()} but not for {wavelength_nm:g} nm "
+                          "(within 2 %)", optic.where("reflectivity"))
+    return value
+
+
+def absorption_at(optic: Optic, wavelength_nm: float) -> float:
+    spec = optic.absorption
+    if spec is None:
+        return 0.0
+    value = spec.at(wavelength_nm)
+    if value is None:
+        raise LayoutError(f"\"{optic.id}\" gives absorption for {spec.describe()} but not for {wavelength_nm:g} nm "
+                          "(within 2 %)", optic.where("absorption"))
+    return value
