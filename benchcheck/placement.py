@@ -121,9 +121,9 @@ def place(layout: Layout) -> Placement:
         if optic.kind == "obstacle":
             placed[oid] = Placed(optic, _obstacle_anchor(optic), np.array([1.0, 0.0]), None, obstacle_footprint(optic))
             continue
-        direction, by = _orientation(optic, arrivals.get(oid, []))
-        if by is None:
-            notes.append(f"optic \"{oid}\" is on no cavity or beam path; its mount is drawn facing +x")
+        direction, by, note = _orientation(optic, arrivals.get(oid, []))
+        if note:
+            notes.append(note)
         placed[oid] = Placed(optic, points[oid], direction, by, footprint(optic, points[oid], direction))
     return Placement(layout, placed, sources, notes)
 
@@ -154,17 +154,21 @@ def _advance(entry, prev_point, heading, points, layout, holder_id) -> np.ndarra
 def _heading_after(entry, optic: Optic, heading_in: float | None, orienting: bool) -> float | None:
     """Declared heading leaving an element, from its fold; None where geometry must decide.
 
-    A path entry's own ``fold`` always applies.  The optic's ``fold`` key belongs to the
+    A path entry's own ``fold`` always applies.  A mirror's ``fold`` key belongs to the
     path that orients it (the first cavity, else the first beam, that meets it); any other
-    beam passes a mirror or splitter straight on unless its entry gives a ``fold``.
+    beam passes a mirror straight on unless its entry gives a ``fold``.  A splitter's
+    ``fold`` key only sets its face angle: a path follows its reflected branch only where
+    the path entry says ``fold``.
     """
     if heading_in is None:
         return None
-    if optic.kind in FOLDING_KINDS:
+    if optic.kind == "splitter":
+        return heading_in + (turn_for_fold(entry.fold) if entry.fold is not None else 0.0)
+    if optic.kind == "mirror":
         fold = entry.fold if entry.fold is not None else (optic.fold if orienting else None)
-        if fold is None and orienting:
-            return None
-        return heading_in + (turn_for_fold(fold) if fold is not None else 0.0)
+        if fold is None:
+            return None if orienting else heading_in
+        return heading_in + turn_for_fold(fold)
     return heading_in
 
 
@@ -267,20 +271,30 @@ def bends(d_in, d_out, tol_deg: float = STRAIGHT_TOLERANCE_DEG) -> bool:
     return abs(wrap180(heading_of(d_out) - heading_of(d_in))) > tol_deg
 
 
+#: Face angle assumed for a splitter that no path reflects from and that gives no ``fold``.
+DEFAULT_SPLITTER_FOLD = 90.0
+
+
 def _orientation(optic: Optic, seen: list):
-    """Facing of an optic from the first path that meets it."""
+    """Facing of an optic from the first path that meets it, and a note where it is assumed."""
     if not seen:
-        return np.array([1.0, 0.0]), None
+        return np.array([1.0, 0.0]), None, f"optic \"{optic.id}\" is on no cavity or beam path; its mount is drawn facing +x"
     by, d_in, d_out = seen[0]
     if optic.kind in FOLDING_KINDS:
         if d_out is not None and bends(d_in, d_out):
-            return _norm(d_out - d_in), by
-        # passes straight through: the face angle comes from a declared fold, else normal incidence
-        if optic.fold is not None:
-            d_refl = unit(heading_of(d_in) + turn_for_fold(optic.fold))
-            return _norm(d_refl - d_in), by
-        return -np.asarray(d_in), by
-    return np.asarray(d_in), by
+            return _norm(d_out - d_in), by, None
+        # passes straight through: the face angle comes from a declared fold
+        note = None
+        fold = optic.fold
+        if fold is None and optic.kind == "splitter":
+            fold = DEFAULT_SPLITTER_FOLD
+            note = (f"splitter \"{optic.id}\" gives no 'fold' for its face angle; {DEFAULT_SPLITTER_FOLD:g} deg "
+                    "(45 deg incidence) is assumed")
+        if fold is None:
+            return -np.asarray(d_in), by, None
+        d_refl = unit(heading_of(d_in) + turn_for_fold(fold))
+        return _norm(d_refl - d_in), by, note
+    return np.asarray(d_in), by, None
 
 
 def mount_size(optic: Optic) -> tuple[float, float]:

@@ -275,7 +275,7 @@ class _Scanner:
             elif ch == quote and self.peek(3) == quote * 3:
                 # Up to two quotes right before the closing delimiter belong to
                 # the content (""""" is a quote pair then """), so eat the run.
-                while self.peek() == quote:
+                for _ in range(3):
                     self.i += 1
                 return
             else:

@@ -228,21 +228,22 @@ def _trace_beam(placement: Placement, beam, tol, issues) -> PathTrace:
     for i, e in enumerate(beam.path, start=1):
         s += segs[i - 1]
         d_in = _dir(pts[i - 1], pts[i])
-        d_out = _dir(pts[i], pts[i + 1]) if i + 1 < len(pts) else _continue(placement, e, d_in)
+        d_out = _dir(pts[i], pts[i + 1]) if i + 1 < len(pts) else _continue(placement, e, d_in, beam.id)
         hits.append(_hit(placement, e, s, d_in, d_out, False, beam.id, tol, issues))
     wl = (layout.sources[beam.origin].wavelength_nm if beam.origin in layout.sources
           else layout.cavities[beam.origin].wavelength_nm)
     return PathTrace(beam.id, "beam", wl, hits, segs, beam.loc, beam.origin, start)
 
 
-def _continue(placement, entry, d_in):
+def _continue(placement, entry, d_in, beam_id):
     """Direction after a beam's last element: None at a dump or detector, else onward."""
     optic = placement.optics[entry.id].optic
     if optic.kind in ("dump", "detector"):
         return None
-    fold = entry.fold if entry.fold is not None else optic.fold
-    if optic.kind in FOLDING_KINDS and fold is not None:
-        return unit(heading_of(d_in) + turn_for_fold(fold))
+    if optic.kind in FOLDING_KINDS and entry.fold is not None:
+        return unit(heading_of(d_in) + turn_for_fold(entry.fold))
+    if optic.kind == "mirror" and placement.optics[entry.id].oriented_by == beam_id and optic.fold is not None:
+        return unit(heading_of(d_in) + turn_for_fold(optic.fold))
     return np.asarray(d_in)
 
 

@@ -462,8 +462,11 @@ def _lookup(data, path):
 
 # -- property test: random data through a tiny serializer ----------------------------------
 
-hypothesis = pytest.importorskip("hypothesis")
-st = hypothesis.strategies
+try:
+    import hypothesis
+    from hypothesis import strategies as st
+except ImportError:  # only the property test needs it
+    hypothesis = None
 
 BARE = re.compile(r"[A-Za-z0-9_-]+\Z")
 COMMENTS = ["# c", "# [fake] x = 1", '# "q" = [[x]]', "#", "# ' { ,"]
@@ -540,6 +543,8 @@ def _scalar(v, rng) -> str:
 
 
 class _Dumper:
+    """Serialise a dict to TOML in randomly chosen styles, noting what text each path starts with."""
+
     def __init__(self, rng):
         self.rng = rng
         self.lines: list[str] = []
@@ -611,31 +616,36 @@ def dump(data: dict, rng) -> tuple[str, dict]:
     return "\n".join(dumper.lines) + "\n", dumper.expected
 
 
-keys = st.one_of(st.from_regex(r"[A-Za-z0-9_-]{1,6}", fullmatch=True), st.text(max_size=5))
-scalars = st.one_of(
-    st.text(max_size=8),
-    st.text(alphabet=" \t\n\"'\\#[]{}=,.", max_size=8),
-    st.integers(min_value=-(2**63), max_value=2**63 - 1),
-    st.floats(allow_nan=False),
-    st.booleans(),
-    st.datetimes(),
-    st.dates(),
-    st.times(),
-)
-values = st.recursive(
-    scalars,
-    lambda children: st.lists(children, max_size=4) | st.dictionaries(keys, children, max_size=4),
-    max_leaves=20,
-)
+if hypothesis is None:
 
+    def test_random_documents():
+        pytest.importorskip("hypothesis")
 
-@hypothesis.settings(max_examples=300, deadline=None)
-@hypothesis.given(data=st.dictionaries(keys, values, max_size=6), rng=st.randoms(use_true_random=False))
-def test_random_documents(data, rng):
-    doc, expected = dump(data, rng)
-    assert tomllib.loads(doc) == data  # the serializer itself is right
-    positions = key_positions(doc)
-    assert set(positions) == set(all_paths(data)) == set(expected)
-    for path, token in expected.items():
-        assert text_at(doc, *positions[path]).startswith(token), (path, token)
-    assert key_positions(doc.replace("\n", "\r\n")) == positions
+else:
+    keys = st.one_of(st.from_regex(r"[A-Za-z0-9_-]{1,6}", fullmatch=True), st.text(max_size=5))
+    scalars = st.one_of(
+        st.text(max_size=8),
+        st.text(alphabet=" \t\n\"'\\#[]{}=,.", max_size=8),
+        st.integers(min_value=-(2**63), max_value=2**63 - 1),
+        st.floats(allow_nan=False),
+        st.booleans(),
+        st.datetimes(),
+        st.dates(),
+        st.times(),
+    )
+    values = st.recursive(
+        scalars,
+        lambda children: st.lists(children, max_size=4) | st.dictionaries(keys, children, max_size=4),
+        max_leaves=20,
+    )
+
+    @hypothesis.settings(max_examples=300, deadline=None)
+    @hypothesis.given(data=st.dictionaries(keys, values, max_size=6), rng=st.randoms(use_true_random=False))
+    def test_random_documents(data, rng):
+        doc, expected = dump(data, rng)
+        assert tomllib.loads(doc) == data  # the serializer itself is right
+        positions = key_positions(doc)
+        assert set(positions) == set(all_paths(data)) == set(expected)
+        for path, token in expected.items():
+            assert text_at(doc, *positions[path]).startswith(token), (path, token)
+        assert key_positions(doc.replace("\n", "\r\n")) == positions
