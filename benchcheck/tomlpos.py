@@ -36,7 +36,7 @@ __all__ = ["key_positions"]
 _BARE_KEY_CHARS = frozenset(
     "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_-"
 )
-_BLANK = " \t\r\n"
+_BLANK = " \t\n"
 _SCALAR_END = ",]}#\n"  # characters that can never occur inside a bare value
 
 
@@ -275,7 +275,7 @@ class _Scanner:
             elif ch == quote and self.peek(3) == quote * 3:
                 # Up to two quotes right before the closing delimiter belong to
                 # the content (""""" is a quote pair then """), so eat the run.
-                for _ in range(3):
+                while self.peek() == quote:
                     self.i += 1
                 return
             else:
