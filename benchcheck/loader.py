@@ -63,6 +63,22 @@ LIDT_KEYS = ("w_cm", "w_cm2", "j_cm2", "pulse_s", "wavelength_nm")
 SUBSTRATE_KEYS = ("thickness", "index")
 FACES = ("normal", "brewster")
 _ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.\-]*$")
+#: Coordinates and lengths beyond this (mm) are typing errors, not benches.
+MAX_EXTENT_MM = 1.0e6
+#: Any number beyond this magnitude is rejected before it can overflow the arithmetic.
+MAX_MAGNITUDE = 1.0e15
+#: Names people reach for, and the key this format uses instead (for "did you mean").
+SYNONYMS = {
+    "f": "focal_length", "efl": "focal_length", "focal": "focal_length", "focal_length_mm": "focal_length",
+    "r": "roc", "radius": "roc", "radius_of_curvature": "roc", "curvature": "roc", "roc_mm": "roc",
+    "n": "index", "refractive_index": "index", "angle": "aoi", "angle_of_incidence": "aoi",
+    "incidence": "aoi", "wavelength": "wavelength_nm", "lambda": "wavelength_nm", "lambda_nm": "wavelength_nm",
+    "power": "power_w", "p_w": "power_w", "w0": "waist", "waist_radius": "waist", "m_squared": "m2",
+    "position": "at", "pos": "at", "xy": "at", "r_oc": "reflectivity", "refl": "reflectivity",
+    "transmission": "reflectivity", "aperture": "diameter", "clear_aperture": "diameter", "d": "distance",
+    "dist": "distance", "len": "length", "l": "length", "type": "kind", "name": "id", "direction": "heading",
+    "to": "toward", "towards": "toward", "source": "from", "origin": "from",
+}
 
 
 def load_path(path: str | Path) -> Layout:
@@ -177,6 +193,9 @@ class _Reader:
     @staticmethod
     def _unknown(key: str, allowed: tuple, what: str) -> str:
         close = difflib.get_close_matches(key, allowed, n=1, cutoff=0.6)
+        synonym = SYNONYMS.get(key.lower())
+        if synonym in allowed and synonym != key:
+            close = [synonym]
         hint = f"; did you mean '{close[0]}'?" if close else f"; allowed keys: {', '.join(allowed)}"
         return f"unknown key '{key}' in {what}{hint}"
 
@@ -194,6 +213,8 @@ class _Reader:
         x = float(value)
         if math.isnan(x) or math.isinf(x):
             raise self.fail(path, f"{label} must be a finite number{unit_txt}, found {value}")
+        if abs(x) > MAX_MAGNITUDE:
+            raise self.fail(path, f"{label} = {value:g} is far too large{unit_txt}")
         if nonzero and x == 0:
             raise self.fail(path, f"{label} must not be zero")
         if low is not None and (x <= low if low_open else x < low):
@@ -225,7 +246,8 @@ class _Reader:
         if not isinstance(value, list) or len(value) != 2:
             raise self.fail(path, f"{self.name(path)} must be {what}, found {_kind_name(value)}"
                                   + (f" of {len(value)} items" if isinstance(value, list) else ""))
-        return tuple(self.number(v, path + (i,), "mm", low=0.0 if positive else None, low_open=positive)
+        return tuple(self.number(v, path + (i,), "mm", low=0.0 if positive else -MAX_EXTENT_MM, low_open=positive,
+                                 high=MAX_EXTENT_MM)
                      for i, v in enumerate(value))  # type: ignore[return-value]
 
     def polygon(self, value: Any, path: tuple) -> tuple[tuple[float, float], ...]:
@@ -495,7 +517,8 @@ class _Reader:
             if isinstance(item, dict):
                 t = self.table(item, ip, PATH_ENTRY_KEYS, f"a path entry of {what}")
                 ident = self.ident(self.require(t, "id", ip, f"a path entry of {what}"), ip + ("id",))
-                dist = self.number(t["distance"], ip + ("distance",), "mm", low=0.0, low_open=True) if "distance" in t else None
+                dist = (self.number(t["distance"], ip + ("distance",), "mm", low=0.0, low_open=True, high=MAX_EXTENT_MM)
+                        if "distance" in t else None)
                 fold = self.number(t["fold"], ip + ("fold",), "degrees", low=-180.0, high=180.0) if "fold" in t else None
             else:
                 ident = self.ident(item, ip)

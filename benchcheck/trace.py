@@ -165,6 +165,7 @@ def _trace_cavity(placement: Placement, cav, tol, issues) -> PathTrace:
     pts = [placement.optics[e.id].point for e in entries]
     n = len(entries)
     hits: list[Hit] = []
+    _check_heading(cav.id, cav.heading, pts[0], pts[1], entries[1].id, cav.where("heading"), tol, issues)
     if cav.kind == "linear":
         segs = [float(np.linalg.norm(pts[i + 1] - pts[i])) for i in range(n - 1)]
         s = 0.0
@@ -189,6 +190,19 @@ def _trace_cavity(placement: Placement, cav, tol, issues) -> PathTrace:
             s += segs[i]
         _ring_closure(placement, cav, pts, issues)
     return PathTrace(cav.id, cav.kind, cav.wavelength_nm, hits, segs, cav.loc)
+
+
+def _check_heading(holder_id: str, declared: float | None, start, first, first_id: str, loc, tol, issues) -> None:
+    """A declared first heading must agree with where the first element really is."""
+    if declared is None:
+        return
+    actual = heading_of(np.asarray(first) - np.asarray(start))
+    off = abs(wrap180(actual - declared))
+    if off > tol:
+        issues.append(GeometryIssue(
+            "heading-mismatch",
+            f"\"{holder_id}\" declares heading {declared:g} deg but \"{first_id}\" lies at {actual:.3f} deg",
+            (holder_id, first_id), loc, actual, declared, "deg"))
 
 
 def _ring_closure(placement, cav, pts, issues) -> None:
@@ -222,6 +236,11 @@ def _trace_beam(placement: Placement, beam, tol, issues) -> PathTrace:
     else:
         start, _ = cavity_exit(layout, layout.cavities[beam.origin], {k: v.point for k, v in placement.optics.items()})
     pts = [start] + [placement.optics[e.id].point for e in beam.path]
+    if beam.origin in layout.sources:
+        src = layout.sources[beam.origin]
+        declared = src.heading if src.heading is not None else beam.heading
+        where = src.where("heading") if src.heading is not None else beam.where("heading")
+        _check_heading(beam.id, declared, start, pts[1], beam.path[0].id, where, tol, issues)
     segs = [float(np.linalg.norm(pts[i + 1] - pts[i])) for i in range(len(pts) - 1)]
     hits = []
     s = 0.0
