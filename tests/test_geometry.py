@@ -1,0 +1,201 @@
+"""Placement and tracing against hand geometry (plane trigonometry).
+
+The fold convention is DESIGN section 3: fold is the full angle between the arriving and
+leaving beam (twice the angle of incidence), positive when the beam turns left, and the new
+heading is old + sign(fold) * (180 - |fold|).
+"""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from benchcheck import solve_text
+from benchcheck.placement import fold_for_turn, turn_for_fold
+
+HEAD = 'format = 1\n[bench]\nname = "g"\nsize = [2000, 2000]\n'
+
+
+def mirror(ident, at=None, roc=None, extra=""):
+    s = f'[[optic]]\nid = "{ident}"\nkind = "mirror"\n'
+    if at:
+        s += f"at = [{at[0]!r}, {at[1]!r}]\n"
+    if roc:
+        s += f"roc = {roc!r}\n"
+    return s + extra
+
+
+def kinds(sol):
+    return [i.kind for i in sol.trace.issues]
+
+
+@pytest.mark.parametrize("fold, turn", [(90, 90), (-90, -90), (20, 160), (-20, -160), (0, 180), (170, 10)])
+def test_fold_to_heading_change(fold, turn):
+    # a 45-degree steering mirror turns the beam by 90 degrees (fold = +-90); a small
+    # fold is almost a retro-reflection (DESIGN section 3)
+    assert turn_for_fold(fold) % 360 == pytest.approx(turn % 360)
+    assert fold_for_turn(turn) == pytest.approx(fold)
+
+
+def test_relative_placement_positions_and_angles():
+    """Start at (100, 100) heading 0; 200 mm to M2, fold +90 (turn left); 150 mm to M3."""
+    text = HEAD + mirror("M1", (100.0, 100.0)) + mirror("M2") + mirror("M3") + """
+[[cavity]]
+id = "c"
+kind = "linear"
+heading = 0.0
+wavelength_nm = 1000
+path = ["M1", { id = "M2", distance = 200.0, fold = 90.0 }, { id = "M3", distance = 150.0 }]
+"""
+    sol = solve_text(text)
+    p = {k: v.point for k, v in sol.placement.optics.items()}
+    assert p["M2"] == pytest.approx([300.0, 100.0])
+    assert p["M3"] == pytest.approx([300.0, 250.0])
+    hits = sol.trace.cavities["c"].hits
+    assert [h.s for h in hits] == pytest.approx([0.0, 200.0, 350.0])
+    assert math.degrees(hits[1].aoi) == pytest.approx(45.0)
+    assert hits[1].fold == pytest.approx(90.0)
+    assert hits[0].fold == 0.0 and hits[2].fold == 0.0
+    # the mirror's normal bisects arriving (+x) and leaving (+y) directions: (-1, 1)/sqrt 2
+    n = sol.placement.optics["M2"].direction
+    assert n == pytest.approx([-math.sqrt(0.5), math.sqrt(0.5)])
+    assert sol.trace.issues == []
+
+
+def test_fold_mismatch_is_reported_with_numbers():
+    # M2 at (300,100), M3 at (300,250): the geometry folds by +90; 80 is declared
+    text = HEAD + mirror("M1", (100.0, 100.0)) + mirror("M2", (300.0, 100.0), extra="fold = 80.0\n") \
+        + mirror("M3", (300.0, 250.0)) + """
+[[cavity]]
+id = "c"
+kind = "linear"
+wavelength_nm = 1000
+path = ["M1", "M2", "M3"]
+"""
+    sol = solve_text(text)
+    issue = [i for i in sol.trace.issues if i.kind == "fold-mismatch"][0]
+    assert issue.value == pytest.approx(90.0) and issue.limit == 80.0
+    assert issue.loc.line > 1
+
+
+def test_bend_at_a_lens_is_reported():
+    # the beam goes (0,100) -> lens (100,100) -> dump at (200, 150): it turns by atan(50/100)
+    text = HEAD + """
+[[optic]]
+id = "L"
+kind = "lens"
+at = [100.0, 100.0]
+focal_length = 100.0
+[[optic]]
+id = "D"
+kind = "dump"
+at = [200.0, 150.0]
+[[source]]
+id = "S"
+at = [0.0, 100.0]
+heading = 0.0
+wavelength_nm = 1000
+waist = 0.5
+[[beam]]
+id = "b"
+from = "S"
+path = ["L", "D"]
+"""
+    sol = solve_text(text)
+    issue = [i for i in sol.trace.issues if i.kind == "bend-at-non-folding"][0]
+    assert issue.value == pytest.approx(math.degrees(math.atan2(50, 100)))
+
+
+def test_ring_that_does_not_close_reports_the_miss():
+    # square ring with 200 mm sides placed relatively; the last fold is 95 instead of 90,
+    # so the beam leaving M4 misses M1 by 200 * sin(5 deg) sideways
+    text = HEAD + mirror("M1", (500.0, 500.0)) + mirror("M2") + mirror("M3") + mirror("M4") + """
+[[cavity]]
+id = "r"
+kind = "ring"
+heading = 0.0
+wavelength_nm = 1000
+path = ["M1", { id = "M2", distance = 200.0, fold = 90.0 }, { id = "M3", distance = 200.0, fold = 90.0 },
+        { id = "M4", distance = 200.0, fold = 95.0 }]
+"""
+    sol = solve_text(text)
+    issue = [i for i in sol.trace.issues if i.kind == "ring-not-closed"][0]
+    assert issue.value == pytest.approx(200.0 * math.sin(math.radians(5.0)), rel=1e-9)
+
+
+def test_closed_relative_ring_has_no_issue():
+    text = HEAD + mirror("M1", (500.0, 500.0), extra="fold = 90.0\n") + mirror("M2") + mirror("M3") + mirror("M4") + """
+[[cavity]]
+id = "r"
+kind = "ring"
+heading = 0.0
+wavelength_nm = 1000
+path = ["M1", { id = "M2", distance = 200.0, fold = 90.0 }, { id = "M3", distance = 200.0, fold = 90.0 },
+        { id = "M4", distance = 200.0, fold = 90.0 }]
+"""
+    sol = solve_text(text)
+    assert sol.trace.issues == []
+    assert sol.cavities["r"].round_trip_mm == pytest.approx(800.0)
+
+
+def test_optic_off_the_table_and_overhanging_mount():
+    text = 'format = 1\n[bench]\nname = "g"\nsize = [500, 300]\n' + mirror("M1", (5.0, 150.0)) \
+        + mirror("M2", (700.0, 150.0)) + """
+[[cavity]]
+id = "c"
+kind = "linear"
+wavelength_nm = 1000
+path = ["M1", "M2"]
+"""
+    sol = solve_text(text)
+    msgs = [i.message for i in sol.trace.issues if i.kind == "off-table"]
+    assert any("M2" in m and "off the" in m for m in msgs)
+    assert any("M1" in m and "overhangs" in m for m in msgs)
+
+
+def test_heading_that_contradicts_the_geometry():
+    text = HEAD + mirror("M1", (100.0, 100.0)) + mirror("M2", (100.0, 300.0)) + """
+[[cavity]]
+id = "c"
+kind = "linear"
+heading = 0.0
+wavelength_nm = 1000
+path = ["M1", "M2"]
+"""
+    sol = solve_text(text)
+    issue = [i for i in sol.trace.issues if i.kind == "heading-mismatch"][0]
+    assert issue.value == pytest.approx(90.0)
+
+
+def test_pump_through_a_cavity_mirror_sees_the_geometric_angle():
+    """A beam crossing a cavity's fold mirror meets it at the angle between its direction
+    and the mirror normal that the cavity set (law of reflection, plane geometry)."""
+    text = HEAD + mirror("M1", (100.0, 100.0)) + mirror("M2", (300.0, 100.0)) + mirror("M3", (400.0, 200.0)) + """
+[[optic]]
+id = "D"
+kind = "dump"
+at = [500.0, 100.0]
+[[source]]
+id = "P"
+at = [100.0, 300.0]
+toward = "M2"
+wavelength_nm = 532
+waist = 0.5
+[[cavity]]
+id = "c"
+kind = "linear"
+wavelength_nm = 1000
+path = ["M1", "M2", "M3"]
+[[beam]]
+id = "pump"
+from = "P"
+path = ["M2"]
+"""
+    sol = solve_text(text)
+    # cavity: arrives along +x, leaves toward (1,1): turn 45, fold 135, aoi 22.5 deg;
+    # normal = (d_out - d_in) normalised, pointing at 112.5 deg
+    # pump heading from (100,300) to (300,100): -45 deg; angle to the normal line: 22.5 deg
+    hit = sol.trace.beams["pump"].hits[0]
+    assert math.degrees(hit.aoi) == pytest.approx(180.0 - (112.5 + 45.0), abs=1e-9)
+    assert hit.action == "end" or hit.action == "transmit"
