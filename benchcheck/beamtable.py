@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 
 from .abcd import PLANES, SAGITTAL, TANGENTIAL
-from .resonator import STATUS_TEXT
+from .resonator import STATUS_LABEL, STATUS_TEXT
 from .solve import BeamResult, CavityResult, HitResult, Solution
 
 JSON_FORMAT = 1
@@ -165,13 +165,14 @@ def cavity_text(c: CavityResult) -> list[str]:
     for p, name in ((TANGENTIAL, "tangential"), (SAGITTAL, "sagittal")):
         mode = c.modes[p]
         margin = 1.0 - abs(mode.m)
-        state = "STABLE" if mode.status == "stable" else STATUS_TEXT[mode.status].upper().split(":")[0]
+        state = STATUS_LABEL[mode.status]
         lines.append(f"  {name:<10}  m = {mode.m:+.6f}  margin 1-|m| = {margin:.4f}  {state}"
                      + (f"  Gouy {c.gouy_deg(p):.2f} deg  TMS {_si(c.tms_hz(p), 'Hz')}" if mode.gouy is not None else ""))
         if mode.status != "stable":
             lines.append(f"    {STATUS_TEXT[mode.status]}")
     lines.append(f"  round trip {c.round_trip_mm:.3f} mm (optical)  FSR {_si(c.fsr_hz, 'Hz')}  "
-                 f"circulating {_f(c.circulating_w, '.4g', 'unknown')} W one-way")
+                 + (f"circulating {c.circulating_w:.4g} W one-way" if c.circulating_w is not None
+                    else "circulating power not given (no output or input power in the layout)"))
     if c.thermal is not None:
         t = c.thermal
         for p in PLANES:
@@ -187,7 +188,8 @@ def cavity_text(c: CavityResult) -> list[str]:
 
 
 def beam_text(b: BeamResult) -> list[str]:
-    lines = [f"beam {b.id} (from {b.origin}, {_f(b.power_w, '.4g', 'unknown')} W)"]
+    power = f"{b.power_w:.4g} W" if b.power_w is not None else "power not given"
+    lines = [f"beam {b.id} (from {b.origin}, {power})"]
     pulsed = any(h.peak_j_cm2 is not None for h in b.hits)
     lines += _hits_table(b.hits, pulsed)
     lines += _waist_lines(b.waists)

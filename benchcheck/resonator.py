@@ -27,6 +27,13 @@ UNSTABLE = "unstable"
 MARGINAL_RETRACE = "marginal-retrace"  # round trip = +-I: every ray retraces itself
 MARGINAL_WALKOFF = "marginal-walkoff"  # |m| = 1 but not +-I: rays walk off
 
+STATUS_LABEL = {
+    STABLE: "STABLE",
+    UNSTABLE: "UNSTABLE",
+    MARGINAL_RETRACE: "MARGINAL (round trip +-I)",
+    MARGINAL_WALKOFF: "MARGINAL, NOT STABLE (walk-off)",
+}
+
 STATUS_TEXT = {
     STABLE: "stable",
     UNSTABLE: "unstable: |m| > 1, rays diverge from the axis",

@@ -287,6 +287,9 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
             waists += _dedupe_waists(plane, raw)
         else:
             radii[plane] = {}
+            if mode.status == resonator.MARGINAL_RETRACE:
+                notes.append(f"{plane}: the round trip is +-I but no repeating half of it is stable, so every beam "
+                             "reproduces itself and there is no unique mode")
         notes += train.notes
     waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
     round_trip = sum(st.length * st.index for st in trains[TANGENTIAL].steps if isinstance(st, Space))
