@@ -36,7 +36,8 @@ def cmd_beams(args) -> int:
 
     files = _layout_files(args.layouts)
     if not files:
-        print(f"benchcheck: no layout files (*.toml) found in {' '.join(args.layouts)}", file=sys.stderr)
+        for p in args.layouts:
+            print(f"{p}: error: no layout files (*.toml) in this folder", file=sys.stderr)
         return EXIT_BAD_INPUT
     status = EXIT_OK
     results = []

@@ -67,6 +67,14 @@ _ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.\-]*$")
 MAX_EXTENT_MM = 1.0e6
 #: Any number beyond this magnitude is rejected before it can overflow the arithmetic.
 MAX_MAGNITUDE = 1.0e15
+#: A quantity that must be positive or non-zero is at least this large in its unit.
+MIN_MAGNITUDE = 1.0e-12
+#: Smallest waist radius (mm): far below it the paraxial Gaussian beam does not apply.
+MIN_WAIST_MM = 1.0e-4
+#: Smallest radius of curvature or focal length (mm) taken seriously.
+MIN_FOCAL_MM = 1.0e-3
+#: Wavelengths accepted, nm: from the far UV to the far infrared.
+WAVELENGTH_RANGE_NM = (1.0, 1.0e6)
 #: Names people reach for, and the key this format uses instead (for "did you mean").
 SYNONYMS = {
     "f": "focal_length", "efl": "focal_length", "focal": "focal_length", "focal_length_mm": "focal_length",
@@ -94,31 +102,100 @@ def load_path(path: str | Path) -> Layout:
 
 
 def load_bytes(data: bytes, file: str = "<layout>") -> Layout:
+    nul = data.find(b"\x00")
+    if nul >= 0:
+        raise LayoutError(
+            "NUL byte: this is a binary file or UTF-16/32 text; a layout is a UTF-8 TOML text file",
+            _byte_loc(data, nul, file),
+        )
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as exc:
-        line = data[: exc.start].count(b"\n") + 1
-        col = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
         raise LayoutError(
-            f"not UTF-8 text (byte 0x{data[exc.start]:02x}); a layout is a TOML text file",
-            Loc(file, line, col),
+            f"not UTF-8 text (byte 0x{data[exc.start]:02x}); a layout is a UTF-8 TOML text file",
+            _byte_loc(data, exc.start, file),
         ) from None
     if text.startswith("\ufeff"):
         text = text[1:]
     return load_text(text, file)
 
 
+def _byte_loc(data: bytes, offset: int, file: str) -> Loc:
+    line = data[:offset].count(b"\n") + 1
+    col = offset - (data.rfind(b"\n", 0, offset) + 1) + 1
+    return Loc(file, line, col)
+
+
+#: No layout needs arrays or inline tables nested deeper than this.
+MAX_NESTING = 32
+
+
 def load_text(text: str, file: str = "<layout>") -> Layout:
     """Validate TOML text; ``file`` is only used in messages."""
+    deep = _too_deep(text)
+    if deep is not None:
+        raise LayoutError(f"arrays or inline tables nested more than {MAX_NESTING} deep; a layout needs a few "
+                          "levels at most (e.g. polygon = [[x, y], ...])", Loc(file, *deep))
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise _syntax_error(exc, text, file) from None
+    except RecursionError:  # pragma: no cover - _too_deep catches these first
+        raise LayoutError("the layout is nested too deeply to read", Loc(file, 1, 1)) from None
     try:
         positions = key_positions(text)
     except Exception:  # the scanner must never turn a good file into a crash
         positions = {}
-    return _Reader(file, positions).layout(doc)
+    return _Reader(file, positions, doc).layout(doc)
+
+
+def _too_deep(text: str):
+    """(line, column) where brackets outside strings and comments first nest too deep.
+
+    A rough scan that only needs to be right for files that nest absurdly deep: it
+    follows quotes and comments well enough not to count brackets inside them.
+    """
+    depth = 0
+    line, col = 1, 0
+    i, n = 0, len(text)
+    quote = None
+    while i < n:
+        ch = text[i]
+        col += 1
+        if ch == "\n":
+            line, col = line + 1, 0
+            if quote in ('"', "'"):
+                quote = None
+        elif quote:
+            if ch == "\\" and quote in ('"', '"""'):
+                i += 2
+                col += 1
+                continue
+            if text.startswith(quote, i):
+                i += len(quote)
+                col += len(quote) - 1
+                quote = None
+                continue
+        elif ch == "#":
+            end = text.find("\n", i)
+            if end < 0:
+                break
+            col += end - i - 1
+            i = end
+            continue
+        elif ch in "\"'":
+            quote = ch * 3 if text.startswith(ch * 3, i) else ch
+            i += len(quote)
+            col += len(quote) - 1
+            continue
+        elif ch in "[{":
+            depth += 1
+            if depth > MAX_NESTING:
+                return line, col
+        elif ch in "]}":
+            depth = max(0, depth - 1)
+        i += 1
+    return None
 
 
 def _syntax_error(exc: Exception, text: str, file: str) -> LayoutError:
@@ -132,7 +209,21 @@ def _syntax_error(exc: Exception, text: str, file: str) -> LayoutError:
         msg = msg[: found.start()].strip()
     if line is None:
         line, col = (text.count("\n") + 1, 1) if "end of document" in msg else (1, 1)
-    return LayoutError(f"TOML syntax: {msg[:1].lower() + msg[1:]}", Loc(file, line, col or 1))
+    lines = text.split("\n")
+    source = lines[line - 1] if 0 < line <= len(lines) else ""
+    lowered = msg.lower()
+    if "overwrite" in lowered and "=" in source:
+        key = source.split("=", 1)[0].strip()
+        msg = f"'{key}' is given twice in the same table; each key may appear once"
+        col = source.index(key) + 1 if key in source else col
+    elif "cannot declare" in lowered:
+        msg = f"{msg}: each [table] may appear once (use [[name]] for a list of tables)"
+    elif "illegal character" in lowered and ("'\\n'" in msg or "\\n" in msg) and (
+            source.count('"') % 2 == 1 or source.count("'") % 2 == 1):
+        msg = "unterminated string: the closing quote is missing on this line"
+    else:
+        msg = msg[:1].lower() + msg[1:]
+    return LayoutError("TOML syntax: " + msg, Loc(file, line, col or 1))
 
 
 def _kind_name(value: Any) -> str:
@@ -154,9 +245,17 @@ def _kind_name(value: Any) -> str:
 class _Reader:
     """Walks the parsed document, converting and checking values against their paths."""
 
-    def __init__(self, file: str, positions: dict):
+    def __init__(self, file: str, positions: dict, doc: dict | None = None):
         self.file = file
         self.positions = positions
+        #: (section, index) -> id, so messages say optic "M2" rather than optic[3]
+        self.ids: dict[tuple, str] = {}
+        for section in ("optic", "source", "cavity", "beam", "zone"):
+            items = (doc or {}).get(section)
+            if isinstance(items, list):
+                for i, item in enumerate(items):
+                    if isinstance(item, dict) and isinstance(item.get("id"), str):
+                        self.ids[(section, i)] = item["id"]
 
     # -- locations and errors ------------------------------------------------------
     def loc(self, path: tuple) -> Loc:
@@ -172,9 +271,19 @@ class _Reader:
         return LayoutError(message, self.loc(path))
 
     def name(self, path: tuple) -> str:
+        """How a value is named in messages: by the id of its table where it has one."""
         out = ""
-        for part in path:
-            out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out else part)
+        rest = path
+        if len(path) >= 2 and isinstance(path[1], int) and (path[0], path[1]) in self.ids:
+            out = f'{path[0]} "{self.ids[(path[0], path[1])]}"'
+            rest = path[2:]
+            if rest:
+                out += " "
+                first = rest[0]
+                out += f"[{first}]" if isinstance(first, int) else str(first)
+                rest = rest[1:]
+        for part in rest:
+            out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out and not out.endswith(" ") else part)
         return out
 
     def key_locs(self, path: tuple, table: dict) -> dict:
@@ -205,12 +314,18 @@ class _Reader:
         return table[key]
 
     def number(self, value: Any, path: tuple, unit: str = "", *, low: float | None = None,
-               high: float | None = None, low_open: bool = False, nonzero: bool = False) -> float:
+               high: float | None = None, low_open: bool = False, nonzero: bool = False,
+               tiny: float = MIN_MAGNITUDE) -> float:
+        """A finite number in range; ``tiny`` is the smallest magnitude a quantity that must be
+        positive or non-zero may have (smaller ones underflow the beam arithmetic)."""
         label = self.name(path)
         unit_txt = f" in {unit}" if unit else ""
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise self.fail(path, f"{label} must be a number{unit_txt}, found {_kind_name(value)}")
-        x = float(value)
+        try:
+            x = float(value)
+        except OverflowError:
+            raise self.fail(path, f"{label} is far too large{unit_txt} (a {len(str(value))}-digit integer)") from None
         if math.isnan(x) or math.isinf(x):
             raise self.fail(path, f"{label} must be a finite number{unit_txt}, found {value}")
         if abs(x) > MAX_MAGNITUDE:
@@ -222,6 +337,15 @@ class _Reader:
             raise self.fail(path, f"{label} must be {op} {low:g}{unit_txt}, found {value}")
         if high is not None and x > high:
             raise self.fail(path, f"{label} must be <= {high:g}{unit_txt}, found {value}")
+        if (nonzero or (low == 0.0 and low_open)) and abs(x) < tiny:
+            raise self.fail(path, f"{label} = {value:g} is far too small{unit_txt}; the smallest accepted is {tiny:g}")
+        return x
+
+    def wavelength(self, value: Any, path: tuple) -> float:
+        x = self.number(value, path, "nm", low=0.0, low_open=True)
+        lo, hi = WAVELENGTH_RANGE_NM
+        if not lo <= x <= hi:
+            raise self.fail(path, f"{self.name(path)} = {x:g} nm is outside {lo:g} to {hi:g} nm")
         return x
 
     def string(self, value: Any, path: tuple, choices: tuple | None = None) -> str:
@@ -282,7 +406,8 @@ class _Reader:
         values = value if isinstance(value, list) else [value]
         if not 1 <= len(values) <= 2:
             raise self.fail(path, f"{self.name(path)} must be one focal length (mm) or a range [f1, f2]")
-        return tuple(self.number(v, path + ((i,) if isinstance(value, list) else ()), "mm", nonzero=True)
+        return tuple(self.number(v, path + ((i,) if isinstance(value, list) else ()), "mm", nonzero=True,
+                                 tiny=MIN_FOCAL_MM)
                      for i, v in enumerate(values))
 
     # -- sections ------------------------------------------------------------------
@@ -389,7 +514,7 @@ class _Reader:
         if "lidt" in value:
             fields["lidt"] = self.lidt(value["lidt"], p("lidt"), ident)
         if "roc" in value:
-            fields["roc"] = self.number(value["roc"], p("roc"), "mm", nonzero=True)
+            fields["roc"] = self.number(value["roc"], p("roc"), "mm", nonzero=True, tiny=MIN_FOCAL_MM)
         for key in ("reflectivity", "absorption"):
             if key in value:
                 fields[key] = self.fraction(value[key], p(key))
@@ -403,7 +528,7 @@ class _Reader:
                 fields["substrate_index"] = self.number(s["index"], p("substrate") + ("index",), "", low=1.0)
         if kind == "lens":
             fields["focal_length"] = self.number(self.require(value, "focal_length", path, f"lens \"{ident}\""),
-                                                 p("focal_length"), "mm", nonzero=True)
+                                                 p("focal_length"), "mm", nonzero=True, tiny=MIN_FOCAL_MM)
         if kind == "crystal":
             fields["length"] = self.number(self.require(value, "length", path, f"crystal \"{ident}\""),
                                            p("length"), "mm", low=0.0, low_open=True)
@@ -474,8 +599,7 @@ class _Reader:
             f["toward"] = self.ident(t["toward"], p("toward"))
         if "heading" in t:
             f["heading"] = self.number(t["heading"], p("heading"), "degrees")
-        f["wavelength_nm"] = self.number(self.require(t, "wavelength_nm", path, what), p("wavelength_nm"), "nm",
-                                         low=0.0, low_open=True)
+        f["wavelength_nm"] = self.wavelength(self.require(t, "wavelength_nm", path, what), p("wavelength_nm"))
         for key, unit in (("power_w", "W"), ("pulse_energy_j", "J"), ("pulse_s", "s"), ("rep_hz", "Hz")):
             if key in t:
                 f[key] = self.number(t[key], p(key), unit, low=0.0, low_open=key != "power_w")
@@ -484,7 +608,8 @@ class _Reader:
         if "pulse_energy_j" in f and "power_w" in f and "rep_hz" in f:
             if not math.isclose(f["pulse_energy_j"] * f["rep_hz"], f["power_w"], rel_tol=1e-3):
                 raise self.fail(p("power_w"), f"{what}: power_w differs from pulse_energy_j x rep_hz")
-        f["waist_t"], f["waist_s"] = self._pair(t, "waist", path, what, "mm", low=0.0, low_open=True, default=None)
+        f["waist_t"], f["waist_s"] = self._pair(t, "waist", path, what, "mm", low=0.0, low_open=True, default=None,
+                                                tiny=MIN_WAIST_MM)
         f["m2_t"], f["m2_s"] = self._pair(t, "m2", path, what, "", low=1.0, default=1.0)
         if "waist_at" in t:
             f["waist_at"] = self.number(t["waist_at"], p("waist_at"), "mm")
@@ -560,8 +685,7 @@ class _Reader:
             if optics[e.id].kind in ("dump", "detector"):
                 raise self.fail(p("path") + (i,), f"{what}: a {optics[e.id].kind} cannot be inside a cavity")
         f: dict[str, Any] = {}
-        f["wavelength_nm"] = self.number(self.require(t, "wavelength_nm", path, what), p("wavelength_nm"), "nm",
-                                         low=0.0, low_open=True)
+        f["wavelength_nm"] = self.wavelength(self.require(t, "wavelength_nm", path, what), p("wavelength_nm"))
         if "heading" in t:
             f["heading"] = self.number(t["heading"], p("heading"), "degrees")
         for key in ("output_coupler", "input_coupler"):

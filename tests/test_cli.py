@@ -72,7 +72,7 @@ def test_folder_and_several_files_give_a_list(capsys):
 
 def test_no_layouts_found_is_status_2(tmp_path, capsys):
     assert main(["beams", str(tmp_path)]) == 2
-    assert "no layout files" in capsys.readouterr().err
+    assert ": error: no layout files" in capsys.readouterr().err
 
 
 def test_no_command_prints_help(capsys):
