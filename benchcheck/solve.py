@@ -19,7 +19,7 @@ from .model import Cavity, Layout, LayoutError
 from .placement import Placement, place
 from .trace import REFLECT, TRANSMIT, PathTrace, Trace, trace
 from .unfold import (
-    Marker, Space, Thin, Train, absorption_at, beam_train, cavity_train, overlap_issues, reflectivity_at,
+    Marker, Space, Thin, Train, absorption_at, beam_train, cavity_train, extent, overlap_issues, reflectivity_at,
     substrate_steps, thermal_range,
 )
 
@@ -329,6 +329,7 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         elif src.pulse_s is not None and src.rep_hz is not None and power is not None:
             energy = power / src.rep_hz
         prefixes = {p: [] for p in PLANES}
+        prefix_extent = 0.0
     else:
         cav = layout.cavities[origin]
         result = cavities[origin]
@@ -336,10 +337,11 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         k = [h.optic for h in cpath.hits].index(cav.output_coupler)
         oc_hit = cpath.hits[k]
         q0, m2, prefixes = {}, {TANGENTIAL: 1.0, SAGITTAL: 1.0}, {}
+        through = _as_transmitted(oc_hit)
+        prefix_extent = extent(through, layout.optics[cav.output_coupler])[1]
         for plane in PLANES:
             mode = result.modes[plane]
             q0[plane] = None if mode.q is None else _q_at_marker(result.trains[plane], mode.q, k)
-            through = _as_transmitted(oc_hit)
             prefixes[plane] = substrate_steps(through, layout.optics[cav.output_coupler], plane, notes)
         oc = layout.optics[cav.output_coupler]
         power = None if result.circulating_w is None else result.circulating_w * _transmission(oc, cav.wavelength_nm)
@@ -349,7 +351,7 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
             notes.append(f"cavity \"{origin}\" has no mode in every plane, so beam \"{path.id}\" has no size there")
     radii, waists = {}, []
     for plane in PLANES:
-        train = beam_train(layout, path, plane, prefixes[plane])
+        train = beam_train(layout, path, plane, prefixes[plane], prefix_extent)
         notes += train.notes
         if q0[plane] is None:
             radii[plane] = {}

@@ -99,11 +99,27 @@ def internal_length(optic: Optic, aoi: float) -> float:
     return optic.thickness / math.cos(t2)
 
 
+def substrate_length(hit: Hit, optic: Optic) -> float:
+    """Geometric length inside a mirror's or splitter's substrate for a beam passing it."""
+    if optic.substrate_index is None or not optic.substrate_thickness:
+        return 0.0
+    t2 = math.asin(math.sin(hit.aoi) / optic.substrate_index)
+    return optic.substrate_thickness / math.cos(t2)
+
+
 def extent(hit: Hit, optic: Optic) -> tuple[float, float]:
-    """Geometric length an element takes from the air before and after its hit point."""
+    """Geometric length an element takes from the air before and after its hit point.
+
+    A crystal or plate is centred on its hit point.  A mirror's or splitter's substrate lies
+    behind the coated face, which is the hit point: before it for a beam arriving from the
+    back, after it for one leaving through the back.
+    """
     if optic.kind in ("crystal", "plate") and hit.action == TRANSMIT:
         half = internal_length(optic, hit.aoi) / 2.0
         return half, half
+    if optic.kind in ("mirror", "splitter") and hit.action == TRANSMIT:
+        inside = substrate_length(hit, optic)
+        return (inside, 0.0) if hit.from_back else (0.0, inside)
     return 0.0, 0.0
 
 
@@ -117,7 +133,8 @@ def element_steps(hit: Hit, optic: Optic, plane: str, thermal_powers: dict, note
     if kind == "splitter" and hit.action == REFLECT:
         return [], [], 1.0
     if kind in ("mirror", "splitter"):
-        return [], substrate_steps(hit, optic, plane, notes), 1.0
+        steps = substrate_steps(hit, optic, plane, notes)
+        return (steps, [], 1.0) if hit.from_back else ([], steps, 1.0)
     if kind == "lens":
         return [], [Thin(abcd.thin_lens(optic.focal_length), f"lens {optic.id}")], 1.0
     if kind in ("crystal", "plate"):
@@ -129,7 +146,10 @@ def element_steps(hit: Hit, optic: Optic, plane: str, thermal_powers: dict, note
             power = thermal_powers.get((optic.id, plane))
             if power is None:
                 power = thermal_design_power(thermal_range(optic, plane))
-            post.append(Thin(abcd.lens_power(power), f"thermal lens {optic.id}", thermal=optic.id))
+            # the lens is round in the crystal's own cross-section; in the air-equivalent
+            # tangential coordinates (heights smaller by 1/scale) its power grows by scale^2
+            post.append(Thin(abcd.lens_power(np.asarray(power) * scale**2), f"thermal lens {optic.id}",
+                             thermal=optic.id))
         post.append(Space(half, k, scale, optic.index, hit.s))
         return pre, post, scale
     return [], [], 1.0   # aperture, dump, detector: no action on the beam's shape
@@ -158,7 +178,8 @@ def substrate_steps(hit: Hit, optic: Optic, plane: str, notes: list) -> list:
     else:               # curved front face first; its centre of curvature lies behind the beam
         first = abcd.interface(1.0, n, aoi, -roc, plane)
         last = abcd.interface(n, 1.0, t2, math.inf, plane)
-    inside = Space(t / math.cos(t2), 1.0 / n, 1.0, n, hit.s)
+    length = t / math.cos(t2)
+    inside = Space(length, 1.0 / n, 1.0, n, hit.s - length if hit.from_back else hit.s)
     return [Thin(first, f"substrate face {optic.id}"), inside, Thin(last, f"substrate face {optic.id}")]
 
 
@@ -227,13 +248,14 @@ def cavity_train(layout: Layout, path: PathTrace, plane: str, thermal_powers: di
     return train
 
 
-def beam_train(layout: Layout, path: PathTrace, plane: str, prefix: list | None = None) -> Train:
+def beam_train(layout: Layout, path: PathTrace, plane: str, prefix: list | None = None,
+               prefix_extent: float = 0.0) -> Train:
     """From the beam's origin through every hit; ``prefix`` steps (the output coupler's
-    substrate for a beam leaving a cavity) come first."""
+    substrate for a beam leaving a cavity, ``prefix_extent`` mm long) come first."""
     train = Train(plane)
     parts = _element_parts(layout, path, plane, {}, train.notes)
     steps = list(prefix or [])
-    prev_ext = 0.0
+    prev_ext = prefix_extent
     prev_s = 0.0
     for i, (pre, mark, post, (before, after)) in enumerate(parts):
         gap = path.segments[i] - prev_ext - before

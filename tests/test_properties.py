@@ -131,10 +131,16 @@ def _train_products(solution):
 @given(folded_linear())
 def test_every_matrix_and_product_has_unit_determinant(case):
     sol = solve_text(_relative_layout(*case))
+
+    def det_ok(m):
+        # rounding in AD - BC grows with the size of the two products, not with 1
+        scale = max(1.0, abs(m[0, 0] * m[1, 1]) + abs(m[0, 1] * m[1, 0]))
+        return abs(np.linalg.det(m) - 1.0) <= 1e-13 * scale
+
     for _, _, mats in _train_products(sol):
         for m in mats:
-            assert abs(np.linalg.det(m) - 1.0) < 1e-12
-        assert abs(np.linalg.det(abcd.compose(mats)) - 1.0) < 1e-9
+            assert det_ok(m)
+        assert det_ok(abcd.compose(mats))
 
 
 @settings(max_examples=120, deadline=None)
