@@ -369,8 +369,9 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p,
                               _peak(p, w[TANGENTIAL], w[SAGITTAL]), fluence))
         if p is not None and hit.action != "end":
-            if optic.kind == "splitter" and optic.reflectivity is not None:
-                reflectivity_at(optic, wl_nm, None)  # a missing wavelength entry is an error
+            if optic.kind == "mirror" and hit.action == TRANSMIT and optic.reflectivity is None:
+                notes.append(f"\"{optic.id}\" gives no reflectivity, so it is taken as a perfect reflector and "
+                             f"beam \"{path.id}\" passes it with no power")
             p *= _pass_factor(optic, hit.action, wl_nm)
     return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)))
 
