@@ -271,7 +271,16 @@ def _peak(power, w_t, w_s):
     return 2.0 * power / (math.pi * w_t * w_s * MM2_TO_CM2)
 
 
+def check_wavelengths(layout: Layout, path: PathTrace) -> None:
+    """Every optic on a path must give its coating data at the path's wavelength (DESIGN §3)."""
+    for hit in path.hits:
+        optic = layout.optics[hit.optic]
+        reflectivity_at(optic, path.wavelength_nm, 0.0)
+        absorption_at(optic, path.wavelength_nm)
+
+
 def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
+    check_wavelengths(layout, path)
     wavelength = cav.wavelength_nm * NM_TO_MM
     trains = {p: cavity_train(layout, path, p) for p in PLANES}
     notes: list[str] = []
@@ -311,6 +320,7 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
 # --- beams ------------------------------------------------------------------------------
 
 def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -> BeamResult:
+    check_wavelengths(layout, path)
     notes: list[str] = []
     wl_nm = path.wavelength_nm
     wavelength = wl_nm * NM_TO_MM
