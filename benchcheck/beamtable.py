@@ -91,8 +91,22 @@ def beam_json(b: BeamResult) -> dict:
         "power_w": _num(b.power_w),
         "hits": [_hit_json(h) for h in b.hits],
         "waists": _waists_json(b.waists),
+        "ends": _end_json(b),
         "notes": list(b.notes),
     }
+
+
+def _end_json(b: BeamResult) -> dict:
+    """Where the beam stops: on its last optic (a dump or detector), or traced on."""
+    last = b.hits[-1]
+    if b.into is not None:
+        return {"kind": "cavity", "id": b.into, "s_mm": _num(last.s), "at_mm": None,
+                "mode_match": _num(b.mode_match)}
+    if b.tail is None:
+        return {"kind": last.kind, "id": last.optic, "s_mm": _num(last.s), "at_mm": None}
+    t = b.tail
+    return {"kind": t.zone_kind or t.kind, "id": t.id, "s_mm": _num(last.s + t.length),
+            "at_mm": [_num(t.point[0]), _num(t.point[1])]}
 
 
 def solution_json(sol: Solution) -> dict:
@@ -187,11 +201,28 @@ def cavity_text(c: CavityResult) -> list[str]:
     return lines
 
 
+def _end_text(b: BeamResult) -> str:
+    last = b.hits[-1]
+    if b.into is not None:
+        match = f"; mode match {b.mode_match:.4f}" if b.mode_match is not None else ""
+        return f"  coupled into cavity {b.into} through {last.optic}{match}"
+    if b.tail is None:
+        return f"  ends on {last.kind} {last.optic}"
+    t = b.tail
+    where = f"at ({t.point[0]:.1f}, {t.point[1]:.1f}) mm, {t.length:.1f} mm past {last.optic}"
+    if t.kind == "table-edge":
+        return f"  ends on no dump or detector: traced on, it leaves the table {where}"
+    if t.kind == "zone":
+        return f"  ends on no dump or detector: traced on, it meets {t.zone_kind} zone {t.id} {where}"
+    return f"  ends on no dump or detector: traced on, it meets the mount of {t.id} {where}"
+
+
 def beam_text(b: BeamResult) -> list[str]:
     power = f"{b.power_w:.4g} W" if b.power_w is not None else "power not given"
     lines = [f"beam {b.id} (from {b.origin}, {power})"]
     pulsed = any(h.peak_j_cm2 is not None for h in b.hits)
     lines += _hits_table(b.hits, pulsed)
+    lines.append(_end_text(b))
     lines += _waist_lines(b.waists)
     lines += [f"  note: {n}" for n in b.notes]
     return lines

@@ -44,3 +44,16 @@ def propagate(matrix, q):
 def waist_offset(q):
     """Reduced distance to the waist ahead (positive: the waist is still to come)."""
     return -np.asarray(q, dtype=complex).real
+
+
+def overlap_1d(q1, q2, wavelength):
+    """Power coupling between two M^2 = 1 Gaussian beams in one transverse axis.
+
+    With u_j = exp(-a_j x^2), a_j = i pi / (lambda0 q^_j) (so Re a = 1/w^2), the
+    normalised overlap |<u1|u2>|^2 is 2 sqrt(Re a1 Re a2) / |a1 + conj(a2)| (a Gaussian
+    integral; Kogelnik, "Coupling and conversion coefficients for optical modes", 1964,
+    from memory).  The product over both axes is the mode-matching efficiency.
+    """
+    a1 = 1j * np.pi / (wavelength * np.asarray(q1, dtype=complex))
+    a2 = 1j * np.pi / (wavelength * np.asarray(q2, dtype=complex))
+    return 2.0 * np.sqrt(a1.real * a2.real) / np.abs(a1 + np.conj(a2))

@@ -95,6 +95,9 @@ class BeamResult:
     waists: list[WaistResult]
     power_w: float | None
     notes: list[str] = field(default_factory=list)
+    tail: object | None = None          # raycast.RayEnd where a beam is traced on
+    into: str | None = None             # the passive cavity this beam is coupled into
+    mode_match: float | None = None     # fraction of its power in that cavity's mode
 
 
 @dataclass
@@ -359,7 +362,7 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
             energy = power / cav.rep_hz
         if any(v is None for v in q0.values()):
             notes.append(f"cavity \"{origin}\" has no mode in every plane, so beam \"{path.id}\" has no size there")
-    radii, waists = {}, []
+    radii, waists, trains, q_last = {}, [], {}, {}
     for plane in PLANES:
         train = beam_train(layout, path, plane, prefixes[plane], prefix_extent)
         notes += train.notes
@@ -369,7 +372,12 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         marks, raw = _walk(train, complex(q0[plane]), wavelength, m2[plane])
         radii[plane] = marks
         waists += _dedupe_waists(plane, raw)
+        trains[plane] = train
+        q_last[plane] = _q_at_marker(train, complex(q0[plane]), len(path.hits) - 1)
     waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
+    match = None
+    if path.into is not None:
+        match = mode_match(layout, path, q_last, cavities[path.into], traced, notes)
     hits = []
     p = power
     for i, hit in enumerate(path.hits):
@@ -383,18 +391,51 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
                 notes.append(f"\"{optic.id}\" gives no reflectivity, so it is taken as a perfect reflector and "
                              f"beam \"{path.id}\" passes it with no power")
             p *= _pass_factor(optic, hit.action, wl_nm)
-    return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)))
+    return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)), path.tail, path.into, match)
 
 
-def _q_at_marker(train: Train, q0: complex, hit_index: int) -> complex:
+def _q_at_marker(train: Train, q0: complex, hit_index: int, after: bool = False) -> complex:
+    """q^ at a hit: arriving, or (``after``) once the element's thin action is applied."""
     q = q0
+    found = False
     for st in train.steps:
         if isinstance(st, Marker):
-            if st.hit == hit_index:
+            if found:
+                return q
+            found = st.hit == hit_index
+            if found and not after:
                 return q
             continue
+        if found and isinstance(st, Space):
+            return q
         q = complex(gauss.propagate(st.matrix(), q))
+    if found:
+        return q
     raise AssertionError("marker not in train")
+
+
+def mode_match(layout: Layout, path: PathTrace, q_seed: dict, cav: CavityResult,
+               traced: Trace, notes: list) -> float | None:
+    """Fraction of a seed beam's power that couples into a passive cavity's mode at its
+    input coupler (both M^2 = 1 Gaussians; the product of the t and s overlaps)."""
+    cpath = traced.cavities[cav.id]
+    k = [h.optic for h in cpath.hits].index(path.hits[-1].optic)
+    src = layout.sources.get(path.origin)
+    if src is not None and (src.m2_t != 1.0 or src.m2_s != 1.0):
+        notes.append(f"beam \"{path.id}\" has M^2 > 1: its coupling into the cavity's mode is not computed")
+        return None
+    tilt = math.degrees(math.acos(max(-1.0, min(1.0, float(np.dot(path.hits[-1].d_in, cpath.hits[k].d_out))))))
+    if tilt > 0.05:
+        notes.append(f"beam \"{path.id}\" meets the mode of \"{cav.id}\" at {tilt:.2f} deg; the mode match ignores the tilt")
+    eta = 1.0
+    wavelength = path.wavelength_nm * NM_TO_MM
+    for plane in PLANES:
+        mode = cav.modes[plane]
+        if mode.q is None or q_seed.get(plane) is None:
+            return None
+        q_cav = _q_at_marker(cav.trains[plane], mode.q, k, after=True)
+        eta *= float(gauss.overlap_1d(q_seed[plane], q_cav, wavelength))
+    return eta
 
 
 def _as_transmitted(hit):

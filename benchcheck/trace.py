@@ -13,10 +13,11 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from shapely.geometry import Point, box
+from shapely.geometry import Point, Polygon, box
 
 from .abcd import brewster_angle
 from .model import Layout, Loc
+from .raycast import RayEnd, Table
 from .placement import (
     FOLDING_KINDS, STRAIGHT_TOLERANCE_DEG, Placement, bends, cavity_exit, fold_for_turn, heading_of, turn_for_fold, unit, wrap180,
 )
@@ -71,6 +72,10 @@ class PathTrace:
     loc: Loc
     origin: str | None = None           # beams: source or cavity id
     start: np.ndarray | None = None     # beams: the origin point
+    #: beams that end on no dump or detector are traced on to what they meet first
+    tail: RayEnd | None = None
+    #: a beam that ends on a passive cavity's input coupler is coupled into that cavity
+    into: str | None = None
 
 
 @dataclass
@@ -79,15 +84,28 @@ class Trace:
     cavities: dict[str, PathTrace]
     beams: dict[str, PathTrace]
     issues: list[GeometryIssue] = field(default_factory=list)
+    table: Table | None = None          # the scene for ray casts (leaks, beams traced on)
+
+
+def scene(placement: Placement) -> Table:
+    layout = placement.layout
+    footprints = {oid: p.footprint for oid, p in placement.optics.items()}
+    zones = {z.id: (z.kind, Polygon(z.polygon)) for z in layout.zones}
+    return Table(layout.bench.size, footprints, zones)
 
 
 def trace(placement: Placement, fold_tolerance: float = FOLD_TOLERANCE_DEG) -> Trace:
     layout = placement.layout
-    out = Trace(placement, {}, {}, [])
+    out = Trace(placement, {}, {}, [], scene(placement))
     for cav in layout.cavities.values():
         out.cavities[cav.id] = _trace_cavity(placement, cav, fold_tolerance, out.issues)
     for beam in layout.beams.values():
-        out.beams[beam.id] = _trace_beam(placement, beam, fold_tolerance, out.issues)
+        path = _trace_beam(placement, beam, fold_tolerance, out.issues)
+        last = path.hits[-1]
+        path.into = _coupled_into(layout, last)
+        if last.d_out is not None and path.into is None:
+            path.tail = out.table.cast(last.point, last.d_out, exclude={last.optic})
+        out.beams[beam.id] = path
     _off_table(placement, out.issues)
     return out
 
@@ -252,6 +270,16 @@ def _trace_beam(placement: Placement, beam, tol, issues) -> PathTrace:
     wl = (layout.sources[beam.origin].wavelength_nm if beam.origin in layout.sources
           else layout.cavities[beam.origin].wavelength_nm)
     return PathTrace(beam.id, "beam", wl, hits, segs, beam.loc, beam.origin, start)
+
+
+def _coupled_into(layout: Layout, last: Hit) -> str | None:
+    """The passive cavity a beam feeds when it ends on that cavity's input coupler."""
+    if last.action != TRANSMIT:
+        return None
+    for cav in layout.cavities.values():
+        if cav.input_coupler == last.optic:
+            return cav.id
+    return None
 
 
 def _continue(placement, entry, d_in, beam_id):

@@ -262,6 +262,8 @@ def beam_train(layout: Layout, path: PathTrace, plane: str, prefix: list | None 
         steps.append(_air(gap, prev_s + prev_ext))
         steps += pre + [mark] + post
         prev_ext, prev_s = after, path.hits[i].s
+    if path.tail is not None and path.tail.length > prev_ext:
+        steps.append(_air(path.tail.length - prev_ext, prev_s + prev_ext))
     train.steps = steps
     return train
 
