@@ -46,14 +46,19 @@ def waist_offset(q):
     return -np.asarray(q, dtype=complex).real
 
 
-def overlap_1d(q1, q2, wavelength):
+def overlap_1d(q1, q2, wavelength, tilt=0.0):
     """Power coupling between two M^2 = 1 Gaussian beams in one transverse axis.
 
-    With u_j = exp(-a_j x^2), a_j = i pi / (lambda0 q^_j) (so Re a = 1/w^2), the
-    normalised overlap |<u1|u2>|^2 is 2 sqrt(Re a1 Re a2) / |a1 + conj(a2)| (a Gaussian
-    integral; Kogelnik, "Coupling and conversion coefficients for optical modes", 1964,
-    from memory).  The product over both axes is the mode-matching efficiency.
+    With u_j = exp(-a_j x^2), a_j = i pi / (lambda0 q^_j) (so Re a = 1/w^2), and beam 2
+    tilted by ``tilt`` radians (a phase exp(i k tilt x)), the Gaussian integral gives
+    |<u1|u2>|^2 / (<u1|u1><u2|u2>) = 2 sqrt(Re a1 Re a2) / |A| * exp(-k^2 tilt^2 Re(1/A) / 2)
+    with A = conj(a1) + a2 and k = 2 pi / lambda0 (Kogelnik, "Coupling and conversion
+    coefficients for optical modes", 1964, from memory; the integral is elementary).  The
+    product over both axes is the mode-matching efficiency.
     """
     a1 = 1j * np.pi / (wavelength * np.asarray(q1, dtype=complex))
     a2 = 1j * np.pi / (wavelength * np.asarray(q2, dtype=complex))
-    return 2.0 * np.sqrt(a1.real * a2.real) / np.abs(a1 + np.conj(a2))
+    big_a = np.conj(a1) + a2
+    k = 2.0 * np.pi / wavelength
+    tilt = np.asarray(tilt, dtype=float)
+    return 2.0 * np.sqrt(a1.real * a2.real) / np.abs(big_a) * np.exp(-(k * tilt) ** 2 * (1.0 / big_a).real / 2.0)

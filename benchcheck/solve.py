@@ -188,9 +188,31 @@ def _dedupe_waists(plane: str, raw, tol: float = 1e-6) -> list[WaistResult]:
 
 # --- cavities ---------------------------------------------------------------------------
 
+#: Grid points per thermal lens when several lenses are scanned together (their product is
+#: kept near a few thousand round trips).
+_GRID_BUDGET = 4096
+
+
+def _scan_powers(ranges: list[tuple[float, float]]) -> np.ndarray:
+    """Dioptric powers to evaluate, one row per sample, one column per lens."""
+    n = len(ranges)
+    per_axis = 257 if n == 1 else max(5, int(round(_GRID_BUDGET ** (1.0 / n))))
+    axes = [np.linspace(lo, hi, per_axis) if hi > lo else np.array([lo]) for lo, hi in ranges]
+    return np.array(list(itertools.product(*axes)))
+
+
 def _thermal_scan(layout: Layout, cav: Cavity, path: PathTrace, trains: dict) -> ThermalScan | None:
+    """Stability over every thermal-lens power in range.
+
+    In a ring each lens is passed once and m is linear in its power, so the ends bound it.
+    In a linear cavity each lens is passed twice and m is quadratic in its power: two
+    stable ends can hide an unstable middle (the gap between two stability zones).  One
+    lens: m(P) is sampled and its exact extremum (the vertex of the parabola through three
+    samples) added.  Several lenses: a grid over the box.
+    """
     crystals = [h.optic for h in path.hits if layout.optics[h.optic].kind == "crystal"
                 and any(thermal_range(layout.optics[h.optic], p) for p in PLANES)]
+    crystals = list(dict.fromkeys(crystals))
     if not crystals:
         return None
     lenses, design = {}, {}
@@ -204,13 +226,28 @@ def _thermal_scan(layout: Layout, cav: Cavity, path: PathTrace, trains: dict) ->
             ranges.append((min(powers), max(powers)))
             design.setdefault(cid, {})[plane] = (1.0 / (sum(powers) / len(powers))
                                                  if sum(powers) else math.inf)
-        corners = np.array(list(itertools.product(*ranges)))        # (K, crystals)
-        powers = {(cid, plane): corners[:, j] for j, cid in enumerate(crystals)}
-        train = cavity_train(layout, path, plane, powers)
-        m = abcd.half_trace(_product(train.steps))
+        samples = _scan_powers(ranges)
+        m = _half_traces(layout, path, plane, crystals, samples)
+        if len(crystals) == 1 and ranges[0][1] > ranges[0][0]:
+            lo, hi = ranges[0]
+            p3 = np.array([lo, (lo + hi) / 2.0, hi])
+            m3 = _half_traces(layout, path, plane, crystals, p3[:, None])
+            curv = m3[0] - 2.0 * m3[1] + m3[2]
+            if abs(curv) > 1e-15:
+                h = (hi - lo) / 2.0
+                vertex = p3[1] - h * (m3[2] - m3[0]) / (2.0 * curv)
+                if lo < vertex < hi:
+                    m = np.append(m, _half_traces(layout, path, plane, crystals, np.array([[vertex]])))
         stable[plane] = bool(np.all(np.abs(m) < 1.0 - resonator.BOUNDARY_TOL))
         m_range[plane] = (float(np.min(m)), float(np.max(m)))
     return ThermalScan(lenses, design, stable, m_range)
+
+
+def _half_traces(layout: Layout, path: PathTrace, plane: str, crystals: list, samples: np.ndarray) -> np.ndarray:
+    """m of the round trip for each row of lens powers (vectorised over rows)."""
+    powers = {(cid, plane): samples[:, j] for j, cid in enumerate(crystals)}
+    train = cavity_train(layout, path, plane, powers)
+    return np.atleast_1d(abcd.half_trace(_product(train.steps)))
 
 
 def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | None:
@@ -237,6 +274,9 @@ def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | N
     if r_in is None:
         raise LayoutError(f"input coupler \"{ic.id}\" needs a reflectivity", ic.loc)
     t_in = _transmission(ic, wl)
+    if t_in <= 0:
+        raise LayoutError(f"input coupler \"{ic.id}\" transmits nothing at {wl:g} nm, so no light enters "
+                          f"cavity \"{cav.id}\"", ic.where("reflectivity"))
     rest = 1.0
     passes = 2 if cav.kind == "linear" else 1
     for i, hit in enumerate(path.hits):
@@ -284,6 +324,12 @@ def check_wavelengths(layout: Layout, path: PathTrace) -> None:
 
 def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
     check_wavelengths(layout, path)
+    for key in ("output_coupler", "input_coupler"):
+        ident = getattr(cav, key)
+        if ident and any(h.optic == ident and h.action != REFLECT for h in path.hits):
+            raise LayoutError(f"cavity \"{cav.id}\" passes through its {key.replace('_', ' ')} \"{ident}\"; light "
+                              "couples through a mirror the cavity reflects from (a pick-off that the cavity "
+                              "passes is not modelled as a coupler)", cav.where(key))
     wavelength = cav.wavelength_nm * NM_TO_MM
     trains = {p: cavity_train(layout, path, p) for p in PLANES}
     notes: list[str] = []
@@ -424,9 +470,8 @@ def mode_match(layout: Layout, path: PathTrace, q_seed: dict, cav: CavityResult,
     if src is not None and (src.m2_t != 1.0 or src.m2_s != 1.0):
         notes.append(f"beam \"{path.id}\" has M^2 > 1: its coupling into the cavity's mode is not computed")
         return None
-    tilt = math.degrees(math.acos(max(-1.0, min(1.0, float(np.dot(path.hits[-1].d_in, cpath.hits[k].d_out))))))
-    if tilt > 0.05:
-        notes.append(f"beam \"{path.id}\" meets the mode of \"{cav.id}\" at {tilt:.2f} deg; the mode match ignores the tilt")
+    # the tilt between the seed and the mode lies in the table plane: the tangential axis
+    tilt = math.acos(max(-1.0, min(1.0, float(np.dot(path.hits[-1].d_in, cpath.hits[k].d_out)))))
     eta = 1.0
     wavelength = path.wavelength_nm * NM_TO_MM
     for plane in PLANES:
@@ -434,7 +479,7 @@ def mode_match(layout: Layout, path: PathTrace, q_seed: dict, cav: CavityResult,
         if mode.q is None or q_seed.get(plane) is None:
             return None
         q_cav = _q_at_marker(cav.trains[plane], mode.q, k, after=True)
-        eta *= float(gauss.overlap_1d(q_seed[plane], q_cav, wavelength))
+        eta *= float(gauss.overlap_1d(q_seed[plane], q_cav, wavelength, tilt if plane == TANGENTIAL else 0.0))
     return eta
 
 

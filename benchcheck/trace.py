@@ -16,7 +16,7 @@ import numpy as np
 from shapely.geometry import Point, Polygon, box
 
 from .abcd import brewster_angle
-from .model import Layout, Loc
+from .model import WAVELENGTH_MATCH, Layout, Loc
 from .raycast import RayEnd, Table
 from .placement import (
     FOLDING_KINDS, STRAIGHT_TOLERANCE_DEG, Placement, bends, cavity_exit, fold_for_turn, heading_of, turn_for_fold, unit, wrap180,
@@ -24,8 +24,11 @@ from .placement import (
 
 #: Default tolerance (deg) between a declared fold and the one the geometry gives.
 FOLD_TOLERANCE_DEG = 0.5
-#: A beam crossing a crystal or plate this far (deg) off its axis is reported.
+#: A beam crossing a crystal, plate or lens this far (deg) off its axis is reported.
 AXIS_TOLERANCE_DEG = 0.5
+#: A beam passing a mirror or splitter beyond this angle of incidence (deg) runs almost
+#: along its face: reported, and its substrate is not taken as a lens beyond 89 deg.
+GRAZING_DEG = 80.0
 
 
 REFLECT = "reflect"
@@ -102,7 +105,7 @@ def trace(placement: Placement, fold_tolerance: float = FOLD_TOLERANCE_DEG) -> T
     for beam in layout.beams.values():
         path = _trace_beam(placement, beam, fold_tolerance, out.issues)
         last = path.hits[-1]
-        path.into = _coupled_into(layout, last)
+        path.into = _coupled_into(layout, last, path.wavelength_nm)
         if last.d_out is not None and path.into is None:
             path.tail = out.table.cast(last.point, last.d_out, exclude={last.optic})
         out.beams[beam.id] = path
@@ -163,7 +166,16 @@ def _transmission_aoi(placed, d_in, holder_id, loc, issues) -> float:
     axis = placed.direction
     off = math.degrees(math.acos(min(1.0, abs(float(np.dot(d_in, axis))))))
     if optic.kind in FOLDING_KINDS:
+        if off > GRAZING_DEG:
+            issues.append(GeometryIssue(
+                "grazing", f"\"{holder_id}\" crosses {optic.kind} \"{optic.id}\" at {off:.1f} deg incidence, almost along "
+                           "its face", (optic.id, holder_id), loc, off, GRAZING_DEG, "deg"))
         return math.radians(off)
+    if optic.kind == "lens" and off > AXIS_TOLERANCE_DEG:
+        issues.append(GeometryIssue(
+            "off-axis-crossing",
+            f"\"{holder_id}\" crosses lens \"{optic.id}\" {off:.2f} deg off its axis; it is modelled as on axis",
+            (optic.id, holder_id), loc, off, AXIS_TOLERANCE_DEG, "deg"))
     if optic.kind in ("crystal", "plate"):
         if off > AXIS_TOLERANCE_DEG:
             issues.append(GeometryIssue(
@@ -272,12 +284,13 @@ def _trace_beam(placement: Placement, beam, tol, issues) -> PathTrace:
     return PathTrace(beam.id, "beam", wl, hits, segs, beam.loc, beam.origin, start)
 
 
-def _coupled_into(layout: Layout, last: Hit) -> str | None:
-    """The passive cavity a beam feeds when it ends on that cavity's input coupler."""
-    if last.action != TRANSMIT:
+def _coupled_into(layout: Layout, last: Hit, wavelength_nm: float) -> str | None:
+    """The passive cavity a beam feeds when it ends on that cavity's input coupler,
+    arriving from the back at (within 2 %) the cavity's wavelength."""
+    if last.action != TRANSMIT or not last.from_back:
         return None
     for cav in layout.cavities.values():
-        if cav.input_coupler == last.optic:
+        if cav.input_coupler == last.optic and abs(cav.wavelength_nm - wavelength_nm) <= WAVELENGTH_MATCH * wavelength_nm:
             return cav.id
     return None
 
@@ -305,11 +318,11 @@ def _off_table(placement: Placement, issues) -> None:
     table = box(0.0, 0.0, w, h)
     for placed in placement.optics.values():
         o = placed.optic
-        if not table.contains(Point(placed.point)) and o.kind != "obstacle":
+        if not table.covers(Point(placed.point)) and o.kind != "obstacle":
             issues.append(GeometryIssue(
                 "off-table", f"\"{o.id}\" at ({placed.point[0]:.1f}, {placed.point[1]:.1f}) mm is off the "
                              f"{w:g} x {h:g} mm table", (o.id,), o.loc))
-        elif not table.contains(placed.footprint):
+        elif not table.covers(placed.footprint):
             over = placed.footprint.difference(table).area
             issues.append(GeometryIssue(
                 "off-table", f"the mount of \"{o.id}\" overhangs the table edge by {over:.0f} mm^2",

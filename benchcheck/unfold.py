@@ -8,8 +8,9 @@ place that knows how each kind of optic acts on a beam; the solver only multipli
 Media use the air-equivalent ("reduced length") model of Kogelnik et al., IEEE JQE 8, 373
 (1972): a Brewster-cut crystal of length L is L/n sagittal and L/n^3 tangential; inside
 it the physical tangential radius is larger than the model's by cos(t2)/cos(t1) (= n at
-Brewster), which ``Space.scale`` carries.  Thin lenses, including thermal lenses, are
-applied in those model coordinates in both planes (DESIGN section 4).
+Brewster), which ``Space.scale`` carries.  A thermal lens is round in the crystal's own
+cross-section, so in the model's tangential coordinates its power is multiplied by
+scale^2 (see ``element_steps``).
 """
 
 from __future__ import annotations
@@ -101,7 +102,7 @@ def internal_length(optic: Optic, aoi: float) -> float:
 
 def substrate_length(hit: Hit, optic: Optic) -> float:
     """Geometric length inside a mirror's or splitter's substrate for a beam passing it."""
-    if optic.substrate_index is None or not optic.substrate_thickness:
+    if optic.substrate_index is None or not optic.substrate_thickness or hit.aoi > math.radians(89.0):
         return 0.0
     t2 = math.asin(math.sin(hit.aoi) / optic.substrate_index)
     return optic.substrate_thickness / math.cos(t2)
@@ -170,6 +171,10 @@ def substrate_steps(hit: Hit, optic: Optic, plane: str, notes: list) -> list:
         return []
     t = t or 0.0
     aoi = hit.aoi
+    if aoi > math.radians(89.0):
+        notes.append(f"a beam runs along the face of \"{optic.id}\" ({math.degrees(aoi):.1f} deg incidence); its "
+                     "substrate is not taken as a lens")
+        return []
     t2 = math.asin(math.sin(aoi) / n)
     roc = math.inf if optic.roc is None else optic.roc
     if hit.from_back:   # flat back face first, curved front face last; centre of curvature lies ahead
@@ -197,12 +202,20 @@ def _element_parts(layout: Layout, path: PathTrace, plane: str, thermal_powers: 
 
 
 def _reversed_steps(steps: list) -> list:
+    """The same steps met backwards (the return half of a linear cavity).
+
+    A reduced matrix [[A, B], [C, D]] traversed in reverse is [[D, B], [C, A]] (the
+    reversal theorem for det-1 ray matrices; Siegman, "Lasers", ch. 15, from memory): a
+    tilted interface's height scaling inverts, a curved one's power stays.
+    """
     out = []
     for st in reversed(steps):
         if isinstance(st, Space):
             out.append(Space(st.length, st.k, st.scale, st.index, st.s0, False))
         elif isinstance(st, Thin):
-            out.append(st)
+            m = st.m.copy()
+            m[..., 0, 0], m[..., 1, 1] = st.m[..., 1, 1], st.m[..., 0, 0]
+            out.append(Thin(m, st.label, st.thermal))
     return out
 
 
@@ -243,7 +256,9 @@ def cavity_train(layout: Layout, path: PathTrace, plane: str, thermal_powers: di
             if j:
                 pre, mark, post, _ = parts[j]
                 steps += pre + [mark] + post
-        steps += pre0
+        perimeter = sum(path.segments)
+        steps += [Space(st.length, st.k, st.scale, st.index, st.s0 + perimeter, st.forward)
+                  if isinstance(st, Space) else st for st in pre0]
     train.steps = steps
     return train
 
