@@ -79,17 +79,13 @@ class Placement:
     layout: Layout
     optics: dict[str, Placed]
     sources: dict[str, np.ndarray]
-    #: per cavity/beam id: the headings (deg) declared while walking, for cross-checks
+    #: assumptions made while placing (an optic on no path, a splitter's face angle)
     notes: list[str] = field(default_factory=list)
 
     def point(self, ident: str) -> np.ndarray:
         if ident in self.optics:
             return self.optics[ident].point
         return self.sources[ident]
-
-
-def _reflect_fold(entry_fold, optic: Optic):
-    return entry_fold if entry_fold is not None else optic.fold
 
 
 def ordered_paths(layout: Layout):
@@ -101,14 +97,13 @@ def place(layout: Layout) -> Placement:
     points: dict[str, np.ndarray] = {oid: np.array(o.at, dtype=float) for oid, o in layout.optics.items() if o.at}
     sources = {sid: np.array(s.at, dtype=float) for sid, s in layout.sources.items()}
     arrivals: dict[str, list] = {}      # optic id -> [(holder id, d_in, d_out)] in path order
-    path_dirs: dict[str, list] = {}     # holder id -> per-entry arriving unit vectors
 
     orienting = first_paths(layout)
     for what, holder in ordered_paths(layout):
         if what == "cavity":
-            _walk_cavity(layout, holder, points, arrivals, path_dirs, orienting)
+            _walk_cavity(layout, holder, points, arrivals, orienting)
         else:
-            _walk_beam(layout, holder, points, sources, arrivals, path_dirs, orienting)
+            _walk_beam(layout, holder, points, sources, arrivals, orienting)
 
     missing = [o for o in layout.optics.values() if o.kind != "obstacle" and o.id not in points]
     if missing:
@@ -181,7 +176,7 @@ def first_paths(layout: Layout) -> dict[str, str]:
     return out
 
 
-def _walk_cavity(layout, cav, points, arrivals, path_dirs, orienting) -> None:
+def _walk_cavity(layout, cav, points, arrivals, orienting) -> None:
     entries = list(cav.path)
     first = entries[0]
     if first.distance is not None:
@@ -214,7 +209,6 @@ def _walk_cavity(layout, cav, points, arrivals, path_dirs, orienting) -> None:
             d_in = _norm(pts[i] - pts[i - 1])
             d_out = _norm(pts[(i + 1) % n] - pts[i])
             arrivals.setdefault(e.id, []).append((cav.id, d_in, d_out))
-    path_dirs[cav.id] = pts
 
 
 def cavity_exit(layout, cav, points) -> tuple[np.ndarray, np.ndarray]:
@@ -227,7 +221,7 @@ def cavity_exit(layout, cav, points) -> tuple[np.ndarray, np.ndarray]:
     return pts[k], _norm(pts[k] - pts[k - 1])
 
 
-def _walk_beam(layout, beam, points, sources, arrivals, path_dirs, orienting) -> None:
+def _walk_beam(layout, beam, points, sources, arrivals, orienting) -> None:
     origin = beam.origin
     if origin in layout.sources:
         src = layout.sources[origin]
@@ -257,7 +251,6 @@ def _walk_beam(layout, beam, points, sources, arrivals, path_dirs, orienting) ->
         d_in = _norm(pts[i] - pts[i - 1])
         d_out = _norm(pts[i + 1] - pts[i]) if i + 1 < len(pts) else None
         arrivals.setdefault(e.id, []).append((beam.id, d_in, d_out))
-    path_dirs[beam.id] = pts
 
 
 def _norm(v) -> np.ndarray:

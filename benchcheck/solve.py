@@ -19,7 +19,7 @@ from .model import Cavity, Layout, LayoutError
 from .placement import Placement, place
 from .trace import REFLECT, TRANSMIT, PathTrace, Trace, trace
 from .unfold import (
-    Marker, Space, Thin, Train, absorption_at, beam_train, cavity_train, extent, overlap_issues, reflectivity_at,
+    Marker, Space, Train, absorption_at, beam_train, cavity_train, extent, overlap_issues, reflectivity_at,
     substrate_steps, thermal_range,
 )
 
@@ -140,7 +140,7 @@ def _reduced_length(train: Train) -> float:
     return sum(st.length * st.k for st in train.steps if isinstance(st, Space))
 
 
-def _halves(train: Train, role: str, n_hits: int):
+def _halves(train: Train, role: str):
     """(H1, H2) splits of the round trip for a +-I boundary: the repeating halves."""
     marks = [i for i, st in enumerate(train.steps) if isinstance(st, Marker)]
     out = []
@@ -201,7 +201,7 @@ def _scan_powers(ranges: list[tuple[float, float]]) -> np.ndarray:
     return np.array(list(itertools.product(*axes)))
 
 
-def _thermal_scan(layout: Layout, cav: Cavity, path: PathTrace, trains: dict) -> ThermalScan | None:
+def _thermal_scan(layout: Layout, path: PathTrace) -> ThermalScan | None:
     """Stability over every thermal-lens power in range.
 
     In a ring each lens is passed once and m is linear in its power, so the ends bound it.
@@ -337,7 +337,7 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
     for plane, train in trains.items():
         rt = _product(train.steps)
         scale = max(_reduced_length(train), 1e-9)
-        mode = resonator.solve_plane(rt, scale, _halves(train, path.role, len(path.hits)))
+        mode = resonator.solve_plane(rt, scale, _halves(train, path.role))
         modes[plane] = mode
         if mode.q is not None:
             marks, raw = _walk(train, mode.q, wavelength)
@@ -361,7 +361,7 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
         fluence = _peak(p_circ / cav.rep_hz, w[TANGENTIAL], w[SAGITTAL]) if pulsed and p_circ is not None else None
         hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p_circ, peak,
                               fluence, counter_propagating=cav.kind == "linear"))
-    thermal = _thermal_scan(layout, cav, path, trains)
+    thermal = _thermal_scan(layout, path)
     return CavityResult(cav.id, cav.kind, modes, round_trip, fsr, p_circ, hits, waists, thermal, trains,
                         passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)))
 

@@ -29,7 +29,7 @@ DIST = st.floats(40.0, 400.0)
 
 
 def _mirror(ident, roc, at=None, extra=""):
-    lines = [f'[[optic]]', f'id = "{ident}"', 'kind = "mirror"']
+    lines = ['[[optic]]', f'id = "{ident}"', 'kind = "mirror"']
     if at is not None:
         lines.append(f"at = [{at[0]!r}, {at[1]!r}]")
     if roc is not None:
