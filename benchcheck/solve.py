@@ -15,11 +15,12 @@ import numpy as np
 
 from . import abcd, gauss, resonator
 from .abcd import PLANES, SAGITTAL, TANGENTIAL
+from .coatings import absorption_at, pass_factor, reflectivity_at, transmission
 from .model import Cavity, Layout, LayoutError
 from .placement import Placement, place
 from .trace import REFLECT, TRANSMIT, PathTrace, Trace, trace
 from .unfold import (
-    Marker, Space, Train, absorption_at, beam_train, cavity_train, extent, overlap_issues, reflectivity_at,
+    Marker, Space, Train, beam_train, cavity_train, extent, overlap_issues,
     substrate_steps, thermal_range,
 )
 
@@ -74,6 +75,8 @@ class CavityResult:
     passive: bool = False
     pulsed: bool = False
     notes: list[str] = field(default_factory=list)
+    #: plane -> free-propagation pieces on the way out (empty where the plane has no mode)
+    profile: dict = field(default_factory=dict)
 
     def stable(self, plane: str) -> bool:
         return self.modes[plane].stable
@@ -98,6 +101,7 @@ class BeamResult:
     tail: object | None = None          # raycast.RayEnd where a beam is traced on
     into: str | None = None             # the passive cavity this beam is coupled into
     mode_match: float | None = None     # fraction of its power in that cavity's mode
+    profile: dict = field(default_factory=dict)   # plane -> free-propagation pieces
 
 
 @dataclass
@@ -157,10 +161,43 @@ def _halves(train: Train, role: str):
     return out
 
 
+@dataclass(frozen=True)
+class Piece:
+    """One stretch of free propagation along a path: enough to give the beam radius anywhere
+    in it (for plots, clearance to mounts, clipping)."""
+
+    s0: float                  # path coordinate where it starts (mm)
+    length: float              # geometric length (mm)
+    k: float                   # reduced mm per geometric mm
+    scale: float               # physical radius / model radius
+    q0: complex                # q^ at its start
+    wavelength: float          # mm
+    m2: float
+
+    def radius(self, s):
+        """Physical 1/e^2 radius (mm) at path coordinate(s) ``s`` inside this piece."""
+        z = np.clip(np.asarray(s, dtype=float) - self.s0, 0.0, self.length)
+        return self.scale * gauss.radius(self.q0 + z * self.k, self.wavelength, self.m2)
+
+
+def radius_along(pieces: list[Piece], s) -> np.ndarray:
+    """Radius at path coordinates ``s`` (array), from the piece that holds each one; NaN
+    outside every piece (inside a thin element there is no free propagation)."""
+    s = np.atleast_1d(np.asarray(s, dtype=float))
+    out = np.full(s.shape, np.nan)
+    for piece in pieces:
+        inside = (s >= piece.s0 - 1e-9) & (s <= piece.s0 + piece.length + 1e-9) & np.isnan(out)
+        if np.any(inside):
+            out[inside] = piece.radius(s[inside])
+    return out
+
+
 def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):
-    """Propagate q^ through a train: radii (physical, mm) at markers and waists in spaces."""
+    """Propagate q^ through a train: radii (physical, mm) at markers, waists in spaces, and
+    the pieces of free propagation on the way out."""
     at_marks: dict[int, float] = {}
     waists: list[tuple[float, float]] = []
+    pieces: list[Piece] = []
     q = q0
     for st in train.steps:
         if isinstance(st, Marker):
@@ -168,13 +205,14 @@ def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):
             continue
         if isinstance(st, Space):
             if st.forward and st.k > 0:
+                pieces.append(Piece(st.s0, st.length, st.k, st.scale, q, wavelength, m2))
                 z = float(gauss.waist_offset(q)) / st.k
                 if -1e-9 <= z <= st.length + 1e-9:
                     z = min(max(z, 0.0), st.length)
                     w0 = st.scale * float(gauss.radius(q + z * st.k, wavelength, m2))
                     waists.append((st.s0 + z, w0))
         q = complex(gauss.propagate(st.matrix(), q))
-    return at_marks, waists
+    return at_marks, waists, pieces
 
 
 def _dedupe_waists(plane: str, raw, tol: float = 1e-6) -> list[WaistResult]:
@@ -262,7 +300,7 @@ def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | N
     wl = cav.wavelength_nm
     if cav.output_power_w is not None:
         oc = layout.optics[cav.output_coupler]
-        t = _transmission(oc, wl)
+        t = transmission(oc, wl)
         if t <= 0:
             raise LayoutError(f"output coupler \"{oc.id}\" transmits nothing at {wl:g} nm (reflectivity 1)",
                               oc.where("reflectivity"))
@@ -273,7 +311,7 @@ def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | N
     r_in = reflectivity_at(ic, wl, None)
     if r_in is None:
         raise LayoutError(f"input coupler \"{ic.id}\" needs a reflectivity", ic.loc)
-    t_in = _transmission(ic, wl)
+    t_in = transmission(ic, wl)
     if t_in <= 0:
         raise LayoutError(f"input coupler \"{ic.id}\" transmits nothing at {wl:g} nm, so no light enters "
                           f"cavity \"{cav.id}\"", ic.where("reflectivity"))
@@ -284,27 +322,9 @@ def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | N
             continue
         optic = layout.optics[hit.optic]
         n = 1 if (cav.kind == "ring" or i in (0, len(path.hits) - 1)) else passes
-        rest *= _pass_factor(optic, hit.action, wl) ** n
+        rest *= pass_factor(optic, hit.action, wl) ** n
     denom = (1.0 - math.sqrt(r_in * rest * (1.0 - cav.loss))) ** 2
     return cav.input_power_w * t_in / denom if denom > 0 else math.inf
-
-
-def _transmission(optic, wl: float) -> float:
-    r = reflectivity_at(optic, wl, 1.0 if optic.kind == "mirror" else 0.0)
-    return max(0.0, 1.0 - r - absorption_at(optic, wl))
-
-
-def _pass_factor(optic, action: str, wl: float) -> float:
-    """Fraction of power that stays in the beam at one pass of an element."""
-    if optic.kind in ("mirror", "splitter"):
-        if action == REFLECT:
-            return reflectivity_at(optic, wl, 1.0 if optic.kind == "mirror" else None) or 0.0
-        return _transmission(optic, wl)
-    if optic.kind == "plate":
-        return max(0.0, 1.0 - (reflectivity_at(optic, wl, 0.0) or 0.0) - absorption_at(optic, wl))
-    if optic.kind in ("crystal", "lens"):
-        return 1.0 - absorption_at(optic, wl)
-    return 1.0
 
 
 def _peak(power, w_t, w_s):
@@ -333,18 +353,19 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
     wavelength = cav.wavelength_nm * NM_TO_MM
     trains = {p: cavity_train(layout, path, p) for p in PLANES}
     notes: list[str] = []
-    modes, radii, waists = {}, {}, []
+    modes, radii, waists, profile = {}, {}, [], {}
     for plane, train in trains.items():
         rt = _product(train.steps)
         scale = max(_reduced_length(train), 1e-9)
         mode = resonator.solve_plane(rt, scale, _halves(train, path.role))
         modes[plane] = mode
         if mode.q is not None:
-            marks, raw = _walk(train, mode.q, wavelength)
+            marks, raw, profile[plane] = _walk(train, mode.q, wavelength)
             radii[plane] = marks
             waists += _dedupe_waists(plane, raw)
         else:
             radii[plane] = {}
+            profile[plane] = []
             if mode.status == resonator.MARGINAL_RETRACE:
                 notes.append(f"{plane}: the round trip is +-I but no repeating half of it is stable, so every beam "
                              "reproduces itself and there is no unique mode")
@@ -363,7 +384,7 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
                               fluence, counter_propagating=cav.kind == "linear"))
     thermal = _thermal_scan(layout, path)
     return CavityResult(cav.id, cav.kind, modes, round_trip, fsr, p_circ, hits, waists, thermal, trains,
-                        passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)))
+                        passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)), profile=profile)
 
 
 # --- beams ------------------------------------------------------------------------------
@@ -403,19 +424,20 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
             q0[plane] = None if mode.q is None else _q_at_marker(result.trains[plane], mode.q, k)
             prefixes[plane] = substrate_steps(through, layout.optics[cav.output_coupler], plane, notes)
         oc = layout.optics[cav.output_coupler]
-        power = None if result.circulating_w is None else result.circulating_w * _transmission(oc, cav.wavelength_nm)
+        power = None if result.circulating_w is None else result.circulating_w * transmission(oc, cav.wavelength_nm)
         if cav.rep_hz is not None and power is not None:
             energy = power / cav.rep_hz
         if any(v is None for v in q0.values()):
             notes.append(f"cavity \"{origin}\" has no mode in every plane, so beam \"{path.id}\" has no size there")
-    radii, waists, trains, q_last = {}, [], {}, {}
+    radii, waists, trains, q_last, profile = {}, [], {}, {}, {}
     for plane in PLANES:
         train = beam_train(layout, path, plane, prefixes[plane], prefix_extent)
         notes += train.notes
         if q0[plane] is None:
             radii[plane] = {}
+            profile[plane] = []
             continue
-        marks, raw = _walk(train, complex(q0[plane]), wavelength, m2[plane])
+        marks, raw, profile[plane] = _walk(train, complex(q0[plane]), wavelength, m2[plane])
         radii[plane] = marks
         waists += _dedupe_waists(plane, raw)
         trains[plane] = train
@@ -436,8 +458,8 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
             if optic.kind == "mirror" and hit.action == TRANSMIT and optic.reflectivity is None:
                 notes.append(f"\"{optic.id}\" gives no reflectivity, so it is taken as a perfect reflector and "
                              f"beam \"{path.id}\" passes it with no power")
-            p *= _pass_factor(optic, hit.action, wl_nm)
-    return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)), path.tail, path.into, match)
+            p *= pass_factor(optic, hit.action, wl_nm)
+    return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)), path.tail, path.into, match, profile)
 
 
 def _q_at_marker(train: Train, q0: complex, hit_index: int, after: bool = False) -> complex:

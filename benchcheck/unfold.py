@@ -22,7 +22,7 @@ import numpy as np
 
 from . import abcd
 from .abcd import SAGITTAL, TANGENTIAL
-from .model import Layout, LayoutError, Optic
+from .model import Layout, Optic
 from .trace import REFLECT, TRANSMIT, Hit, PathTrace
 
 
@@ -299,25 +299,3 @@ def overlap_issues(layout: Layout, path: PathTrace) -> list[str]:
             out.append(f"\"{hits[a].optic}\" and \"{hits[b].optic}\" overlap along \"{path.id}\": "
                        f"{seg:.2f} mm apart but {ea + eb:.2f} mm of material between their centres")
     return out
-
-
-def reflectivity_at(optic: Optic, wavelength_nm: float, default: float | None) -> float | None:
-    spec = optic.reflectivity
-    if spec is None:
-        return default
-    value = spec.at(wavelength_nm)
-    if value is None:
-        raise LayoutError(f"\"{optic.id}\" gives reflectivity for {spec.describe()} but not for {wavelength_nm:g} nm "
-                          "(within 2 %)", optic.where("reflectivity"))
-    return value
-
-
-def absorption_at(optic: Optic, wavelength_nm: float) -> float:
-    spec = optic.absorption
-    if spec is None:
-        return 0.0
-    value = spec.at(wavelength_nm)
-    if value is None:
-        raise LayoutError(f"\"{optic.id}\" gives absorption for {spec.describe()} but not for {wavelength_nm:g} nm "
-                          "(within 2 %)", optic.where("absorption"))
-    return value
