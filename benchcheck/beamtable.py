@@ -11,7 +11,7 @@ import math
 
 from .abcd import PLANES, SAGITTAL, TANGENTIAL
 from .resonator import STATUS_LABEL, STATUS_TEXT
-from .solve import BeamResult, CavityResult, HitResult, Solution
+from .solve import BeamResult, CavityResult, HitResult, Solution, StrayResult
 
 JSON_FORMAT = 1
 SAFETY_CAUTION = (
@@ -84,6 +84,25 @@ def cavity_json(c: CavityResult) -> dict:
     return out
 
 
+def stray_json(r: StrayResult) -> dict:
+    st = r.stray
+    end = st.end
+    return {
+        "id": st.id, "kind": st.kind, "from": st.parent, "optic": st.optic,
+        "power_w": _num(r.power_w), "power_is_upper_bound": r.at_most,
+        "heading_deg": _num(math.degrees(math.atan2(st.direction[1], st.direction[0]))),
+        "ends": {"kind": end.zone_kind or end.kind, "id": end.id, "length_mm": _num(end.length),
+                 "at_mm": [_num(end.point[0]), _num(end.point[1])]},
+    }
+
+
+def stray_text(r: StrayResult) -> str:
+    st, end = r.stray, r.stray.end
+    power = "power not known" if r.power_w is None else (("at most " if r.at_most else "") + f"{r.power_w:.3g} W")
+    what = {"table-edge": "leaves the table", "footprint": f"meets {end.id}", "zone": f"meets {end.zone_kind} {end.id}"}
+    return f"  {st.kind} {st.id}: {power}, {what[end.kind]} at ({end.point[0]:.0f}, {end.point[1]:.0f}) mm"
+
+
 def beam_json(b: BeamResult) -> dict:
     return {
         "id": b.id,
@@ -122,6 +141,7 @@ def solution_json(sol: Solution) -> dict:
         "bench": sol.layout.bench.name,
         "cavities": [cavity_json(c) for c in sol.cavities.values()],
         "beams": [beam_json(b) for b in sol.beams.values()],
+        "strays": [stray_json(r) for r in sol.strays],
         "geometry": issues,
         "notes": list(sol.notes),
         "caution": SAFETY_CAUTION,
@@ -234,6 +254,10 @@ def solution_text(sol: Solution) -> str:
         lines += cavity_text(c) + [""]
     for b in sol.beams.values():
         lines += beam_text(b) + [""]
+    if sol.strays:
+        lines.append("leak and secondary beams:")
+        lines += [stray_text(r) for r in sol.strays]
+        lines.append("")
     if sol.trace.issues:
         lines.append("geometry:")
         lines += [f"  {i.loc.file}:{i.loc.line}:{i.loc.column}: {i.message}" for i in sol.trace.issues]

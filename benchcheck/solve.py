@@ -18,7 +18,7 @@ from .abcd import PLANES, SAGITTAL, TANGENTIAL
 from .coatings import absorption_at, pass_factor, reflectivity_at, transmission
 from .model import Cavity, Layout, LayoutError
 from .placement import Placement, place
-from .trace import REFLECT, TRANSMIT, PathTrace, Trace, trace
+from .trace import REFLECT, TRANSMIT, PathTrace, Stray, Trace, trace
 from .unfold import (
     Marker, Space, Train, beam_train, cavity_train, extent, overlap_issues,
     substrate_steps, thermal_range,
@@ -105,6 +105,15 @@ class BeamResult:
 
 
 @dataclass
+class StrayResult:
+    """A leak or secondary beam with its power (W; an upper bound where ``at_most``)."""
+
+    stray: Stray
+    power_w: float | None
+    at_most: bool = False
+
+
+@dataclass
 class Solution:
     layout: Layout
     placement: Placement
@@ -112,6 +121,7 @@ class Solution:
     cavities: dict[str, CavityResult]
     beams: dict[str, BeamResult]
     notes: list[str] = field(default_factory=list)
+    strays: list[StrayResult] = field(default_factory=list)
 
 
 def solve_layout(layout: Layout) -> Solution:
@@ -127,7 +137,22 @@ def solve_layout(layout: Layout) -> Solution:
     for bid, path in traced.beams.items():
         beams[bid] = solve_beam(layout, path, cavities, traced)
         notes += overlap_issues(layout, path)
-    return Solution(layout, placement, traced, cavities, beams, notes)
+    strays = [stray_power(layout, st, cavities, beams) for st in traced.strays]
+    return Solution(layout, placement, traced, cavities, beams, notes, strays)
+
+
+def stray_power(layout: Layout, st: Stray, cavities: dict, beams: dict) -> StrayResult:
+    """Leak: circulating power times T; what leaves a passive cavity's input coupler is the
+    cavity's reflection, at most the input power.  Secondary: the beam's power at the hit
+    times the fraction of the branch it does not follow (DESIGN section 4)."""
+    if st.kind == "leak":
+        cav = layout.cavities[st.parent]
+        if st.input_reflection:
+            return StrayResult(st, cav.input_power_w, at_most=True)
+        p = cavities[st.parent].circulating_w
+        return StrayResult(st, None if p is None else p * st.fraction)
+    p = beams[st.parent].hits[st.hit].power_w
+    return StrayResult(st, None if p is None else p * st.fraction)
 
 
 # --- matrices over a train ------------------------------------------------------------

@@ -16,6 +16,7 @@ import numpy as np
 from shapely.geometry import Point, Polygon, box
 
 from .abcd import brewster_angle
+from .coatings import reflectivity_at, transmission
 from .model import WAVELENGTH_MATCH, Layout, Loc
 from .raycast import RayEnd, Table
 from .placement import (
@@ -82,12 +83,33 @@ class PathTrace:
 
 
 @dataclass
+class Stray:
+    """A leak through a cavity mirror, or the branch a beam does not follow at a splitter
+    (or at a mirror it passes), traced across the table to what it meets first."""
+
+    id: str
+    kind: str                   # "leak" | "secondary"
+    parent: str                 # cavity or beam id
+    optic: str
+    hit: int                    # index of the hit in the parent path
+    origin: np.ndarray
+    direction: np.ndarray
+    end: RayEnd
+    wavelength_nm: float
+    fraction: float             # of the parent's power at that hit (T, or R for a reflected branch)
+    loc: Loc
+    #: True for what leaves a passive cavity's input coupler: the cavity's reflection
+    input_reflection: bool = False
+
+
+@dataclass
 class Trace:
     placement: Placement
     cavities: dict[str, PathTrace]
     beams: dict[str, PathTrace]
     issues: list[GeometryIssue] = field(default_factory=list)
     table: Table | None = None          # the scene for ray casts (leaks, beams traced on)
+    strays: list[Stray] = field(default_factory=list)
 
 
 def scene(placement: Placement) -> Table:
@@ -109,8 +131,75 @@ def trace(placement: Placement, fold_tolerance: float = FOLD_TOLERANCE_DEG) -> T
         if last.d_out is not None and path.into is None:
             path.tail = out.table.cast(last.point, last.d_out, exclude={last.optic})
         out.beams[beam.id] = path
+    out.strays = _leaks(layout, out) + _secondaries(layout, out)
     _off_table(placement, out.issues)
     return out
+
+
+def _leaks(layout: Layout, out: Trace) -> list[Stray]:
+    """Every mirror with T > 0 inside a cavity passes light out of its back face along the
+    arriving direction: once per arrival, so twice at a fold mirror of a linear cavity
+    (DESIGN section 4)."""
+    strays = []
+    sent_out = {b.origin for b in layout.beams.values()}
+    for cav in layout.cavities.values():
+        path = out.cavities[cav.id]
+        n = len(path.hits)
+        for i, hit in enumerate(path.hits):
+            optic = layout.optics[hit.optic]
+            if optic.kind not in FOLDING_KINDS or hit.action != REFLECT:
+                continue
+            t = transmission(optic, cav.wavelength_nm)
+            if t <= 0:
+                continue
+            arrivals = [hit.d_in]
+            if cav.kind == "linear" and 0 < i < n - 1:
+                arrivals.append(-hit.d_out)
+            for k, d in enumerate(arrivals):
+                # the first arrival is the one placement.cavity_exit sends out as the output beam
+                if optic.id == cav.output_coupler and cav.id in sent_out and k == 0:
+                    continue   # this leak is the output beam a [[beam]] follows
+                suffix = "" if len(arrivals) == 1 else ("/out" if k == 0 else "/back")
+                end = out.table.cast(hit.point, d, exclude={optic.id})
+                strays.append(Stray(f"{cav.id}/{optic.id}{suffix}", "leak", cav.id, optic.id, i, hit.point,
+                                    np.asarray(d), end, cav.wavelength_nm, t, optic.loc,
+                                    input_reflection=cav.input_coupler == optic.id))
+    return strays
+
+
+def _secondaries(layout: Layout, out: Trace) -> list[Stray]:
+    """The branch a beam does not follow where it meets a splitter, or passes a mirror,
+    unless another beam from the same origin follows that branch."""
+    strays = []
+    followed = {}
+    for beam in layout.beams.values():
+        for hit in out.beams[beam.id].hits:
+            followed.setdefault((beam.origin, hit.optic, hit.action), beam.id)
+    for beam in layout.beams.values():
+        path = out.beams[beam.id]
+        for i, hit in enumerate(path.hits):
+            optic = layout.optics[hit.optic]
+            if optic.kind not in FOLDING_KINDS or hit.action == END:
+                continue
+            other = TRANSMIT if hit.action == REFLECT else REFLECT
+            if (beam.origin, hit.optic, other) in followed:
+                continue
+            if path.into is not None and i == len(path.hits) - 1:
+                continue   # a seed's reflection off the input coupler is the cavity's reflection (a leak)
+            placed = out.placement.optics[hit.optic]
+            if other == TRANSMIT:
+                direction = hit.d_in
+                fraction = transmission(optic, path.wavelength_nm)
+            else:
+                normal = placed.direction
+                direction = hit.d_in - 2.0 * np.dot(hit.d_in, normal) * normal
+                fraction = reflectivity_at(optic, path.wavelength_nm, 1.0 if optic.kind == "mirror" else 0.0)
+            if fraction <= 0:
+                continue
+            end = out.table.cast(hit.point, direction, exclude={optic.id})
+            strays.append(Stray(f"{beam.id}/{optic.id}", "secondary", beam.id, optic.id, i, hit.point,
+                                np.asarray(direction), end, path.wavelength_nm, fraction, optic.loc))
+    return strays
 
 
 def _hit(placement, entry, s, d_in, d_out, role_end, holder_id, tol, issues) -> Hit:
