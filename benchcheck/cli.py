@@ -69,6 +69,84 @@ def cmd_beams(args) -> int:
     return status
 
 
+_WORKER_CACHE: dict = {}
+
+
+def _check_one(job):
+    """Check one layout (runs in a worker process): config found from the layout's folder
+    unless given, rules loaded once per configuration."""
+    from .config import find_config, load_config
+    from .engine import FileResult, check_file
+    from .plugins import load_rules
+
+    path, config_path, today = job
+    try:
+        cfg_path = Path(config_path) if config_path else find_config(Path(path))
+        key = str(cfg_path)
+        if key not in _WORKER_CACHE:
+            config = load_config(cfg_path)
+            _WORKER_CACHE[key] = (config, load_rules(config.plugins))
+        config, ruleset = _WORKER_CACHE[key]
+    except LayoutError as exc:
+        return FileResult(str(path), errors=[str(exc)]), None
+    return check_file(Path(path), config, ruleset, today), config.fail_on
+
+
+def cmd_check(args) -> int:
+    from concurrent.futures import ProcessPoolExecutor
+
+    from .config import find_config, load_config
+    from .plugins import load_rules
+    from .reporters import exit_status, github_report, json_report, sarif_report, text_report, workers
+
+    files = _layout_files(args.paths)
+    if not files:
+        for p in args.paths:
+            print(f"{p}: error: no layout files (*.toml) in this folder", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    if args.config and not Path(args.config).is_file():
+        print(f"{args.config}: error: no such configuration file", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    jobs = [(str(f), args.config, None) for f in files]
+    n = min(args.jobs or workers(), len(jobs))
+    if n > 1:
+        with ProcessPoolExecutor(max_workers=n) as pool:
+            done = list(pool.map(_check_one, jobs))
+    else:
+        done = [_check_one(j) for j in jobs]
+    results = [r for r, _ in done]
+    # rule metadata for the report, from the configuration of the first layout
+    try:
+        cfg = load_config(Path(args.config) if args.config else find_config(files[0]))
+        rules = load_rules(cfg.plugins).rules
+        fail_on = args.fail_on or cfg.fail_on
+    except LayoutError:
+        rules, fail_on = {}, args.fail_on or "error"
+    for r in results:
+        for e in r.errors:
+            print(e, file=sys.stderr)
+    report = {"text": text_report, "json": json_report, "sarif": sarif_report, "github": github_report}[args.format]
+    sys.stdout.write(report(results, rules))
+    return exit_status(results, fail_on)
+
+
+def cmd_rules(args) -> int:
+    from .config import find_config, load_config
+    from .plugins import load_rules
+    from .reporters import rules_json, rules_text
+
+    try:
+        cfg = load_config(Path(args.config) if args.config else find_config(Path.cwd()))
+    except LayoutError as exc:
+        print(str(exc), file=sys.stderr)
+        return EXIT_BAD_INPUT
+    ruleset = load_rules(cfg.plugins)
+    for e in ruleset.errors:
+        print(f"error: {e}", file=sys.stderr)
+    sys.stdout.write(rules_json(ruleset.rules) if args.format == "json" else rules_text(ruleset.rules))
+    return EXIT_BAD_INPUT if ruleset.errors else EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="benchcheck",
@@ -86,6 +164,31 @@ def build_parser() -> argparse.ArgumentParser:
     beams.add_argument("--format", choices=("text", "json"), default="text",
                        help="text table (default) or the versioned JSON beam table")
     beams.set_defaults(func=cmd_beams)
+
+    check = sub.add_parser(
+        "check",
+        help="run every rule on layouts and report findings (for review, pre-commit and CI)",
+        description="Check layout files (folders are searched for *.toml) with the built-in rules and any "
+                    "plugins. Exit status: 0 when no unwaived finding reaches the fail level, 1 when one does, "
+                    "2 for unusable input, configuration or plugins.",
+    )
+    check.add_argument("paths", nargs="+", metavar="PATH", help="layout file(s) or folder(s)")
+    check.add_argument("--format", choices=("text", "json", "sarif", "github"), default="text",
+                       help="text (path:line:col: severity: message [rule]), json, sarif (2.1.0) or github "
+                            "(workflow annotations)")
+    check.add_argument("--fail-on", choices=("error", "warning", "note"), default=None,
+                       help="lowest severity that fails the run (default: fail_on of the configuration, else error)")
+    check.add_argument("--config", metavar="FILE",
+                       help="configuration file (default: benchcheck.toml or pyproject.toml [tool.benchcheck], "
+                            "found by walking up from each layout)")
+    check.add_argument("--jobs", type=int, default=None, metavar="N",
+                       help="layouts checked in parallel (default: one per core)")
+    check.set_defaults(func=cmd_check)
+
+    rules = sub.add_parser("rules", help="list every rule with its plugin, severity, options and explanation")
+    rules.add_argument("--format", choices=("text", "json"), default="text")
+    rules.add_argument("--config", metavar="FILE", help="configuration whose plugins to load")
+    rules.set_defaults(func=cmd_rules)
     return parser
 
 

@@ -1,0 +1,217 @@
+"""Findings as text (compiler style), JSON, SARIF 2.1.0 and GitHub workflow annotations.
+
+The JSON and SARIF shapes are contracts (DESIGN section 6): keys are documented in the
+README and only added to within a format version.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+from typing import Iterable
+
+from . import __version__
+from .engine import FileResult
+from .findings import SAFETY_CAUTION, SEVERITY_RANK, Finding, Rule
+
+JSON_FORMAT = 1
+SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
+SARIF_LEVEL = {"error": "error", "warning": "warning", "note": "note"}
+
+
+def all_findings(results: Iterable[FileResult]) -> list[Finding]:
+    return [f for r in results for f in r.findings]
+
+
+def exit_status(results: list[FileResult], fail_on: str) -> int:
+    if any(r.errors for r in results):
+        return 2
+    floor = SEVERITY_RANK[fail_on]
+    if any(not f.waived and SEVERITY_RANK.get(f.severity, 0) >= floor for f in all_findings(results)):
+        return 1
+    return 0
+
+
+def _safety(findings: list[Finding], rules: dict) -> bool:
+    return any(rules.get(f.rule, (None,))[0] is not None and rules[f.rule][0].safety for f in findings)
+
+
+# --- text -------------------------------------------------------------------------------
+
+def text_report(results: list[FileResult], rules: dict) -> str:
+    lines = []
+    findings = all_findings(results)
+    for f in findings:
+        loc = f.loc
+        sev = f"{f.severity} (waived)" if f.waived else f.severity
+        lines.append(f"{loc.file}:{loc.line}:{loc.column}: {sev}: {f.message} [{f.rule}]")
+        if f.waived and f.waiver_reason:
+            lines.append(f"    waived: {f.waiver_reason}")
+        elif f.hint:
+            lines.append(f"    hint: {f.hint}")
+    counts = {s: sum(1 for f in findings if f.severity == s and not f.waived) for s in ("error", "warning", "note")}
+    waived = sum(1 for f in findings if f.waived)
+    parts = [f"{n} {s}{'s' if n != 1 else ''}" for s, n in counts.items()]
+    summary = ", ".join(parts) + (f"; {waived} waived" if waived else "")
+    files = len(results)
+    lines.append(f"{summary} in {files} layout{'s' if files != 1 else ''}")
+    if _safety(findings, rules):
+        lines.append(SAFETY_CAUTION)
+    return "\n".join(lines) + "\n"
+
+
+# --- JSON -------------------------------------------------------------------------------
+
+def json_report(results: list[FileResult], rules: dict) -> str:
+    findings = all_findings(results)
+    doc = {
+        "format": JSON_FORMAT,
+        "findings": [f.as_json() for f in findings],
+        "files": [r.file for r in results],
+        "errors": [e for r in results for e in r.errors],
+        "caution": SAFETY_CAUTION,
+    }
+    return json.dumps(doc, indent=2, allow_nan=False) + "\n"
+
+
+# --- SARIF ------------------------------------------------------------------------------
+
+def repository_root(start: Path) -> Path:
+    """The nearest folder holding .git at or above ``start``; else ``start``."""
+    here = start.resolve()
+    for folder in (here, *here.parents):
+        if (folder / ".git").exists():
+            return folder
+    return here
+
+
+def _relative(file: str, root: Path) -> str:
+    try:
+        return Path(file).resolve().relative_to(root).as_posix()
+    except ValueError:
+        return Path(file).as_posix()
+
+
+def sarif_report(results: list[FileResult], rules: dict, root: Path | None = None) -> str:
+    root = root or repository_root(Path.cwd())
+    ids = sorted(rules)
+    index = {rid: i for i, rid in enumerate(ids)}
+    driver_rules = [_sarif_rule(rules[rid][0], rules[rid][1]) for rid in ids]
+    extra = sorted({f.rule for f in all_findings(results)} - set(ids))
+    for rid in extra:   # engine findings (waivers)
+        index[rid] = len(driver_rules)
+        driver_rules.append({"id": rid, "name": rid, "shortDescription": {"text": rid.replace("-", " ")},
+                             "defaultConfiguration": {"level": "warning"}})
+    out_results = []
+    for f in all_findings(results):
+        res = {
+            "ruleId": f.rule,
+            "ruleIndex": index[f.rule],
+            "level": SARIF_LEVEL.get(f.severity, "warning"),
+            "message": {"text": f.message + (f" Hint: {f.hint}" if f.hint else "")},
+            "locations": [{"physicalLocation": {
+                "artifactLocation": {"uri": _relative(f.loc.file, root), "uriBaseId": "SRCROOT"},
+                "region": {"startLine": max(1, f.loc.line), "startColumn": max(1, f.loc.column)},
+            }}],
+            "partialFingerprints": {"benchcheck/v1": f"{f.rule}:{'/'.join(f.targets)}"},
+            "properties": {"targets": list(f.targets), "value": f.as_json()["value"],
+                           "limit": f.as_json()["limit"], "unit": f.unit},
+        }
+        if f.waived:
+            res["suppressions"] = [{"kind": "inSource", "justification": f.waiver_reason or "waived in the layout"}]
+        out_results.append(res)
+    notifications = [{"level": "error", "message": {"text": e}} for r in results for e in r.errors]
+    run = {
+        "tool": {"driver": {"name": "benchcheck", "version": __version__, "semanticVersion": __version__,
+                            "rules": driver_rules}},
+        "originalUriBaseIds": {"SRCROOT": {"uri": root.as_uri() + "/"}},
+        "results": out_results,
+        "invocations": [{"executionSuccessful": not notifications,
+                         "toolExecutionNotifications": notifications}],
+        "properties": {"caution": SAFETY_CAUTION},
+    }
+    doc = {"$schema": SARIF_SCHEMA, "version": "2.1.0", "runs": [run]}
+    return json.dumps(doc, indent=2, allow_nan=False) + "\n"
+
+
+def _sarif_rule(rule: Rule, plugin: str) -> dict:
+    options = "; ".join(f"{o.name} = {o.default!r}{(' ' + o.unit) if o.unit else ''}: {o.help}" for o in rule.options)
+    text = rule.explanation + (f" Options: {options}." if options else "")
+    return {
+        "id": rule.id,
+        "name": "".join(part.capitalize() for part in rule.id.split("-")),
+        "shortDescription": {"text": rule.summary},
+        "fullDescription": {"text": rule.explanation},
+        "help": {"text": text},
+        "defaultConfiguration": {"level": SARIF_LEVEL[rule.severity]},
+        "properties": {"plugin": plugin, "safety": rule.safety},
+    }
+
+
+# --- GitHub workflow annotations ------------------------------------------------------
+
+def _escape_data(s: str) -> str:
+    return s.replace("%", "%25").replace("\r", "%0D").replace("\n", "%0A")
+
+
+def _escape_property(s: str) -> str:
+    return _escape_data(s).replace(":", "%3A").replace(",", "%2C")
+
+
+def github_report(results: list[FileResult], rules: dict, root: Path | None = None) -> str:
+    root = root or repository_root(Path.cwd())
+    lines = []
+    for f in all_findings(results):
+        if f.waived:
+            continue
+        level = {"error": "error", "warning": "warning"}.get(f.severity, "notice")
+        file = _escape_property(_relative(f.loc.file, root))
+        title = _escape_property(f.rule)
+        lines.append(f"::{level} file={file},line={f.loc.line},col={f.loc.column},title={title}::"
+                     f"{_escape_data(f.message)}")
+    for r in results:
+        for e in r.errors:
+            lines.append(f"::error::{_escape_data(e)}")
+    return "\n".join(lines) + ("\n" if lines else "")
+
+
+def rules_text(rules: dict) -> str:
+    out = []
+    for rid in sorted(rules):
+        rule, plugin = rules[rid]
+        out.append(f"{rid}  [{rule.severity}]  from {plugin}{'  (safety)' if rule.safety else ''}")
+        out.append(f"    {rule.summary}")
+        for o in rule.options:
+            unit = f" {o.unit}" if o.unit else ""
+            out.append(f"    option {o.name} = {o.default!r}{unit}: {o.help}")
+        out.append("")
+        out += _wrap(rule.explanation, "    ")
+        out.append("")
+    return "\n".join(out)
+
+
+def rules_json(rules: dict) -> str:
+    doc = {"format": JSON_FORMAT, "rules": [
+        {"id": rid, "plugin": rules[rid][1], "severity": rules[rid][0].severity, "summary": rules[rid][0].summary,
+         "explanation": rules[rid][0].explanation, "safety": rules[rid][0].safety,
+         "options": [{"name": o.name, "default": o.default, "unit": o.unit, "help": o.help}
+                     for o in rules[rid][0].options]}
+        for rid in sorted(rules)]}
+    return json.dumps(doc, indent=2) + "\n"
+
+
+def _wrap(text: str, indent: str, width: int = 92) -> list[str]:
+    words, lines, cur = text.split(), [], indent
+    for w in words:
+        if len(cur) + len(w) + 1 > width and cur.strip():
+            lines.append(cur.rstrip())
+            cur = indent
+        cur += w + " "
+    if cur.strip():
+        lines.append(cur.rstrip())
+    return lines
+
+
+def workers() -> int:
+    return max(1, os.cpu_count() or 1)
