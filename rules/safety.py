@@ -11,7 +11,7 @@ import numpy as np
 from shapely import STRtree
 from shapely.geometry import LineString, Point, Polygon
 
-from benchcheck.findings import ERROR, WARNING, Finding, Option, Rule
+from benchcheck.findings import ERROR, WARNING, Finding, Rule
 
 
 def _w(p):
