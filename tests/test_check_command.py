@@ -1,0 +1,247 @@
+"""The check command: configuration discovery, limits, severities, waivers, exit status
+and the four output formats (SARIF validated against the OASIS 2.1.0 schema)."""
+
+from __future__ import annotations
+
+import json
+import re
+from pathlib import Path
+
+import pytest
+
+from benchcheck.cli import main
+
+SCHEMA = Path(__file__).resolve().parent.parent.parent / "shared" / "data" / "sarif-schema-2.1.0.json"
+
+# A plano-concave laser whose output goes to a dump; the HR leaks 0.05 % of 40 W = 20 mW
+# out of the back, to the table edge (P_circ = P_out / T_oc, DESIGN section 4).
+LAYOUT = """format = 1
+[bench]
+name = "check test"
+size = [900, 400]
+
+[[optic]]
+id = "HR"
+kind = "mirror"
+at = [100.0, 200.0]
+roc = 300.0
+reflectivity = 0.9995
+
+[[optic]]
+id = "OC"
+kind = "mirror"
+reflectivity = 0.95
+
+[[optic]]
+id = "D1"
+kind = "dump"
+max_power_w = 5.0
+
+[[cavity]]
+id = "laser"
+kind = "linear"
+heading = 0.0
+path = ["HR", { id = "OC", distance = 200.0 }]
+wavelength_nm = 1064
+output_coupler = "OC"
+output_power_w = 2.0
+
+[[beam]]
+id = "out"
+from = "laser"
+path = [{ id = "D1", distance = 300.0 }]
+"""
+
+OPEN_LAB = """[limits]
+intracavity_power_w = 100.0
+"""
+
+
+def write(tmp_path: Path, layout: str = LAYOUT, config: str | None = OPEN_LAB, name: str = "bench.toml",
+          config_name: str = "benchcheck.toml") -> Path:
+    (tmp_path / "layouts").mkdir(exist_ok=True)
+    path = tmp_path / "layouts" / name
+    path.write_text(layout)
+    if config is not None:
+        (tmp_path / config_name).write_text(config)
+    return path
+
+
+def run(capsys, *args):
+    code = main(["check", *map(str, args), "--jobs", "1"])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def json_findings(capsys, *args):
+    code, out, err = run(capsys, *args, "--format", "json")
+    return code, json.loads(out)
+
+
+def test_leak_found_with_numbers(tmp_path, capsys):
+    code, doc = json_findings(capsys, write(tmp_path))
+    leaks = [f for f in doc["findings"] if f["rule"] == "leak-beam"]
+    assert len(leaks) == 1
+    f = leaks[0]
+    # 2 W / 0.05 = 40 W circulating; 0.0005 of it leaks: 0.02 W (DESIGN section 4)
+    assert f["value"] == pytest.approx(0.02, rel=1e-9)
+    assert f["limit"] == pytest.approx(0.001)
+    assert f["unit"] == "W" and f["targets"][0] == "HR"
+    assert f["line"] == 6 and f["column"] == 1 and f["file"].endswith("bench.toml")
+    assert f["severity"] == "warning" and f["waived"] is False
+    assert set(f) >= {"rule", "severity", "message", "targets", "file", "line", "column", "value", "limit",
+                      "unit", "hint", "waived"}
+    assert doc["format"] == 1 and "laser safety officer" in doc["caution"]
+    assert code == 0          # a warning does not fail the default fail level (error)
+
+
+def test_fail_on_warning(tmp_path, capsys):
+    code, _, _ = run(capsys, write(tmp_path), "--fail-on", "warning")
+    assert code == 1
+
+
+def test_limits_come_from_the_configuration(tmp_path, capsys):
+    cfg = OPEN_LAB + "stray_power_w = 0.05\n"
+    _, doc = json_findings(capsys, write(tmp_path, config=cfg))
+    assert not [f for f in doc["findings"] if f["rule"] == "leak-beam"]
+
+
+def test_default_limits_without_configuration(tmp_path, capsys):
+    _, doc = json_findings(capsys, write(tmp_path, config=None))
+    power = [f for f in doc["findings"] if f["rule"] == "intracavity-power"]
+    assert power and power[0]["value"] == pytest.approx(40.0) and power[0]["limit"] == pytest.approx(0.5)
+
+
+def test_pyproject_tool_table_is_found_walking_up(tmp_path, capsys):
+    cfg = '[project]\nname = "x"\n[tool.benchcheck.limits]\nintracavity_power_w = 100.0\nstray_power_w = 1.0\n'
+    path = write(tmp_path, config=cfg, config_name="pyproject.toml")
+    _, doc = json_findings(capsys, path)
+    assert doc["findings"] == []
+
+
+def test_nearest_configuration_wins(tmp_path, capsys):
+    path = write(tmp_path)
+    (tmp_path / "layouts" / "benchcheck.toml").write_text("[rules.leak-beam]\nenabled = false\n")
+    _, doc = json_findings(capsys, path)
+    # the nearer file disables leak-beam and sets no limits: the default 0.5 W applies again
+    assert not [f for f in doc["findings"] if f["rule"] == "leak-beam"]
+    assert [f for f in doc["findings"] if f["rule"] == "intracavity-power"]
+
+
+def test_severity_override(tmp_path, capsys):
+    cfg = OPEN_LAB + '[rules.leak-beam]\nseverity = "error"\n'
+    code, doc = json_findings(capsys, write(tmp_path, config=cfg))
+    assert [f["severity"] for f in doc["findings"] if f["rule"] == "leak-beam"] == ["error"]
+    assert code == 1
+
+
+@pytest.mark.parametrize("cfg, line, fragment", [
+    ("[limits]\nintracavity_powr_w = 1\n", 2, "did you mean 'intracavity_power_w'"),
+    ("[rules.leak-beams]\nenabled = false\n", 1, "did you mean 'leak-beam'"),
+    ("[rules.leak-beam]\nlimit_w = 3\n", 2, "has no option 'limit_w'"),
+    ("[rules.layout-geometry]\nfold_tolerance_deg = \"wide\"\n", 2, "must be a finite number"),
+    ("[rules.leak-beam]\nseverity = \"fatal\"\n", 2, "must be one of"),
+    ("fail_on = \"never\"\n", 1, "fail_on must be one of"),
+    ("[limits]\nstray_power_w = -1\n", 2, "non-negative"),
+])
+def test_bad_configuration_is_status_2_with_its_line(tmp_path, capsys, cfg, line, fragment):
+    code, out, err = run(capsys, write(tmp_path, config=cfg))
+    assert code == 2
+    assert re.search(rf"benchcheck\.toml:{line}:\d+: error: .*{re.escape(fragment)}", err), err
+
+
+def test_a_layout_cannot_name_code_to_import(tmp_path, capsys):
+    code, _, err = run(capsys, write(tmp_path, layout='plugins = ["os"]\n' + LAYOUT))
+    assert code == 2 and "unknown key 'plugins'" in err
+
+
+WAIVER = """
+[[waiver]]
+rule = "leak-beam"
+target = "HR"
+reason = "a card will be clamped behind HR"
+approved_by = "bench lead"
+until = {until}
+"""
+
+
+def test_active_waiver(tmp_path, capsys):
+    code, doc = json_findings(capsys, write(tmp_path, layout=LAYOUT + WAIVER.format(until="2999-01-01")),
+                              "--fail-on", "warning")
+    leak = [f for f in doc["findings"] if f["rule"] == "leak-beam"][0]
+    assert leak["waived"] is True and "card" in leak["waiver_reason"]
+    assert code == 0          # the only finding is waived
+
+
+def test_expired_waiver_applies_no_more_and_is_reported(tmp_path, capsys):
+    _, doc = json_findings(capsys, write(tmp_path, layout=LAYOUT + WAIVER.format(until="2001-01-01")))
+    leak = [f for f in doc["findings"] if f["rule"] == "leak-beam"][0]
+    assert leak["waived"] is False
+    expired = [f for f in doc["findings"] if f["rule"] == "waiver-expired"]
+    assert expired and "2001-01-01" in expired[0]["message"]
+
+
+def test_unmatched_waiver_is_reported(tmp_path, capsys):
+    text = LAYOUT + WAIVER.format(until="2999-01-01").replace('target = "HR"', 'target = "OC"')
+    _, doc = json_findings(capsys, write(tmp_path, layout=text))
+    assert [f for f in doc["findings"] if f["rule"] == "waiver-unmatched"]
+
+
+def test_text_format_is_compiler_style(tmp_path, capsys):
+    code, out, _ = run(capsys, write(tmp_path))
+    first = out.splitlines()[0]
+    assert re.match(r"^.+bench\.toml:6:1: warning: .+ \[leak-beam\]$", first), first
+    assert re.search(r"^0 errors, 1 warning, 0 notes in 1 layout$", out, re.M)
+    assert "laser safety officer" in out
+
+
+def test_github_annotations(tmp_path, capsys):
+    _, out, _ = run(capsys, write(tmp_path), "--format", "github")
+    assert re.match(r"^::warning file=.*bench\.toml,line=6,col=1,title=leak-beam::", out), out
+
+
+def test_unusable_layout_is_status_2_and_others_still_checked(tmp_path, capsys):
+    good = write(tmp_path)
+    bad = write(tmp_path, layout="format = 1\n[bench]\nname = 3\n", name="bad.toml")
+    code, out, err = run(capsys, good, bad, "--format", "json")
+    assert code == 2
+    assert "bad.toml:3:" in err
+    assert [f for f in json.loads(out)["findings"] if f["rule"] == "leak-beam"]
+
+
+def test_parallel_run_matches_serial(tmp_path, capsys):
+    paths = [write(tmp_path, name=f"b{i}.toml") for i in range(3)]
+    serial = main(["check", *map(str, paths), "--format", "json", "--jobs", "1"])
+    out1 = json.loads(capsys.readouterr().out)
+    parallel = main(["check", *map(str, paths), "--format", "json", "--jobs", "2"])
+    out2 = json.loads(capsys.readouterr().out)
+    assert serial == parallel and out1 == out2
+
+
+@pytest.mark.skipif(not SCHEMA.is_file(), reason="the OASIS SARIF schema is in ../shared/data, absent in this clone")
+def test_sarif_validates_against_the_oasis_schema(tmp_path, capsys, monkeypatch):
+    jsonschema = pytest.importorskip("jsonschema")
+    monkeypatch.chdir(tmp_path)
+    text = LAYOUT + WAIVER.format(until="2999-01-01")
+    code, out, _ = run(capsys, write(tmp_path, layout=text), "--format", "sarif")
+    doc = json.loads(out)
+    jsonschema.Draft7Validator(json.loads(SCHEMA.read_text())).validate(doc)
+    run0 = doc["runs"][0]
+    ids = [r["id"] for r in run0["tool"]["driver"]["rules"]]
+    assert "leak-beam" in ids and "cavity-unstable" in ids
+    res = [r for r in run0["results"] if r["ruleId"] == "leak-beam"][0]
+    loc = res["locations"][0]["physicalLocation"]
+    assert loc["artifactLocation"]["uri"] == "layouts/bench.toml"     # relative to the repository root
+    assert loc["region"]["startLine"] == 6
+    assert res["suppressions"][0]["kind"] == "inSource"
+    assert run0["tool"]["driver"]["rules"][res["ruleIndex"]]["id"] == "leak-beam"
+
+
+def test_rules_command_lists_every_builtin_rule(capsys):
+    assert main(["rules", "--format", "json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    ids = {r["id"] for r in doc["rules"]}
+    assert {"layout-geometry", "cavity-unstable", "intracavity-power", "leak-beam", "beam-unterminated",
+            "keepout-zone"} <= ids
+    for r in doc["rules"]:
+        assert r["plugin"] and r["summary"] and r["explanation"] and r["severity"] in ("error", "warning", "note")
