@@ -122,9 +122,8 @@ def cmd_check(args) -> int:
         fail_on = args.fail_on or cfg.fail_on
     except LayoutError:
         rules, fail_on = {}, args.fail_on or "error"
-    for r in results:
-        for e in r.errors:
-            print(e, file=sys.stderr)
+    for e in dict.fromkeys(e for r in results for e in r.errors):   # a bad configuration once, not per file
+        print(e, file=sys.stderr)
     report = {"text": text_report, "json": json_report, "sarif": sarif_report, "github": github_report}[args.format]
     sys.stdout.write(report(results, rules))
     return exit_status(results, fail_on)

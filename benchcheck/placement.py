@@ -271,6 +271,8 @@ DEFAULT_SPLITTER_FOLD = 90.0
 def _orientation(optic: Optic, seen: list):
     """Facing of an optic from the first path that meets it, and a note where it is assumed."""
     if not seen:
+        if optic.kind in ("dump", "detector"):
+            return np.array([1.0, 0.0]), None, None   # a block for stray light: facing does not matter
         return np.array([1.0, 0.0]), None, f"optic \"{optic.id}\" is on no cavity or beam path; its mount is drawn facing +x"
     by, d_in, d_out = seen[0]
     if optic.kind in FOLDING_KINDS:

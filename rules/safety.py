@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 from shapely import STRtree
-from shapely.geometry import LineString, Point, Polygon
+from shapely.geometry import LineString, Polygon
 
 from benchcheck.findings import ERROR, WARNING, Finding, Rule
 
@@ -68,6 +68,7 @@ def _rating(bench, end, power, what, targets):
 
 def check_leaks(bench, options):
     limit = bench.limits["stray_power_w"]
+    enclosures = [Polygon(z.polygon) for z in bench.layout.zones if z.kind == "enclosure"]
     for r in bench.solution.strays:
         st = r.stray
         what = f"{st.kind} beam {st.id}"
@@ -77,8 +78,9 @@ def check_leaks(bench, options):
         if r.power_w is None or r.power_w <= limit:
             continue
         stopped, where = _ends_safely(bench, st.end)
-        if stopped:
-            continue
+        line = LineString([tuple(st.origin), tuple(st.end.point)])
+        if stopped or any(e.covers(line) for e in enclosures):
+            continue   # on a dump or detector, or inside an enclosure all the way
         bound = "up to " if r.at_most else ""
         yield Finding(
             f"{what} leaves \"{st.optic}\" with {bound}{r.power_w:.3g} W and goes {st.end.length:.0f} mm to "
@@ -91,7 +93,6 @@ def check_leaks(bench, options):
 
 def check_unterminated(bench, options):
     limit = bench.limits["stray_power_w"]
-    enclosures = [(z.id, Polygon(z.polygon)) for z in bench.layout.zones if z.kind == "enclosure"]
     for b in bench.solution.beams.values():
         last = b.hits[-1]
         power = b.hits[-1].power_w
@@ -116,16 +117,6 @@ def check_unterminated(bench, options):
             rating = _rating_for_last(bench, b)
             if rating:
                 yield rating
-        for zone_id, poly in enclosures:
-            points = _beam_points(bench, b.id)
-            line = LineString(points)
-            if line.crosses(poly.exterior) and not poly.covers(line):
-                inside = [poly.covers(Point(p)) for p in points]
-                if any(inside):
-                    yield Finding(
-                        f"beam \"{b.id}\" crosses the wall of enclosure \"{zone_id}\" carrying {_w(power)}",
-                        (b.id, zone_id), value=power, limit=limit, unit="W", severity=severity,
-                        hint="keep the beam inside the enclosure, or extend the enclosure")
 
 
 def _rating_for_last(bench, b):
@@ -217,8 +208,8 @@ RULES = (
             "arriving direction (twice for a fold mirror of a linear cavity); a passive cavity's input coupler "
             "sends back the cavity's reflection, at most the input power. At a splitter, or a mirror a beam "
             "passes, the branch no [[beam]] follows is a secondary beam. Each is traced across the table to the "
-            "first mount, zone or table edge. Above limits.stray_power_w it must end on a dump or detector or "
-            "at an enclosure wall. A dump or detector's max_power_w is checked against what it receives."
+            "first mount, zone or table edge. Above limits.stray_power_w it must end on a dump or detector, or "
+            "stay inside an enclosure. A dump or detector's max_power_w is checked against what it receives."
         ),
         check=check_leaks, severity=WARNING, safety=True,
     ),
@@ -228,9 +219,9 @@ RULES = (
         explanation=(
             "A [[beam]] should end on a dump or a detector, or be coupled into a passive cavity through its "
             "input coupler. One that ends elsewhere is traced on to what it meets: the table edge, a mount, a "
-            "zone. Above limits.stray_power_w this is an error, below it a warning. A beam whose path crosses "
-            "the wall of an enclosure is reported too, and a dump or detector receiving more than its "
-            "max_power_w."
+            "zone. Above limits.stray_power_w this is an error, below it a warning; one that stops on a dump, "
+            "a detector or an enclosure wall it was not routed to is a warning. A dump or detector receiving "
+            "more than its max_power_w is an error."
         ),
         check=check_unterminated, severity=ERROR, safety=True,
     ),
