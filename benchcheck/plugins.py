@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import importlib
 import importlib.util
+import os
 import sys
 from dataclasses import dataclass, field
 from importlib import metadata
@@ -111,6 +112,12 @@ def _invalid(rule) -> str | None:
     return None
 
 
-def load_rules(extra_modules: tuple[str, ...] = (), entry_points: bool = True) -> RuleSet:
+#: Set to 1 to ignore installed entry-point plugins (isolating a run, tests, debugging).
+NO_ENTRY_POINTS_ENV = "BENCHCHECK_NO_ENTRY_POINTS"
+
+
+def load_rules(extra_modules: tuple[str, ...] = (), entry_points: bool | None = None) -> RuleSet:
+    if entry_points is None:
+        entry_points = os.environ.get(NO_ENTRY_POINTS_ENV, "") not in ("1", "true", "yes")
     pm, errors = plugin_manager(extra_modules, entry_points)
     return collect_rules(pm, errors)

@@ -57,6 +57,12 @@ intracavity_power_w = 100.0
 """
 
 
+@pytest.fixture(autouse=True)
+def builtin_rules_only(monkeypatch):
+    """These tests are about the engine and the built-in pack: installed plugins stay out."""
+    monkeypatch.setenv("BENCHCHECK_NO_ENTRY_POINTS", "1")
+
+
 def write(tmp_path: Path, layout: str = LAYOUT, config: str | None = OPEN_LAB, name: str = "bench.toml",
           config_name: str = "benchcheck.toml") -> Path:
     (tmp_path / "layouts").mkdir(exist_ok=True)
