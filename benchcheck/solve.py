@@ -472,18 +472,19 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
     if path.into is not None:
         match = mode_match(layout, path, q_last, cavities[path.into], traced, notes)
     hits = []
-    p = power
+    kept = 1.0        # fraction of the origin's power (and pulse energy) still in the beam
     for i, hit in enumerate(path.hits):
         optic = layout.optics[hit.optic]
         w = {pl: radii[pl].get(i) for pl in PLANES}
-        fluence = _peak(energy * (p / power), w[TANGENTIAL], w[SAGITTAL]) if energy is not None and power else None
+        p = None if power is None else power * kept
+        fluence = None if energy is None else _peak(energy * kept, w[TANGENTIAL], w[SAGITTAL])
         hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p,
                               _peak(p, w[TANGENTIAL], w[SAGITTAL]), fluence))
-        if p is not None and hit.action != "end":
+        if hit.action != "end":
             if optic.kind == "mirror" and hit.action == TRANSMIT and optic.reflectivity is None:
                 notes.append(f"\"{optic.id}\" gives no reflectivity, so it is taken as a perfect reflector and "
                              f"beam \"{path.id}\" passes it with no power")
-            p *= pass_factor(optic, hit.action, wl_nm)
+            kept *= pass_factor(optic, hit.action, wl_nm)
     return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)), path.tail, path.into, match, profile)
 
 

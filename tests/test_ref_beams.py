@@ -429,3 +429,23 @@ def test_output_beam_when_the_output_coupler_starts_the_path():
     for p in PLANES:
         assert hit(b, "PM")["w_um"][p] == pytest.approx(ref.w_at(k["w0"], 450.0, k["z_r"]) * 1e3, rel=REL)
     assert b["power_w"] == pytest.approx(1.0, rel=1e-9)
+
+
+def test_single_shot_source_reports_peak_fluence():
+    """A pulse with energy but no repetition rate: peak fluence 2E/(pi w^2) (REFERENCES §5,
+    from the Gaussian profile: E = F0 pi w^2 / 2), here E = 1 mJ, w = 0.5 mm -> 0.2546479
+    J/cm^2 at the source waist, and half of it after a 50 % splitter passed in transmission."""
+    text = layout(
+        optic("BS", "splitter", at=[200.0, 500.0], reflectivity=0.5, fold=90.0),
+        optic("D", "dump", at=[300.0, 500.0]),
+        source("S", at=[100.0, 500.0], heading=0.0, wavelength_nm=1064.0, waist=0.5, waist_at=100.0,
+               pulse_energy_j=1e-3, pulse_s=10e-9),
+        beam("b", "S", ["BS", "D"]),
+        size=(1000.0, 1000.0),
+    )
+    b = beam_entry(solved(text))
+    assert hit(b, "BS")["peak_j_cm2"] == pytest.approx(0.2546479, rel=1e-6)
+    assert hit(b, "BS")["power_w"] is None
+    z_r = ref.rayleigh(0.5, 1064e-6)
+    w_d = ref.w_at(0.5, 100.0, z_r)
+    assert hit(b, "D")["peak_j_cm2"] == pytest.approx(2 * 0.5e-3 / (math.pi * (w_d / 10) ** 2), rel=1e-6)
