@@ -34,6 +34,9 @@ class Space:
     index: float = 1.0
     s0: float = 0.0             # path coordinate (mm) where it starts
     forward: bool = True        # False on the return half of a linear cavity
+    #: for the air between two elements: the index of that gap along the path (the gap
+    #: after hit i is gap i), so a rule can vary one spacing, out and back together
+    gap: int | None = None
 
     def matrix(self) -> np.ndarray:
         return abcd.free_space(self.length * self.k)
@@ -188,8 +191,8 @@ def substrate_steps(hit: Hit, optic: Optic, plane: str, notes: list) -> list:
     return [Thin(first, f"substrate face {optic.id}"), inside, Thin(last, f"substrate face {optic.id}")]
 
 
-def _air(length: float, s0: float, forward: bool = True) -> Space:
-    return Space(max(length, 0.0), 1.0, 1.0, 1.0, s0, forward)
+def _air(length: float, s0: float, forward: bool = True, gap: int | None = None) -> Space:
+    return Space(max(length, 0.0), 1.0, 1.0, 1.0, s0, forward, gap)
 
 
 def _element_parts(layout: Layout, path: PathTrace, plane: str, thermal_powers: dict, notes: list):
@@ -235,7 +238,7 @@ def cavity_train(layout: Layout, path: PathTrace, plane: str, thermal_powers: di
         steps += [mark0] + post0
         for i in range(1, n):
             gap = path.segments[i - 1] - parts[i - 1][3][1] - parts[i][3][0]
-            steps.append(_air(gap, path.hits[i - 1].s + parts[i - 1][3][1]))
+            steps.append(_air(gap, path.hits[i - 1].s + parts[i - 1][3][1], gap=i - 1))
             pre, mark, post, _ = parts[i]
             steps += pre + [mark] + post
         back = []
@@ -244,7 +247,7 @@ def cavity_train(layout: Layout, path: PathTrace, plane: str, thermal_powers: di
             if i < n - 1:
                 pre, _, post, _ = parts[i]
                 back += _reversed_steps(pre + post)
-            back.append(_air(gap, path.hits[i - 1].s + parts[i - 1][3][1], forward=False))
+            back.append(_air(gap, path.hits[i - 1].s + parts[i - 1][3][1], forward=False, gap=i - 1))
         steps += back + _reversed_steps(pre0)
     else:
         pre0, mark0, post0, _ = parts[0]
@@ -252,7 +255,7 @@ def cavity_train(layout: Layout, path: PathTrace, plane: str, thermal_powers: di
         for i in range(1, n + 1):
             j = i % n
             gap = path.segments[i - 1] - parts[i - 1][3][1] - parts[j][3][0]
-            steps.append(_air(gap, path.hits[i - 1].s + parts[i - 1][3][1]))
+            steps.append(_air(gap, path.hits[i - 1].s + parts[i - 1][3][1], gap=i - 1))
             if j:
                 pre, mark, post, _ = parts[j]
                 steps += pre + [mark] + post
