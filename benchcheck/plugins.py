@@ -70,7 +70,9 @@ def plugin_manager(extra_modules: tuple[str, ...] = (), entry_points: bool = Tru
         if pm.has_plugin(module_name):
             continue
         try:
-            pm.register(importlib.import_module(module_name), name=module_name)
+            module = importlib.import_module(module_name)
+            if not pm.is_registered(module):   # also installed by entry point: once is enough
+                pm.register(module, name=module_name)
         except Exception as exc:  # noqa: BLE001
             errors.append(f"plugin {module_name} (from the configuration): cannot be loaded "
                           f"({type(exc).__name__}: {exc})")
