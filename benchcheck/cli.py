@@ -146,6 +146,57 @@ def cmd_rules(args) -> int:
     return EXIT_BAD_INPUT if ruleset.errors else EXIT_OK
 
 
+def cmd_report(args) -> int:
+    from .config import find_config, load_config
+    from .engine import run_rules, validate_options
+    from .findings import Bench
+    from .loader import load_path
+    from .plugins import load_rules
+    from .solve import solve_layout
+
+    try:
+        import matplotlib  # noqa: F401
+    except ImportError:
+        print("error: the report draws its plots with matplotlib, which is not installed; "
+              "install it with: pip install 'benchcheck[report]'", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    from .report_html import MARKER, Report
+
+    layout_path = Path(args.layout)
+    out = Path(args.output) if args.output else Path(f"{layout_path.stem}-review.html")
+    if out.exists() and not args.force:
+        try:
+            head = out.read_text(encoding="utf-8", errors="replace")[:len(MARKER)]
+        except OSError:
+            head = ""
+        if head != MARKER:
+            print(f"{out}: error: exists and is not a benchcheck report; choose another -o or pass --force",
+                  file=sys.stderr)
+            return EXIT_BAD_INPUT
+    try:
+        cfg_path = Path(args.config) if args.config else find_config(layout_path)
+        config = load_config(cfg_path)
+        ruleset = load_rules(config.plugins)
+        validate_options(config, ruleset)
+        layout = load_path(layout_path)
+        solution = solve_layout(layout)
+    except LayoutError as exc:
+        print(str(exc), file=sys.stderr)
+        return EXIT_BAD_INPUT
+    bench = Bench(layout, solution, dict(config.limits))
+    result = run_rules(bench, config, ruleset)
+    status = EXIT_OK
+    for e in list(ruleset.errors) + result.errors:
+        print(e if e.startswith(str(layout_path)) else f"{layout_path}: error: {e}", file=sys.stderr)
+        status = EXIT_BAD_INPUT
+    html = Report(bench, result.findings, str(cfg_path) if cfg_path else None, ruleset.rules).html()
+    tmp = out.with_name(out.name + ".tmp")
+    tmp.write_text(html, encoding="utf-8")
+    tmp.replace(out)
+    print(f"wrote {out} ({len(result.findings)} findings)")
+    return status
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="benchcheck",
@@ -183,6 +234,21 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--jobs", type=int, default=None, metavar="N",
                        help="layouts checked in parallel (default: one per core)")
     check.set_defaults(func=cmd_check)
+
+    report = sub.add_parser(
+        "report",
+        help="write a self-contained HTML design-review report (plan view, beam plots, findings, safety)",
+        description="Solve and check one layout and write a single HTML file: the plan view with beams and "
+                    "findings, beam sizes along every path, stability, per-optic tables and a safety summary. "
+                    "Needs matplotlib (pip install 'benchcheck[report]').",
+    )
+    report.add_argument("layout", metavar="LAYOUT", help="layout file")
+    report.add_argument("-o", "--output", metavar="FILE", help="where to write the report "
+                        "(default: LAYOUT-NAME-review.html in the current folder)")
+    report.add_argument("--config", metavar="FILE", help="configuration file (default: found walking up)")
+    report.add_argument("--force", action="store_true",
+                        help="replace FILE even if it is not an earlier benchcheck report")
+    report.set_defaults(func=cmd_report)
 
     rules = sub.add_parser("rules", help="list every rule with its plugin, severity, options and explanation")
     rules.add_argument("--format", choices=("text", "json"), default="text")

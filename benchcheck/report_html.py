@@ -1,0 +1,352 @@
+"""The design-review report: one self-contained HTML file (no network, no scripts, no fonts
+or images to fetch), readable on screen and printable on A4 or Letter.
+
+It puts together what the other stages computed: the plan view, beam-size plots, the
+stability diagram and spacing windows, tables per cavity and per optic, the findings (each
+linked to its marker on the drawing), waivers, and a safety summary for the laser safety
+officer.  Nothing here computes optics beyond looking numbers up.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+from html import escape
+
+from . import __version__
+from .clipping import elliptical_loss
+from .findings import SAFETY_CAUTION, Bench
+from .planview import STYLE, plan_svg
+
+#: First line of every report: an existing file that starts with it may be replaced.
+MARKER = "<!-- benchcheck design-review report -->"
+SEVERITY_ORDER = {"error": 0, "warning": 1, "note": 2}
+
+
+def _f(x, fmt: str, none: str = "–") -> str:
+    if x is None or (isinstance(x, float) and (math.isnan(x) or math.isinf(x))):
+        return none
+    return format(x, fmt)
+
+
+def _si(x, unit: str) -> str:
+    if x is None or math.isinf(x) or math.isnan(x):
+        return "–"
+    for factor, prefix in ((1e9, "G"), (1e6, "M"), (1e3, "k")):
+        if abs(x) >= factor:
+            return f"{x / factor:.4g} {prefix}{unit}"
+    return f"{x:.4g} {unit}"
+
+
+def _table(head: list[str], rows: list[list[str]], cls: str = "") -> str:
+    """An HTML table; cells are already escaped HTML."""
+    if not rows:
+        return '<p class="none">None.</p>'
+    h = "".join(f"<th>{c}</th>" for c in head)
+    body = "\n".join("<tr>" + "".join(f"<td>{c}</td>" for c in r) + "</tr>" for r in rows)
+    return f'<table class="{cls}"><thead><tr>{h}</tr></thead><tbody>\n{body}\n</tbody></table>'
+
+
+def _lidt_text(lidt) -> str:
+    if lidt is None:
+        return "–"
+    parts = []
+    if lidt.w_cm is not None:
+        parts.append(f"{lidt.w_cm:.3g} W/cm")
+    if lidt.w_cm2 is not None:
+        parts.append(f"{lidt.w_cm2:.3g} W/cm²")
+    if lidt.j_cm2 is not None:
+        extra = f" at {lidt.pulse_s:.3g} s" if lidt.pulse_s else ""
+        extra += f", {lidt.wavelength_nm:g} nm" if lidt.wavelength_nm else ""
+        parts.append(f"{lidt.j_cm2:.3g} J/cm²{extra}")
+    return escape("; ".join(parts))
+
+
+def _clip_loss(optic, hit) -> float | None:
+    """Power lost at the optic's own clear aperture for the beam at its hit point (the
+    aperture projected by cos(aoi) in the table plane; a crystal or plate is seen whole)."""
+    if optic.diameter is None or optic.kind in ("dump", "detector", "obstacle"):
+        return None
+    w_t, w_s = hit.w.get("t"), hit.w.get("s")
+    if not w_t or not w_s:
+        return None
+    a = optic.diameter / 2.0
+    a_t = a if optic.kind in ("crystal", "plate") else a * math.cos(math.radians(hit.aoi_deg))
+    return float(elliptical_loss(w_t, w_s, a_t, a))
+
+
+class Report:
+    def __init__(self, bench: Bench, findings: list, config_path: str | None, rules: dict):
+        self.bench = bench
+        self.solution = bench.solution
+        self.layout = bench.layout
+        self.findings = sorted(findings, key=lambda f: (SEVERITY_ORDER.get(f.severity, 3), f.waived,
+                                                          f.loc.line if f.loc else 0, f.rule))
+        self.numbered = list(enumerate(self.findings, start=1))
+        self.config_path = config_path
+        self.rules = rules
+
+    # -- sections ----------------------------------------------------------------------
+    def html(self, generated: _dt.datetime | None = None) -> str:
+        from . import plots
+
+        generated = generated or _dt.datetime.now().replace(microsecond=0)
+        sol = self.solution
+        name = escape(self.layout.bench.name)
+        counts = {s: sum(1 for f in self.findings if f.severity == s and not f.waived) for s in SEVERITY_ORDER}
+        waived = sum(1 for f in self.findings if f.waived)
+        summary = (f'{counts["error"]} error{"s" * (counts["error"] != 1)}, {counts["warning"]} '
+                   f'warning{"s" * (counts["warning"] != 1)}, {counts["note"]} note{"s" * (counts["note"] != 1)}'
+                   + (f", {waived} waived" if waived else ""))
+        parts = [
+            MARKER,
+            "<!DOCTYPE html>",
+            '<html lang="en"><head><meta charset="utf-8"/>',
+            '<meta name="viewport" content="width=device-width, initial-scale=1"/>',
+            f"<title>Bench review: {name}</title>",
+            f"<style>{CSS}</style></head><body>",
+            f'<header><h1>Bench review: {name}</h1>'
+            f'<p class="meta">Layout <code>{escape(self.layout.file)}</code> · configuration '
+            f'<code>{escape(self.config_path or "defaults")}</code> · benchcheck {escape(__version__)} · '
+            f'{generated.isoformat(sep=" ")}</p>'
+            f'<p class="summary">{summary}</p></header>',
+            '<nav><a href="#safety">Safety</a> · <a href="#plan">Plan view</a> · <a href="#findings">Findings</a>'
+            ' · <a href="#cavities">Cavities</a> · <a href="#beams">Beams</a> · <a href="#optics">Optics</a></nav>',
+            self._safety(),
+            '<section id="plan"><h2>Plan view</h2>',
+            f'<figure class="wide">{plan_svg(sol, self.numbered)}<figcaption>{self._legend()}</figcaption></figure>',
+            "</section>",
+            self._findings(),
+            self._cavities(plots),
+            self._beams(plots),
+            self._optics(),
+            f'<footer><p>{escape(SAFETY_CAUTION)}</p></footer>',
+            "</body></html>",
+        ]
+        return "\n".join(parts) + "\n"
+
+    def _legend(self) -> str:
+        items = [
+            (f'<span class="swatch" style="border-top:3px solid {STYLE["cavity"]}"></span>', "cavity legs (solid)"),
+            (f'<span class="swatch" style="border-top:2px solid {STYLE["beam"]}"></span>', "beams (solid, thin)"),
+            (f'<span class="swatch" style="border-top:2px dashed {STYLE["stray"]}"></span>',
+             "leak and secondary beams (dashed, arrow at the end)"),
+            (f'<span class="swatch" style="background:{STYLE["mount"]}"></span>', "mount footprints"),
+            (f'<span class="swatch" style="border:2px dashed {STYLE["enclosure"]}"></span>', "enclosures"),
+            (f'<span class="swatch hatch"></span>', "keep-out zones"),
+            ('<span class="dot">n</span>', "finding n (click to jump to it)"),
+        ]
+        return " ".join(f'<span class="key">{s} {escape(t)}</span>' for s, t in items)
+
+    def _safety(self) -> str:
+        sol = self.solution
+        limits = self.bench.limits
+        rows = []
+        for c in sol.cavities.values():
+            both = " each way" if c.kind == "linear" else ""
+            over = c.circulating_w is not None and c.circulating_w > limits["intracavity_power_w"]
+            power = "not given" if c.circulating_w is None else f"{c.circulating_w:.4g} W{both}"
+            rows.append([escape(c.id), escape(c.kind), power,
+                         "<strong>above</strong>" if over else "below" if c.circulating_w is not None else "–"])
+        cav_table = _table(["cavity", "kind", "circulating (one-way)",
+                            f"vs open-bench limit {limits['intracavity_power_w']:g} W"], rows)
+        stray_rows = []
+        for r in sol.strays:
+            st, end = r.stray, r.stray.end
+            stopped, where = self._where(end, st)
+            power = "–" if r.power_w is None else f'{"≤ " if r.at_most else ""}{r.power_w:.3g} W'
+            flag = "contained" if stopped else ("<strong>not stopped</strong>"
+                                                if r.power_w is None or r.power_w > limits["stray_power_w"]
+                                                else "below the stray limit")
+            stray_rows.append([escape(st.kind), escape(st.id), power, escape(where), flag])
+        for b in sol.beams.values():
+            if b.tail is not None and b.into is None:
+                stopped, where = self._where(b.tail, None)
+                power = b.hits[-1].power_w
+                stray_rows.append(["beam, traced on", escape(b.id), f"{_f(power, '.3g')} W", escape(where),
+                                   "contained" if stopped else "<strong>unterminated</strong>"])
+        stray_table = _table(["kind", "beam", "power", "where it goes", "status"], stray_rows)
+        return (f'<section id="safety"><h2>Safety summary</h2>'
+                f'<p class="caution"><strong>Advisory.</strong> {escape(SAFETY_CAUTION)} The figures below come '
+                f'from the plan, not from measurement.</p>'
+                f'<h3>Circulating power</h3>{cav_table}'
+                f'<h3>Leak, secondary and uncontained beams</h3>{stray_table}'
+                f'<p class="small">Stray-power limit {limits["stray_power_w"]:g} W (repository configuration). A leak '
+                f'counts as contained when it ends on a dump or detector or stays inside an enclosure.</p></section>')
+
+    def _where(self, end, stray) -> tuple[bool, str]:
+        at = f"({end.point[0]:.0f}, {end.point[1]:.0f}) mm"
+        enclosures = [z for z in self.layout.zones if z.kind == "enclosure"]
+        if end.kind == "footprint":
+            optic = self.layout.optics[end.id]
+            stopped = optic.kind in ("dump", "detector")
+            where = f"{optic.kind} {end.id} at {at}"
+        elif end.kind == "zone":
+            stopped = end.zone_kind == "enclosure"
+            where = f"{end.zone_kind} zone {end.id} at {at}"
+        else:
+            stopped = False
+            where = f"table edge at {at}"
+        if not stopped and stray is not None and enclosures:
+            from shapely.geometry import LineString, Polygon
+
+            line = LineString([tuple(stray.origin), tuple(end.point)])
+            if any(Polygon(z.polygon).covers(line) for z in enclosures):
+                stopped, where = True, where + " (inside an enclosure)"
+        return stopped, where
+
+    def _findings(self) -> str:
+        rows = []
+        for n, f in self.numbered:
+            loc = f"{escape(f.loc.file)}:{f.loc.line}:{f.loc.column}" if f.loc else "–"
+            sev = f'<span class="sev {escape(f.severity)}">{escape(f.severity)}</span>'
+            if f.waived:
+                sev += ' <span class="waived">waived</span>'
+            unit = escape(f.unit or "")
+            if f.value is not None and f.limit is not None:
+                measured = f"{f.value:.4g} / {f.limit:.4g} {unit}"
+            elif f.value is not None:
+                measured = f"{f.value:.4g} {unit}"
+            else:
+                measured = "–"
+            extra = f'<div class="hint">{escape(f.waiver_reason or "")}</div>' if f.waived else (
+                f'<div class="hint">{escape(f.hint)}</div>' if f.hint else "")
+            rows.append([f'<a id="finding-{n}" href="#plan" class="num">{n}</a>', sev,
+                         f"<code>{escape(f.rule)}</code>", escape(f.message) + extra, measured,
+                         f"<code>{loc}</code>"])
+        table = _table(["#", "severity", "rule", "finding", "value / limit", "where"], rows, "findings")
+        waivers = []
+        today = _dt.date.today()
+        for w in self.layout.waivers:
+            matched = any(f.waived and f.rule == w.rule and w.target in f.targets for f in self.findings)
+            status = ("expired" if w.until is not None and w.until < today else "active" if matched else "matches nothing")
+            waivers.append([f"<code>{escape(w.rule)}</code>", escape(w.target), escape(w.reason), escape(w.approved_by),
+                            escape(w.until.isoformat()) if w.until else "–", escape(status)])
+        wt = _table(["rule", "target", "reason", "approved by", "until", "status"], waivers)
+        return f'<section id="findings"><h2>Findings</h2>{table}<h3>Waivers</h3>{wt}</section>'
+
+    def _cavities(self, plots) -> str:
+        sol = self.solution
+        if not sol.cavities:
+            return '<section id="cavities"><h2>Cavities</h2><p class="none">None.</p></section>'
+        rows = []
+        for c in sol.cavities.values():
+            for plane, name in (("t", "tangential"), ("s", "sagittal")):
+                mode = c.modes[plane]
+                rows.append([escape(c.id) if plane == "t" else "", name, f"{mode.m:+.4f}",
+                             escape(mode.status), _f(c.gouy_deg(plane), ".2f"), _si(c.tms_hz(plane), "Hz"),
+                             _si(c.fsr_hz, "Hz") if plane == "t" else "",
+                             (("not given" if c.circulating_w is None else f"{c.circulating_w:.4g} W")
+                              if plane == "t" else "")])
+        table = _table(["cavity", "plane", "m = (A+D)/2", "status", "Gouy (deg)", "mode spacing", "FSR",
+                        "circulating"], rows)
+        figs = []
+        diagram = plots.stability_svg(sol)
+        if diagram:
+            figs.append(f'<figure class="narrow">{diagram}<figcaption>Half-traces of each cavity; a bar shows the '
+                        f'thermal-lens range.</figcaption></figure>')
+        for c in sol.cavities.values():
+            prof = plots.beam_size_svg(sol, c.id, "cavity")
+            if prof:
+                figs.append(f'<figure class="wide">{prof}<figcaption>Cavity {escape(c.id)}: mode radius along '
+                            f'the path (a linear cavity once, end to end; a ring once round).</figcaption></figure>')
+            windows = self._windows(c)
+            if windows:
+                svg = plots.windows_svg(windows)
+                figs.append(f'<figure class="wide">{svg}<figcaption>Cavity {escape(c.id)}: how far each air '
+                            f'spacing may move with the cavity stable in both planes.</figcaption></figure>')
+        return f'<section id="cavities"><h2>Cavities</h2>{table}{"".join(figs)}</section>'
+
+    def _windows(self, cav):
+        if not (cav.stable("t") and cav.stable("s")):
+            return []
+        try:
+            from benchcheck.rules.margin import spacing_windows
+        except ImportError:   # a source checkout: the rule pack is loaded by the plugin manager
+            from .plugins import _builtin_module
+            _builtin_module()
+            from benchcheck.rules.margin import spacing_windows
+        try:
+            return spacing_windows(cav, self.layout, self.solution.trace.cavities[cav.id])
+        except Exception:  # noqa: BLE001 - the drawing is optional; the rule reports its own failure
+            return []
+
+    def _beams(self, plots) -> str:
+        sol = self.solution
+        figs = []
+        for b in sol.beams.values():
+            prof = plots.beam_size_svg(sol, b.id, "beam")
+            if prof:
+                figs.append(f'<figure class="wide">{prof}<figcaption>Beam {escape(b.id)} from '
+                            f'{escape(b.origin)}: radius along the path.</figcaption></figure>')
+        body = "".join(figs) or '<p class="none">None.</p>'
+        return f'<section id="beams"><h2>Beams</h2>{body}</section>'
+
+    def _optics(self) -> str:
+        sol = self.solution
+        rows = []
+        for role, results in (("cavity", sol.cavities), ("beam", sol.beams)):
+            for res in results.values():
+                for h in res.hits:
+                    optic = self.layout.optics[h.optic]
+                    loss = _clip_loss(optic, h)
+                    peak = (f"{h.peak_j_cm2:.3g} J/cm²" if h.peak_j_cm2 is not None else
+                            f"{h.peak_w_cm2:.3g} W/cm²" if h.peak_w_cm2 is not None else "–")
+                    rows.append([escape(h.optic), escape(optic.kind), f"{escape(role)} {escape(res.id)}",
+                                 _f(h.aoi_deg, ".2f"), _f(None if h.w["t"] is None else h.w["t"] * 1e3, ".1f"),
+                                 _f(None if h.w["s"] is None else h.w["s"] * 1e3, ".1f"),
+                                 _f(h.power_w, ".4g"), peak, _lidt_text(optic.lidt),
+                                 "–" if loss is None else f"{loss:.2e}"])
+        table = _table(["optic", "kind", "on", "AOI (deg)", "w_t (µm)", "w_s (µm)", "power (W)",
+                        "peak (one-way)", "LIDT", "clip loss"], rows, "optics")
+        return (f'<section id="optics"><h2>Optics</h2>{table}<p class="small">Peak intensity 2P/(π w_t w_s) of '
+                f'the beam, one-way (in a linear cavity both directions overlap; coating-damage counts both). '
+                f'Clip loss: the power outside the clear aperture projected at the angle of incidence.</p></section>')
+
+
+CSS = """
+:root { --ink: #222; --muted: #5c5a55; --rule: #d8d4cb; }
+* { box-sizing: border-box; }
+body { font: 14px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif;
+       color: var(--ink); margin: 0 auto; max-width: 1100px; padding: 18px 22px 40px; background: #fff; }
+h1 { font-size: 22px; margin: 0 0 4px; } h2 { font-size: 18px; border-bottom: 2px solid var(--ink);
+  padding-bottom: 2px; margin-top: 28px; } h3 { font-size: 15px; margin: 18px 0 6px; }
+.meta, .small, figcaption { color: var(--muted); font-size: 12px; }
+.summary { font-weight: 600; }
+nav { border-top: 1px solid var(--rule); border-bottom: 1px solid var(--rule); padding: 6px 0; font-size: 13px; }
+a { color: #0b5fa5; }
+table { border-collapse: collapse; width: 100%; font-size: 12.5px; margin: 6px 0 10px; }
+th, td { border-bottom: 1px solid var(--rule); padding: 4px 6px; text-align: left; vertical-align: top; }
+th { background: #f3f1ec; font-weight: 600; }
+td code, p code { font-size: 11.5px; }
+.findings td:first-child { width: 2.2em; }
+.num { display: inline-block; min-width: 1.7em; text-align: center; border-radius: 1em; background: #44546a;
+       color: #fff; text-decoration: none; font-weight: 600; }
+.sev { font-weight: 700; text-transform: uppercase; font-size: 11px; letter-spacing: .03em; }
+.sev.error { color: #b3261e; } .sev.warning { color: #8a5a00; } .sev.note { color: #44546a; }
+.waived { font-size: 11px; border: 1px solid var(--muted); padding: 0 3px; border-radius: 3px; }
+.hint { color: var(--muted); font-size: 12px; margin-top: 2px; }
+.caution { border-left: 5px solid #b3261e; background: #fbf1ef; padding: 8px 12px; }
+figure { margin: 12px 0; } figure svg { width: 100%; height: auto; }
+figure.narrow { max-width: 380px; display: inline-block; vertical-align: top; margin-right: 18px; }
+svg.plan text { font-family: system-ui, Arial, sans-serif; }
+svg .small { font-size: 10px; fill: #5c5a55; } svg .tiny { font-size: 9px; }
+svg .label { font-size: 10px; font-weight: 600; fill: #222; }
+svg .mark { font-size: 9px; font-weight: 700; fill: #fff; }
+.key { display: inline-block; margin: 2px 12px 2px 0; white-space: nowrap; }
+.swatch { display: inline-block; width: 22px; height: 10px; vertical-align: middle; }
+.swatch.hatch { background: repeating-linear-gradient(45deg, #d08a00 0 2px, transparent 2px 6px); border: 1px solid #d08a00; }
+.dot { display: inline-block; width: 16px; height: 16px; border-radius: 8px; background: #44546a; color: #fff;
+       font-size: 10px; text-align: center; line-height: 16px; font-weight: 700; }
+.none { color: var(--muted); }
+footer { margin-top: 30px; border-top: 1px solid var(--rule); color: var(--muted); font-size: 12px; }
+@media print {
+  @page { margin: 14mm; }
+  body { max-width: none; padding: 0; font-size: 10.5pt; }
+  nav { display: none; }
+  a { color: inherit; text-decoration: none; }
+  section, figure, tr { break-inside: avoid; page-break-inside: avoid; }
+  h2 { break-after: avoid; page-break-after: avoid; }
+  #plan { break-before: page; }
+}
+"""

@@ -1,0 +1,119 @@
+"""The design-review report: one well-formed, self-contained HTML file per layout holding
+the plan view, plots and tables, with nothing that reaches for the network; and, where
+Chromium is installed, a real rendering (headless) that takes a screenshot."""
+
+from __future__ import annotations
+
+import re
+import shutil
+import subprocess
+import xml.etree.ElementTree as ET
+from pathlib import Path
+
+import pytest
+
+pytest.importorskip("matplotlib", reason="the report needs the 'report' extra (matplotlib)")
+
+from benchcheck.cli import main  # noqa: E402
+from benchcheck.report_html import MARKER  # noqa: E402
+
+ROOT = Path(__file__).resolve().parent.parent
+LAYOUTS = sorted((ROOT / "layouts").rglob("*.toml"))
+SVG = "{http://www.w3.org/2000/svg}"
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                  "--disable-background-networking", "--disable-component-update", "--disable-sync",
+                  "--hide-scrollbars"]
+
+
+@pytest.fixture(autouse=True)
+def builtin_rules_only(monkeypatch):
+    monkeypatch.setenv("BENCHCHECK_NO_ENTRY_POINTS", "1")
+
+
+def make(layout: Path, out: Path, capsys) -> str:
+    assert main(["report", str(layout), "-o", str(out)]) == 0
+    capsys.readouterr()
+    return out.read_text(encoding="utf-8")
+
+
+def parse(html: str) -> ET.Element:
+    """The report is written as well-formed XHTML: an XML parser must accept it whole."""
+    assert html.startswith(MARKER)
+    body = html[len(MARKER):].lstrip()
+    assert body.startswith("<!DOCTYPE html>")
+    return ET.fromstring(body[len("<!DOCTYPE html>"):])
+
+
+@pytest.mark.parametrize("layout", LAYOUTS, ids=lambda p: p.name)
+def test_report_is_well_formed_and_holds_drawings_and_tables(layout, tmp_path, capsys):
+    html = make(layout, tmp_path / "r.html", capsys)
+    root = parse(html)
+    ids = {e.get("id") for e in root.iter() if e.get("id")}
+    assert {"safety", "plan", "findings", "cavities", "beams", "optics"} <= ids
+    svgs = list(root.iter(SVG + "svg"))
+    assert any(s.get("class") == "plan" for s in svgs)
+    plan = next(s for s in svgs if s.get("class") == "plan")
+    texts = " ".join(t.text or "" for t in plan.iter(SVG + "text"))
+    assert "x (mm)" in texts and "mm" in texts and "x their 1/e" in texts     # scale, axes, exaggeration
+    sol_optics = re.findall(r'^id = "([^"]+)"', layout.read_text(), re.M)
+    for ident in sol_optics[:3]:
+        assert ident in texts or ident in html
+    assert "laser safety officer" in html and "IEC 60825-1" in html
+    tables = list(root.iter("table"))
+    assert tables, "the report has tables"
+
+
+@pytest.mark.parametrize("layout", LAYOUTS, ids=lambda p: p.name)
+def test_nothing_points_to_the_network(layout, tmp_path, capsys):
+    html = make(layout, tmp_path / "r.html", capsys)
+    assert "<script" not in html and "<link" not in html and "<img" not in html and "@import" not in html
+    assert not re.search(r'(?:src|href)\s*=\s*["\']\s*(?:https?:|//)', html)
+    assert not re.search(r"url\(\s*['\"]?\s*(?:https?:|//)", html)
+    # the only URLs left are XML namespace names, which are identifiers, never fetched
+    for url in re.findall(r"https?://[^\s\"'<>)]+", html):
+        assert url.startswith(("http://www.w3.org/", "http://purl.org/dc/", "http://creativecommons.org/")), url
+
+
+def test_findings_are_marked_on_the_drawing_and_linked(tmp_path, capsys):
+    html = make(ROOT / "layouts" / "flawed" / "every-rule-fires.toml", tmp_path / "r.html", capsys)
+    root = parse(html)
+    rows = [a for a in root.iter("a") if (a.get("id") or "").startswith("finding-")]
+    assert len(rows) >= 11
+    links = {a.get("href") for a in root.iter(SVG + "a")}
+    for a in rows:
+        assert a.get("href") == "#plan"
+    # every finding with a place on the table has its marker linking to its row
+    assert len(links & {f"#{a.get('id')}" for a in rows}) >= 11
+
+
+def test_an_existing_file_that_is_not_a_report_is_not_overwritten(tmp_path, capsys):
+    notes = tmp_path / "notes.html"
+    notes.write_text("my own notes")
+    assert main(["report", str(LAYOUTS[0]), "-o", str(notes)]) == 2
+    assert notes.read_text() == "my own notes"
+    assert "not a benchcheck report" in capsys.readouterr().err
+    make(LAYOUTS[0], tmp_path / "again.html", capsys)
+    make(LAYOUTS[0], tmp_path / "again.html", capsys)          # an earlier report is replaced
+
+
+def render(html: Path, png: Path, width: int = 1200, height: int = 1700) -> None:
+    """Headless Chromium screenshot of a report (closed network flags, a fresh profile)."""
+    profile = png.parent / "chromium-profile"
+    subprocess.run([CHROMIUM, *CHROMIUM_FLAGS, f"--user-data-dir={profile}", f"--window-size={width},{height}",
+                    f"--screenshot={png}", html.resolve().as_uri()], check=True, capture_output=True, timeout=180)
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="Chromium is not installed (Debian package 'chromium'); .ci/run "
+                                             "installs it so this check runs in CI")
+def test_renders_in_headless_chromium(tmp_path, capsys):
+    html = tmp_path / "report.html"
+    make(ROOT / "layouts" / "flawed" / "every-rule-fires.toml", html, capsys)
+    png = tmp_path / "report.png"
+    render(html, png)
+    data = png.read_bytes()
+    assert data[:8] == b"\x89PNG\r\n\x1a\n"
+    assert len(data) > 50_000          # a blank page compresses to a few kB
+    target = ROOT / "docs" / "report-screenshot.png"
+    if target.parent.is_dir() and not target.exists():
+        shutil.copyfile(png, target)   # the README's picture comes from this check
