@@ -133,7 +133,7 @@ class Report:
              "leak and secondary beams (dashed, arrow at the end)"),
             (f'<span class="swatch" style="background:{STYLE["mount"]}"></span>', "mount footprints"),
             (f'<span class="swatch" style="border:2px dashed {STYLE["enclosure"]}"></span>', "enclosures"),
-            (f'<span class="swatch hatch"></span>', "keep-out zones"),
+            ('<span class="swatch hatch"></span>', "keep-out zones"),
             ('<span class="dot">n</span>', "finding n (click to jump to it)"),
         ]
         return " ".join(f'<span class="key">{s} {escape(t)}</span>' for s, t in items)
