@@ -20,12 +20,20 @@ EXIT_OK = 0
 EXIT_BAD_INPUT = 2
 
 
+#: TOML files that are never layouts, skipped when a folder is searched (named files are
+#: always read).
+NOT_LAYOUTS = {"benchcheck.toml", "pyproject.toml", "ruff.toml", ".ruff.toml", "Cargo.toml", "taplo.toml",
+               ".taplo.toml", "rustfmt.toml", "uv.toml", "poetry.toml", "typos.toml", "_typos.toml"}
+
+
 def _layout_files(paths: list[str]) -> list[Path]:
     out = []
     for p in paths:
         path = Path(p)
         if path.is_dir():
-            out += sorted(f for f in path.rglob("*.toml") if f.is_file())
+            out += sorted(f for f in path.rglob("*.toml") if f.is_file() and f.name not in NOT_LAYOUTS
+                          and not any(part.startswith(".") or part in ("node_modules", "site-packages")
+                                      for part in f.relative_to(path).parts[:-1]))
         else:
             out.append(path)
     return out
@@ -76,7 +84,7 @@ def _check_one(job):
     """Check one layout (runs in a worker process): config found from the layout's folder
     unless given, rules loaded once per configuration."""
     from .config import find_config, load_config
-    from .engine import FileResult, check_file
+    from .engine import FileResult, check_file, config_folder
     from .plugins import load_rules
 
     path, config_path, today = job
@@ -85,7 +93,7 @@ def _check_one(job):
         key = str(cfg_path)
         if key not in _WORKER_CACHE:
             config = load_config(cfg_path)
-            _WORKER_CACHE[key] = (config, load_rules(config.plugins))
+            _WORKER_CACHE[key] = (config, load_rules(config.plugins, search_path=config_folder(config)))
         config, ruleset = _WORKER_CACHE[key]
     except LayoutError as exc:
         return FileResult(str(path), errors=[str(exc)]), None
@@ -96,6 +104,7 @@ def cmd_check(args) -> int:
     from concurrent.futures import ProcessPoolExecutor
 
     from .config import find_config, load_config
+    from .engine import config_folder
     from .plugins import load_rules
     from .reporters import exit_status, github_report, json_report, sarif_report, text_report, workers
 
@@ -115,18 +124,20 @@ def cmd_check(args) -> int:
     else:
         done = [_check_one(j) for j in jobs]
     results = [r for r, _ in done]
+    if args.fail_on:
+        for r in results:
+            r.fail_on = args.fail_on
     # rule metadata for the report, from the configuration of the first layout
     try:
         cfg = load_config(Path(args.config) if args.config else find_config(files[0]))
-        rules = load_rules(cfg.plugins).rules
-        fail_on = args.fail_on or cfg.fail_on
+        rules = load_rules(cfg.plugins, search_path=config_folder(cfg)).rules
     except LayoutError:
-        rules, fail_on = {}, args.fail_on or "error"
+        rules = {}
     for e in dict.fromkeys(e for r in results for e in r.errors):   # a bad configuration once, not per file
         print(e, file=sys.stderr)
     report = {"text": text_report, "json": json_report, "sarif": sarif_report, "github": github_report}[args.format]
     sys.stdout.write(report(results, rules))
-    return exit_status(results, fail_on)
+    return exit_status(results)
 
 
 def cmd_rules(args) -> int:
@@ -139,7 +150,9 @@ def cmd_rules(args) -> int:
     except LayoutError as exc:
         print(str(exc), file=sys.stderr)
         return EXIT_BAD_INPUT
-    ruleset = load_rules(cfg.plugins)
+    from .engine import config_folder
+
+    ruleset = load_rules(cfg.plugins, search_path=config_folder(cfg))
     for e in ruleset.errors:
         print(f"error: {e}", file=sys.stderr)
     sys.stdout.write(rules_json(ruleset.rules) if args.format == "json" else rules_text(ruleset.rules))
@@ -148,7 +161,7 @@ def cmd_rules(args) -> int:
 
 def cmd_report(args) -> int:
     from .config import find_config, load_config
-    from .engine import run_rules, validate_options
+    from .engine import config_folder, run_rules, validate_options
     from .findings import Bench
     from .loader import load_path
     from .plugins import load_rules
@@ -176,8 +189,8 @@ def cmd_report(args) -> int:
     try:
         cfg_path = Path(args.config) if args.config else find_config(layout_path)
         config = load_config(cfg_path)
-        ruleset = load_rules(config.plugins)
-        validate_options(config, ruleset)
+        ruleset = load_rules(config.plugins, search_path=config_folder(config))
+        problems = validate_options(config, ruleset)
         layout = load_path(layout_path)
         solution = solve_layout(layout)
     except LayoutError as exc:
@@ -186,8 +199,8 @@ def cmd_report(args) -> int:
     bench = Bench(layout, solution, dict(config.limits))
     result = run_rules(bench, config, ruleset)
     status = EXIT_OK
-    for e in list(ruleset.errors) + result.errors:
-        print(e if e.startswith(str(layout_path)) else f"{layout_path}: error: {e}", file=sys.stderr)
+    for e in [f"error: {e}" for e in ruleset.errors] + [str(p) for p in problems] + result.errors:
+        print(e, file=sys.stderr)
         status = EXIT_BAD_INPUT
     html = Report(bench, result.findings, str(cfg_path) if cfg_path else None, ruleset.rules).html()
     tmp = out.with_name(out.name + ".tmp")

@@ -31,16 +31,26 @@ class FileResult:
     findings: list[Finding] = field(default_factory=list)
     #: unusable input or failing plugins: messages; any of these means exit status 2
     errors: list[str] = field(default_factory=list)
+    #: the fail level of the configuration that applies to this file
+    fail_on: str = "error"
 
 
-def validate_options(config: Config, ruleset: RuleSet) -> None:
+def validate_options(config: Config, ruleset: RuleSet) -> list[LayoutError]:
     """Configuration names only rules that exist and options they declare, with values of
-    the declared type."""
+    the declared type.  Returns the problems (each with its line in the configuration); the
+    rules they concern are not run, the others are.  A section for a rule that no plugin
+    provided is not a problem of its own while a plugin failed to load (that failure is
+    reported instead)."""
+    problems: list[LayoutError] = []
     for rule_id, entry in config.rules.items():
         if rule_id not in ruleset.rules:
+            if ruleset.errors:
+                continue
             close = difflib.get_close_matches(rule_id, list(ruleset.rules), n=1, cutoff=0.6)
             hint = f"; did you mean '{close[0]}'?" if close else ""
-            raise LayoutError(f"no rule '{rule_id}' is installed{hint} (see 'benchcheck rules')", entry["loc"])
+            problems.append(LayoutError(f"no rule '{rule_id}' is installed{hint} (see 'benchcheck rules')",
+                                        entry["loc"]))
+            continue
         rule = ruleset.rules[rule_id][0]
         declared = {o.name: o for o in rule.options}
         for key, value in entry["options"].items():
@@ -49,9 +59,13 @@ def validate_options(config: Config, ruleset: RuleSet) -> None:
                 close = difflib.get_close_matches(key, list(declared) + ["enabled", "severity"], n=1, cutoff=0.6)
                 hint = f"; did you mean '{close[0]}'?" if close else (
                     f"; its options: {', '.join(declared)}" if declared else "; it has no options")
-                raise LayoutError(f"rule '{rule_id}' has no option '{key}'{hint}", where)
-            if not _same_kind(declared[key].default, value):
-                raise LayoutError(f"rules.{rule_id}.{key} must be {_kind(declared[key].default)}, found {value!r}", where)
+                problems.append(LayoutError(f"rule '{rule_id}' has no option '{key}'{hint}", where))
+                config.rules[rule_id]["invalid"] = True
+            elif not _same_kind(declared[key].default, value):
+                problems.append(LayoutError(f"rules.{rule_id}.{key} must be {_kind(declared[key].default)}, "
+                                            f"found {value!r}", where))
+                config.rules[rule_id]["invalid"] = True
+    return problems
 
 
 def _same_kind(default: Any, value: Any) -> bool:
@@ -73,7 +87,7 @@ def _kind(default: Any) -> str:
 def run_rules(bench: Bench, config: Config, ruleset: RuleSet, today: _dt.date | None = None) -> FileResult:
     out = FileResult(bench.file)
     for rule_id, (rule, plugin) in ruleset.rules.items():
-        if not config.enabled(rule_id):
+        if not config.enabled(rule_id) or config.rules.get(rule_id, {}).get("invalid"):
             continue
         options = rule.defaults()
         options.update(config.options(rule_id))
@@ -149,8 +163,8 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
         if config is None:
             config = load_config(find_config(path))
         if ruleset is None:
-            ruleset = load_rules(config.plugins)
-        validate_options(config, ruleset)
+            ruleset = load_rules(config.plugins, search_path=config_folder(config))
+        problems = [str(p) for p in validate_options(config, ruleset)]
         layout = load_path(path)
         solution = solve_layout(layout)
     except LayoutError as exc:
@@ -161,5 +175,12 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
         return FileResult(name, errors=[f"{name}: internal error while solving ({type(exc).__name__}: {exc}); "
                                         "please report it with this layout"])
     result = run_rules(Bench(layout, solution, dict(config.limits)), config, ruleset, today)
-    result.errors = [f"{name}: error: {e}" if not e.startswith(name) else e for e in ruleset.errors] + result.errors
+    # plugin and configuration problems are not this layout's: said once, whatever the file
+    result.errors = [f"error: {e}" for e in ruleset.errors] + problems + result.errors
+    result.fail_on = config.fail_on
     return result
+
+
+def config_folder(config: Config) -> str | None:
+    """Where configured plugin modules may also be found: beside the configuration file."""
+    return str(Path(config.path).resolve().parent) if config.path else None

@@ -105,6 +105,11 @@ def place(layout: Layout) -> Placement:
         else:
             _walk_beam(layout, holder, points, sources, arrivals, orienting)
 
+    for zone in layout.zones:
+        poly = Polygon(zone.polygon)
+        if not poly.is_valid or poly.area <= 0:
+            raise LayoutError(f"zone \"{zone.id}\": the polygon crosses itself or has no area; list its corners "
+                              "in order round the outline", zone.loc)
     missing = [o for o in layout.optics.values() if o.kind != "obstacle" and o.id not in points]
     if missing:
         o = missing[0]

@@ -63,7 +63,11 @@ def plugin_manager(extra_modules: tuple[str, ...] = (), entry_points: bool = Tru
             if pm.has_plugin(name):
                 continue
             try:
-                pm.register(ep.load(), name=name)
+                plugin = ep.load()
+                pm.register(plugin, name=name)
+                if not any(impl.plugin is plugin for impl in pm.hook.benchcheck_rules.get_hookimpls()):
+                    errors.append(f"plugin {name} (entry point {ep.value}): provides no benchcheck_rules hook "
+                                  "(is the function named benchcheck_rules and marked @benchcheck.hookimpl?)")
             except Exception as exc:  # noqa: BLE001
                 errors.append(f"plugin {name} (entry point {ep.value}): cannot be loaded ({type(exc).__name__}: {exc})")
     for module_name in extra_modules:
@@ -73,9 +77,17 @@ def plugin_manager(extra_modules: tuple[str, ...] = (), entry_points: bool = Tru
             module = importlib.import_module(module_name)
             if not pm.is_registered(module):   # also installed by entry point: once is enough
                 pm.register(module, name=module_name)
+            if not any(impl.plugin is module for impl in pm.hook.benchcheck_rules.get_hookimpls()):
+                errors.append(f"plugin {module_name} (from the configuration): provides no benchcheck_rules hook "
+                              "(is the function named benchcheck_rules and marked @benchcheck.hookimpl?)")
         except Exception as exc:  # noqa: BLE001
             errors.append(f"plugin {module_name} (from the configuration): cannot be loaded "
                           f"({type(exc).__name__}: {exc})")
+    try:
+        pm.check_pending()
+    except pluggy.PluginValidationError as exc:
+        name = pm.get_name(exc.plugin) or repr(exc.plugin)
+        errors.append(f"plugin {name}: {exc} (the hook this version provides: benchcheck_rules)")
     return pm, errors
 
 
@@ -118,8 +130,19 @@ def _invalid(rule) -> str | None:
 NO_ENTRY_POINTS_ENV = "BENCHCHECK_NO_ENTRY_POINTS"
 
 
-def load_rules(extra_modules: tuple[str, ...] = (), entry_points: bool | None = None) -> RuleSet:
+def load_rules(extra_modules: tuple[str, ...] = (), entry_points: bool | None = None,
+               search_path: str | None = None) -> RuleSet:
+    """Every rule; ``search_path`` (the configuration's folder) is where configured plugin
+    modules are also looked for, so a lab's module beside its benchcheck.toml works from
+    any working directory, the pre-commit hook included."""
     if entry_points is None:
         entry_points = os.environ.get(NO_ENTRY_POINTS_ENV, "") not in ("1", "true", "yes")
-    pm, errors = plugin_manager(extra_modules, entry_points)
+    added = bool(search_path and extra_modules and search_path not in sys.path)
+    if added:
+        sys.path.insert(0, search_path)
+    try:
+        pm, errors = plugin_manager(extra_modules, entry_points)
+    finally:
+        if added:
+            sys.path.remove(search_path)
     return collect_rules(pm, errors)

@@ -6,8 +6,10 @@ README and only added to within a format version.
 
 from __future__ import annotations
 
+import hashlib
 import json
 import os
+import re
 from pathlib import Path
 from typing import Iterable
 
@@ -24,12 +26,14 @@ def all_findings(results: Iterable[FileResult]) -> list[Finding]:
     return [f for r in results for f in r.findings]
 
 
-def exit_status(results: list[FileResult], fail_on: str) -> int:
+def exit_status(results: list[FileResult]) -> int:
+    """2 for unusable input; 1 when an unwaived finding reaches its file's fail level."""
     if any(r.errors for r in results):
         return 2
-    floor = SEVERITY_RANK[fail_on]
-    if any(not f.waived and SEVERITY_RANK.get(f.severity, 0) >= floor for f in all_findings(results)):
-        return 1
+    for r in results:
+        floor = SEVERITY_RANK[r.fail_on]
+        if any(not f.waived and SEVERITY_RANK.get(f.severity, 0) >= floor for f in r.findings):
+            return 1
     return 0
 
 
@@ -69,7 +73,7 @@ def json_report(results: list[FileResult], rules: dict) -> str:
         "format": JSON_FORMAT,
         "findings": [f.as_json() for f in findings],
         "files": [r.file for r in results],
-        "errors": [e for r in results for e in r.errors],
+        "errors": list(dict.fromkeys(e for r in results for e in r.errors)),
         "caution": SAFETY_CAUTION,
     }
     return json.dumps(doc, indent=2, allow_nan=False) + "\n"
@@ -114,14 +118,15 @@ def sarif_report(results: list[FileResult], rules: dict, root: Path | None = Non
                 "artifactLocation": {"uri": _relative(f.loc.file, root), "uriBaseId": "SRCROOT"},
                 "region": {"startLine": max(1, f.loc.line), "startColumn": max(1, f.loc.column)},
             }}],
-            "partialFingerprints": {"benchcheck/v1": f"{f.rule}:{'/'.join(f.targets)}"},
+            "partialFingerprints": {"benchcheck/v1": _fingerprint(f)},
             "properties": {"targets": list(f.targets), "value": f.as_json()["value"],
                            "limit": f.as_json()["limit"], "unit": f.unit},
         }
         if f.waived:
             res["suppressions"] = [{"kind": "inSource", "justification": f.waiver_reason or "waived in the layout"}]
         out_results.append(res)
-    notifications = [{"level": "error", "message": {"text": e}} for r in results for e in r.errors]
+    notifications = [{"level": "error", "message": {"text": e}}
+                     for e in dict.fromkeys(e for r in results for e in r.errors)]
     run = {
         "tool": {"driver": {"name": "benchcheck", "version": __version__, "semanticVersion": __version__,
                             "rules": driver_rules}},
@@ -133,6 +138,15 @@ def sarif_report(results: list[FileResult], rules: dict, root: Path | None = Non
     }
     doc = {"$schema": SARIF_SCHEMA, "version": "2.1.0", "runs": [run]}
     return json.dumps(doc, indent=2, allow_nan=False) + "\n"
+
+
+def _fingerprint(f: Finding) -> str:
+    """Stable across runs while the problem stays the same (numbers may change), distinct
+    between two problems of one rule on the same targets (the two planes of a cavity, the
+    two leaks of a fold mirror): the message with its numbers taken out."""
+    words = re.sub(r"[-+]?\d[\d.,]*(?:e[-+]?\d+)?", "#", f.message)
+    digest = hashlib.sha1(words.encode("utf-8")).hexdigest()[:16]
+    return f"{f.rule}:{'/'.join(f.targets)}:{digest}"
 
 
 def _sarif_rule(rule: Rule, plugin: str) -> dict:
@@ -170,9 +184,10 @@ def github_report(results: list[FileResult], rules: dict, root: Path | None = No
         title = _escape_property(f.rule)
         lines.append(f"::{level} file={file},line={f.loc.line},col={f.loc.column},title={title}::"
                      f"{_escape_data(f.message)}")
-    for r in results:
-        for e in r.errors:
-            lines.append(f"::error::{_escape_data(e)}")
+    for e in dict.fromkeys(e for r in results for e in r.errors):
+        lines.append(f"::error::{_escape_data(e)}")
+    if _safety([f for f in all_findings(results) if not f.waived], rules):
+        lines.append(f"::notice title=benchcheck::{_escape_data(SAFETY_CAUTION)}")
     return "\n".join(lines) + ("\n" if lines else "")
 
 

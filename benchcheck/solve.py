@@ -290,27 +290,34 @@ def _thermal_scan(layout: Layout, path: PathTrace) -> ThermalScan | None:
             design.setdefault(cid, {})[plane] = (1.0 / (sum(powers) / len(powers))
                                                  if sum(powers) else math.inf)
         samples = _scan_powers(ranges)
-        m = _half_traces(layout, path, plane, crystals, samples)
+        mats = _round_trips(layout, path, plane, crystals, samples)
         if len(crystals) == 1 and ranges[0][1] > ranges[0][0]:
             lo, hi = ranges[0]
             p3 = np.array([lo, (lo + hi) / 2.0, hi])
-            m3 = _half_traces(layout, path, plane, crystals, p3[:, None])
+            m3 = abcd.half_trace(_round_trips(layout, path, plane, crystals, p3[:, None]))
             curv = m3[0] - 2.0 * m3[1] + m3[2]
             if abs(curv) > 1e-15:
                 h = (hi - lo) / 2.0
                 vertex = p3[1] - h * (m3[2] - m3[0]) / (2.0 * curv)
                 if lo < vertex < hi:
-                    m = np.append(m, _half_traces(layout, path, plane, crystals, np.array([[vertex]])))
-        stable[plane] = bool(np.all(np.abs(m) < 1.0 - resonator.BOUNDARY_TOL))
+                    mats = np.concatenate([mats, _round_trips(layout, path, plane, crystals, np.array([[vertex]]))])
+        m = abcd.half_trace(mats)
+        scale = max(sum(st.length * st.k for st in cavity_train(layout, path, plane).steps if isinstance(st, Space)),
+                    1e-9)
+        edge = np.abs(m) >= 1.0 - resonator.BOUNDARY_TOL
+        # touching |m| = 1 with a round trip of +-I (as at the confocal point) retraces every
+        # ray and is stable on both sides: not a break in the range (DESIGN section 4)
+        stable[plane] = all(resonator.classify(mats[i], scale) == resonator.MARGINAL_RETRACE
+                            for i in np.flatnonzero(edge))
         m_range[plane] = (float(np.min(m)), float(np.max(m)))
     return ThermalScan(lenses, design, stable, m_range)
 
 
-def _half_traces(layout: Layout, path: PathTrace, plane: str, crystals: list, samples: np.ndarray) -> np.ndarray:
-    """m of the round trip for each row of lens powers (vectorised over rows)."""
+def _round_trips(layout: Layout, path: PathTrace, plane: str, crystals: list, samples: np.ndarray) -> np.ndarray:
+    """Round-trip matrices (K, 2, 2) for each row of lens powers (vectorised over rows)."""
     powers = {(cid, plane): samples[:, j] for j, cid in enumerate(crystals)}
     train = cavity_train(layout, path, plane, powers)
-    return np.atleast_1d(abcd.half_trace(_product(train.steps)))
+    return np.broadcast_to(_product(train.steps), (len(samples), 2, 2))
 
 
 def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | None:

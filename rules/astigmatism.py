@@ -144,6 +144,11 @@ def _compensation(cav_id: str, layout, path, tolerance_deg: float):
 
 
 def check(bench, options):
+    if not options["max_ratio"] > 1.0:
+        raise ValueError(f"rules.mode-astigmatism.max_ratio must be > 1 (a ratio and its inverse bound the "
+                         f"band), not {options['max_ratio']!r}")
+    if not options["angle_tolerance_deg"] >= 0.0:
+        raise ValueError("rules.mode-astigmatism.angle_tolerance_deg must be >= 0")
     layout = bench.layout
     sol = bench.solution
     for cav in sol.cavities.values():

@@ -144,7 +144,7 @@ def check(bench, options):
     error_loss = float(options["error_loss"])
     for name, value in (("max_loss", max_loss), ("error_loss", error_loss)):
         if not 0.0 < value < 1.0:
-            raise ValueError(f"{name} must lie strictly between 0 and 1, not {value!r}")
+            raise ValueError(f"rules.aperture-clipping.{name} must lie strictly between 0 and 1, not {value!r}")
     for kind, ident, result in paths(bench):
         for i, hit in enumerate(result.hits):
             optic = bench.layout.optics[hit.optic]

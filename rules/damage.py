@@ -135,13 +135,13 @@ def _severity(value: float, lidt: float) -> str:
 def check(bench, options):
     factor = float(options["safety_factor"])
     if not factor > 0.0:
-        raise ValueError(f"safety_factor must be > 0, not {factor!r}")
+        raise ValueError(f"rules.coating-damage.safety_factor must be > 0, not {factor!r}")
     for kind, ident, result in paths(bench):
         pulse_s, wl_nm = _pulse(bench, kind, ident, result)
         for i, hit in enumerate(result.hits):
             optic = bench.layout.optics[hit.optic]
             lidt = optic.lidt
-            if lidt is None or hit.power_w is None:
+            if lidt is None or (hit.power_w is None and hit.peak_j_cm2 is None):
                 continue
             faces = surfaces(bench, kind, ident, result, i)
             if not faces:
@@ -155,7 +155,15 @@ def _check_hit(bench, kind, ident, result, i, hit, optic, lidt, faces, pulse_s, 
     targets = (optic.id, ident)
     at = optic_point(bench, optic.id)
     pulsed = pulse_s is not None
-    both = kind == "cavity" and hit.counter_propagating
+    # In a linear cavity both directions cross every inner element.  At an end mirror the
+    # arriving and the reflected beam are one reflection, as in any test of an HR coating,
+    # so the one-way power is what its rating compares with.
+    end_mirror = i in (0, len(result.hits) - 1)
+    both = kind == "cavity" and hit.counter_propagating and not end_mirror
+    if hit.power_w is None:   # a single pulse: only its fluence is known
+        if lidt.j_cm2 is not None and pulsed:
+            yield from _pulsed(result, i, hit, target, who, targets, at, lidt, faces, pulse_s, wl_nm, factor, both)
+        return
     power = hit.power_w * (2.0 if both else 1.0)
     if both:
         load = f"2 x {hit.power_w:.3g} W one-way: the linear cavity's two directions overlap there"

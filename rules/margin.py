@@ -273,8 +273,10 @@ def _half_trace_findings(cav, max_abs_m: float):
                 hint="if the degenerate (confocal) design is intended, waive this finding; otherwise move a "
                      "spacing off the confocal point")
         elif abs(mode.m) > max_abs_m:
-            edge = "+1 (a near-planar or near-hemispherical cavity)" if mode.m > 0 else \
-                "-1 (a near-concentric cavity)"
+            # for two mirrors m = 2 g1 g2 - 1 (Kogelnik & Li 1966): m -> +1 as g1 g2 -> 1 (planar or
+            # concentric), m -> -1 as g1 g2 -> 0 (confocal or hemispherical)
+            edge = ("+1, like a near-planar or near-concentric two-mirror cavity" if mode.m > 0 else
+                    "-1, like a near-confocal or near-hemispherical two-mirror cavity")
             yield Finding(
                 f"cavity \"{cav.id}\" is close to an edge of stability in the {name} plane: half-trace m = "
                 f"{mode.m:+.4f}, limit |m| <= {max_abs_m:g}; m approaches {edge}",
@@ -318,6 +320,10 @@ def _window_finding(cav, w: Window, min_window: float) -> Finding:
 def check(bench, options):
     max_abs_m = options["max_abs_m"]
     min_window = options["min_window_mm"]
+    if not 0.0 < max_abs_m <= 1.0:
+        raise ValueError(f"rules.stability-margin.max_abs_m must lie in (0, 1], not {max_abs_m!r}")
+    if not min_window >= 0.0:
+        raise ValueError(f"rules.stability-margin.min_window_mm must be >= 0, not {min_window!r}")
     for cav in bench.solution.cavities.values():
         yield from _half_trace_findings(cav, max_abs_m)
         if not all(cav.modes[p].stable for p in PLANES):

@@ -331,7 +331,7 @@ def check(bench, options):
     error_at = float(options["error_fraction"])
     ratio_needed = clearance_ratio(limit)
     if not 0.0 < error_at <= 1.0:
-        raise ValueError(f"error_fraction must lie in (0, 1], not {error_at!r}")
+        raise ValueError(f"rules.beam-obstructed.error_fraction must lie in (0, 1], not {error_at!r}")
     ids = list(bench.placement.optics)
     shapes = [bench.placement.optics[i].footprint for i in ids]
     if not shapes:

@@ -11,6 +11,7 @@ import numpy as np
 from shapely import STRtree
 from shapely.geometry import LineString, Polygon
 
+from benchcheck.coatings import pass_factor
 from benchcheck.findings import ERROR, WARNING, Finding, Rule
 
 
@@ -91,11 +92,21 @@ def check_leaks(bench, options):
 
 # --- beam-unterminated -------------------------------------------------------------------
 
+def tail_power(bench, b):
+    """Power a beam carries past its last optic: what arrives there times what that optic
+    passes on in the traced-on direction."""
+    last = b.hits[-1]
+    if last.power_w is None:
+        return None
+    optic = bench.layout.optics[last.optic]
+    return last.power_w * pass_factor(optic, last.action, bench.trace.beams[b.id].wavelength_nm)
+
+
 def check_unterminated(bench, options):
     limit = bench.limits["stray_power_w"]
     for b in bench.solution.beams.values():
         last = b.hits[-1]
-        power = b.hits[-1].power_w
+        power = tail_power(bench, b) if b.tail is not None else last.power_w
         severity = ERROR if power is None or power > limit else WARNING
         if b.into is None and b.tail is not None:
             stopped, where = _ends_safely(bench, b.tail)
@@ -149,9 +160,12 @@ def _all_lines(bench):
         if path.role == "ring":
             pts.append(pts[0])
         yield f"cavity \"{cid}\"", (cid,), sol.cavities[cid].circulating_w, pts
-    for bid in bench.trace.beams:
+    for bid, path in bench.trace.beams.items():
         b = sol.beams[bid]
-        yield f"beam \"{bid}\"", (bid,), b.power_w, _beam_points(bench, bid)
+        pts = _beam_points(bench, bid)
+        powers = [h.power_w for h in b.hits] + ([tail_power(bench, b)] if path.tail is not None else [])
+        for i in range(len(pts) - 1):      # each leg with the power it carries
+            yield f"beam \"{bid}\"", (bid,), powers[i], [pts[i], pts[i + 1]]
     for r in sol.strays:
         st = r.stray
         yield f"{st.kind} beam {st.id}", (st.optic, st.parent), r.power_w, [tuple(st.origin), tuple(st.end.point)]

@@ -181,3 +181,29 @@ def test_beam_along_a_mirror_face_is_reported_and_stays_finite():
     assert graze and graze[0].value == pytest.approx(90.0)
     w = sol.beams["b"].hits[0].w
     assert all(math.isfinite(v) for v in w.values())
+
+
+def test_thermal_range_through_a_retracing_point_stays_stable():
+    """Flat - lens - flat with 100 mm each side: at f = 100 mm the round trip is -I (every
+    ray retraces: the confocal-like point, DESIGN section 4), stable on both sides, so a range
+    through it is stable: g1 g2 = (1 - 100 P)^2 in [0, 1) for P up to 1/60 except the
+    touching point P = 1/100 (Kogelnik & Li 1966, equivalent g-parameters)."""
+    c = cavity_entry(solved(flat_lens_flat(100.0, 100.0, (60.0, 1e4))))
+    assert c["thermal_lens"]["stable_over_range"] == {"t": True, "s": True}
+    assert c["thermal_lens"]["m_range"]["t"][0] == pytest.approx(-1.0, abs=1e-9)
+
+
+def test_margin_names_the_edges_the_way_the_two_mirror_cavity_does():
+    """m = 2 g1 g2 - 1 (Kogelnik & Li 1966): near-concentric (g = -0.995) -> +1, near-confocal
+    (g = 0.005) -> -1."""
+    from benchcheck.config import Config
+    from benchcheck.findings import Bench
+    from benchcheck.plugins import load_rules
+
+    rule = load_rules(entry_points=False).rules["stability-margin"][0]
+    for d, words in ((199.5, "near-planar or near-concentric"), (99.5, "near-confocal or near-hemispherical")):
+        text = layout(mirror("M1", 100.0, at=[100.0, 100.0]), mirror("M2", 100.0),
+                      cavity("c", "linear", ["M1", rel("M2", d)], WL_NM, heading=0.0), size=(2000.0, 2000.0))
+        sol = solve_text(text)
+        found = list(rule.check(Bench(sol.layout, sol, Config().limits), rule.defaults()))
+        assert any(words in f.message for f in found), [f.message for f in found]

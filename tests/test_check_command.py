@@ -251,3 +251,50 @@ def test_rules_command_lists_every_builtin_rule(capsys):
             "keepout-zone"} <= ids
     for r in doc["rules"]:
         assert r["plugin"] and r["summary"] and r["explanation"] and r["severity"] in ("error", "warning", "note")
+
+
+@pytest.mark.skipif(not SCHEMA.is_file(), reason="the OASIS SARIF schema is in ../shared/data, absent in this clone")
+def test_sarif_fingerprints_tell_findings_apart(capsys):
+    """GitHub code scanning merges results with equal fingerprints: the flawed demo's two
+    planes of one cavity, and two leaks of one fold mirror, must stay apart."""
+    flawed = Path(__file__).resolve().parent.parent / "layouts" / "flawed" / "every-rule-fires.toml"
+    _, out, _ = run(capsys, flawed, "--format", "sarif")
+    prints = [r["partialFingerprints"]["benchcheck/v1"] for r in json.loads(out)["runs"][0]["results"]]
+    assert len(prints) == len(set(prints)) > 11
+
+
+PLUGIN_WRONG_NAME = """import benchcheck
+@benchcheck.hookimpl
+def benchcheck_rule():
+    return []
+"""
+PLUGIN_UNMARKED = """def benchcheck_rules():
+    return []
+"""
+
+
+@pytest.mark.parametrize("module, source, fragment", [
+    ("lab_rules_misnamed", PLUGIN_WRONG_NAME, "unknown hook 'benchcheck_rule'"),
+    ("lab_rules_unmarked", PLUGIN_UNMARKED, "provides no benchcheck_rules hook")])
+def test_a_plugin_that_provides_no_rules_hook_is_reported(tmp_path, capsys, module, source, fragment):
+    """The module sits beside benchcheck.toml: it is found there (the configuration's folder)."""
+    (tmp_path / f"{module}.py").write_text(source)
+    cfg = f'plugins = ["{module}"]\n' + OPEN_LAB
+    code, out, err = run(capsys, write(tmp_path, config=cfg))
+    assert code == 2 and module in err and fragment in err
+
+
+def test_a_failed_plugin_does_not_stop_the_other_rules(tmp_path, capsys):
+    """Its configuration section names a rule nobody provided now: the load failure is what
+    is reported, and the built-in rules still run."""
+    cfg = 'plugins = ["no_such_lab_module"]\n' + OPEN_LAB + "[rules.long-leg]\nmax_leg_mm = 100\n"
+    code, out, err = run(capsys, write(tmp_path, config=cfg), "--format", "json")
+    assert code == 2 and "no_such_lab_module" in err
+    assert [f for f in json.loads(out)["findings"] if f["rule"] == "leak-beam"]
+
+
+def test_a_folder_search_skips_configuration_files(tmp_path, capsys):
+    path = write(tmp_path)
+    (tmp_path / "layouts" / "pyproject.toml").write_text('[project]\nname = "x"\n')
+    code, out, err = run(capsys, tmp_path, "--format", "json")
+    assert json.loads(out)["files"] == [str(path)] and code == 0

@@ -170,18 +170,27 @@ def test_linear_power_density_at_the_vendor_check_value():
     assert "2 mm" in g.message
 
 
-def test_a_linear_cavity_loads_its_mirrors_from_both_directions():
-    # P_circ = P_out / T_oc = 1 W / 0.01 = 100 W one-way; w1 from Kogelnik & Li 1966
+def test_a_linear_cavity_loads_inner_optics_from_both_directions_and_end_mirrors_once():
+    """P_circ = P_out / T_oc = 1 W / 0.01 = 100 W one-way; the mode of the symmetric
+    two-mirror cavity (Kogelnik & Li 1966: w1 = 312.68 um on the mirrors, w0 = 270.79 um at
+    the centre; a flat fold mirror there leaves it unchanged).  The fold mirror at 5 deg
+    incidence carries both directions, 2P cos(5 deg)/(pi w0^2) (REFERENCES: tilted footprint);
+    an end mirror's rating already covers its own reflection, so it sees the one-way power."""
     mode = ref.two_mirror(500.0, 500.0, 250.0, WL)
     text = layout(
         mirror("M1", 500.0, at=[1000.0, 1000.0], diameter=25.4, lidt={"w_cm2": 2e5}),
+        mirror("FM", None, diameter=25.4, lidt={"w_cm2": 2e5}),
         mirror("M2", 500.0, reflectivity=0.99, diameter=25.4),
-        cavity("c", "linear", ["M1", rel("M2", 250.0)], WL_NM, heading=0.0, output_coupler="M2", output_power_w=1.0),
+        cavity("c", "linear", ["M1", rel("FM", 125.0, 10.0), rel("M2", 125.0)], WL_NM, heading=0.0,
+               output_coupler="M2", output_power_w=1.0),
     )
     (f,) = run(text)
-    assert f.value == pytest.approx(peak(2.0 * 100.0, mode["w1"], mode["w1"]), rel=1e-7)
+    assert f.targets[0] == "FM"
+    expected = peak(2.0 * 100.0, mode["w0"], mode["w0"]) * math.cos(math.radians(5.0))
+    assert f.value == pytest.approx(expected, rel=1e-7)
     assert "2 x 100 W one-way" in f.message and f.severity == WARNING
-    assert f.value > 1e5 > peak(100.0, mode["w1"], mode["w1"])     # one way alone would pass
+    assert f.value / 2 < 1e5                                       # one way alone would pass
+    assert peak(100.0, mode["w1"], mode["w1"]) < 1e5 < peak(200.0, mode["w1"], mode["w1"])   # M1: passes once
 
 
 def test_a_pulsed_beam_against_a_fluence_rating():
@@ -294,3 +303,13 @@ def test_through_the_engine_with_a_configured_safety_factor():
 
 def test_optics_without_a_rating_are_not_checked():
     assert run(line(optic("L", "lens", at=[100.0, 500.0], diameter=25.4, focal_length=1e6), power_w=1e4)) == []
+
+
+def test_a_single_pulse_is_checked_by_its_fluence():
+    """A source with pulse energy but no repetition rate has no average power; its fluence
+    is still known: 2E/(pi w^2) = 2.546 J/cm^2 for 10 mJ on w = 0.5 mm (REFERENCES §5
+    scaled from 1 mJ -> 0.2546479), above a 1 J/cm^2 rating at the same pulse length."""
+    found = run(line(lens({"j_cm2": 1.0, "pulse_s": 10e-9}), waist=0.5, power_w=None, pulse_energy_j=0.01,
+                     pulse_s=10e-9))
+    (f,) = [x for x in found if x.unit == "J/cm^2"]
+    assert f.value == pytest.approx(2.546479, rel=1e-6) and f.severity == ERROR
