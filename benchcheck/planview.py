@@ -276,21 +276,56 @@ def finding_point(solution, f):
     return None
 
 
+def _marker_shape(severity: str, x: float, y: float, colour: str, hollow: bool) -> str:
+    """Severity by shape as well as colour: error a circle, warning a diamond, note a square;
+    a waived finding hollow."""
+    fill, stroke = ("#ffffff", colour) if hollow else (colour, "#ffffff")
+    style = f'fill="{fill}" stroke="{stroke}" stroke-width="1.4"'
+    if severity == "warning":
+        r = 9.0
+        return f'<polygon points="{x:.1f},{y - r:.1f} {x + r:.1f},{y:.1f} {x:.1f},{y + r:.1f} {x - r:.1f},{y:.1f}" {style}/>'
+    if severity == "note":
+        r = 7.0
+        return f'<rect x="{x - r:.1f}" y="{y - r:.1f}" width="{2 * r:.1f}" height="{2 * r:.1f}" {style}/>'
+    return f'<circle cx="{x:.1f}" cy="{y:.1f}" r="7.5" {style}/>'
+
+
 def _markers(frame, solution, findings) -> list[str]:
-    out = []
-    placed: dict[tuple, int] = {}
+    """One badge per place: findings at the same spot share it ("3,15,19"), drawn in the
+    shape of the worst severity there and linked to the first of them."""
+    groups: dict[tuple, list] = {}
+    order = []
     for number, f in findings:
         point = finding_point(solution, f)
         if point is None:
             continue
         px, py = frame.xy(*point)
-        key = (round(px / 6), round(py / 6))
-        shift = placed.get(key, 0)
-        placed[key] = shift + 1
-        px += 13 * shift
-        colour = STYLE.get(f.severity, STYLE["note"])
-        out.append(f'<a href="#finding-{number}"><g class="marker"><title>{escape(f.rule)}: '
-                   f'{escape(f.message)}</title><circle cx="{px:.1f}" cy="{py:.1f}" r="7.5" fill="{colour}" '
-                   f'stroke="#ffffff" stroke-width="1.2"/><text x="{px:.1f}" y="{py + 3.5:.1f}" '
-                   f'text-anchor="middle" class="mark">{number}</text></g></a>')
+        key = (round(px / 8), round(py / 8))
+        if key not in groups:
+            groups[key] = []
+            order.append((key, px, py))
+        groups[key].append((number, f))
+    rank = {"error": 0, "warning": 1, "note": 2}
+    out = []
+    for key, px, py in order:
+        items = groups[key]
+        worst = min(items, key=lambda nf: (nf[1].waived, rank.get(nf[1].severity, 3)))[1]
+        numbers = [str(n) for n, _ in items]
+        label = ",".join(numbers) if len(numbers) <= 3 else ",".join(numbers[:2]) + f",+{len(numbers) - 2}"
+        colour = STYLE.get(worst.severity, STYLE["note"])
+        hollow = all(f.waived for _, f in items)
+        titles = " | ".join(f"{n} {f.severity}: {f.message}" for n, f in items)
+        shape = _marker_shape(worst.severity, px, py, colour, hollow)
+        text_fill = colour if hollow else "#ffffff"
+        if len(label) > 2:   # a wider tag beside the mark for several numbers
+            tag = (f'<rect x="{px + 9:.1f}" y="{py - 7:.1f}" width="{5.6 * len(label) + 6:.1f}" height="14" rx="3" '
+                   f'fill="#ffffff" stroke="{colour}" stroke-width="1"/><text x="{px + 12:.1f}" y="{py + 3.5:.1f}" '
+                   f'class="mark" fill="{colour}" style="fill:{colour}">{escape(label)}</text>')
+            inner = ""
+        else:
+            tag = ""
+            inner = (f'<text x="{px:.1f}" y="{py + 3.5:.1f}" text-anchor="middle" class="mark" '
+                     f'style="fill:{text_fill}">{escape(label)}</text>')
+        out.append(f'<a href="#finding-{items[0][0]}"><g class="marker"><title>{escape(titles)}</title>'
+                   f'{shape}{inner}{tag}</g></a>')
     return out

@@ -9,7 +9,9 @@ as colour, so the plots read in greyscale.
 from __future__ import annotations
 
 import io
+import itertools
 import math
+import re
 
 import numpy as np
 
@@ -39,14 +41,23 @@ def _pyplot():
     return plt
 
 
+_FIGURES = itertools.count(1)
+
+
 def _svg(fig) -> str:
+    """The figure as inline SVG, its element ids made unique within the page (several
+    figures share one HTML document, and matplotlib numbers ids the same way in each)."""
     plt = _pyplot()
     buf = io.StringIO()
     fig.savefig(buf, format="svg", bbox_inches="tight", metadata={"Date": None, "Creator": None})
     plt.close(fig)
     text = buf.getvalue()
     start = text.find("<svg")
-    return text[start:] if start >= 0 else text
+    text = text[start:] if start >= 0 else text
+    prefix = f"fig{next(_FIGURES)}-"
+    text = re.sub(r'\bid="([^"]+)"', lambda m: f'id="{prefix}{m.group(1)}"', text)
+    text = re.sub(r"url\(#([^)]+)\)", lambda m: f"url(#{prefix}{m.group(1)})", text)
+    return re.sub(r'href="#([^"]+)"', lambda m: f'href="#{prefix}{m.group(1)}"', text)
 
 
 def path_length(solution, ident: str, role: str) -> float:
@@ -82,13 +93,13 @@ def beam_size_svg(solution, ident: str, role: str) -> str | None:
         marker = "o" if wst.plane == "t" else "s"
         colour = T_STYLE["color"] if wst.plane == "t" else S_STYLE["color"]
         ax.plot([wst.s], [wst.w * 1e3], marker=marker, color=colour, markersize=4, linestyle="none")
-        ax.annotate(f"{wst.w * 1e3:.0f}", (wst.s, wst.w * 1e3), textcoords="offset points", xytext=(3, -10),
-                    fontsize=7, color=colour)
+        ax.annotate(f"{wst.plane} {wst.w * 1e3:.0f} µm", (wst.s, wst.w * 1e3), textcoords="offset points",
+                    xytext=(3, -10 if wst.plane == "t" else 4), fontsize=7, color=colour, annotation_clip=False)
     ax.set_xlabel("distance along the path s (mm)")
     ax.set_ylabel("1/e$^2$ radius (µm)")
     ax.set_ylim(0, top * 1.15 if top > 0 else 1)
     ax.set_xlim(s[0], s[-1])
-    ax.legend(loc="upper left", fontsize=7, frameon=False)
+    ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.08), ncol=2, fontsize=7, frameon=False)
     return _svg(fig)
 
 
@@ -120,26 +131,38 @@ def stability_svg(solution) -> str | None:
     return _svg(fig)
 
 
-def windows_svg(windows) -> str | None:
-    """Each air gap's stability window (mm) with the planned spacing marked."""
+def windows_svg(windows) -> str:
+    """Each air gap's stability window as the change of spacing (mm) it allows, the plan at
+    zero; a symmetric-log axis shows windows of a tenth of a millimetre beside ones of metres."""
     if not windows:
         return None
     plt = _pyplot()
-    fig, ax = plt.subplots(figsize=(7.2, 0.42 * len(windows) + 0.9))
+    fig, ax = plt.subplots(figsize=(7.2, 0.42 * len(windows) + 1.0))
     labels = []
+    reach = 1.0
+    for w in windows:
+        for edge in (w.lo, w.hi):
+            if edge is not None:
+                reach = max(reach, abs(edge - w.gap.length))
+    reach *= 1.5
     for i, w in enumerate(windows):
         g = w.gap
-        lo = 0.0 if w.lo is None else w.lo
-        hi = w.hi if w.hi is not None else max(g.length * 2.0, lo + 1.0)
-        ax.barh(i, hi - lo, left=lo, height=0.5, color="#dcebf5", edgecolor="#0b5fa5", hatch="//" if w.hi is None else "")
-        ax.plot([g.length], [i], marker="|", markersize=14, markeredgewidth=2.5, color=STYLE["ink"])
-        dist = w.distance
-        text = "no edge" if math.isinf(dist) else f"{dist:.3g} mm to edge"
-        ax.annotate(text, (g.length, i), textcoords="offset points", xytext=(6, 5), fontsize=7)
-        labels.append(f"{g.first} → {g.second}")
+        lo = -g.length if w.lo is None else w.lo - g.length
+        hi = reach if w.hi is None else w.hi - g.length
+        narrow = w.distance < 1.0
+        ax.barh(i, hi - lo, left=lo, height=0.5, color="#f6d9c8" if narrow else "#dcebf5",
+                edgecolor="#b3261e" if narrow else "#0b5fa5", hatch="//" if w.hi is None else "")
+        ax.plot([0.0], [i], marker="|", markersize=14, markeredgewidth=2.5, color=STYLE["ink"])
+        text = "no edge" if math.isinf(w.distance) else f"{w.distance:.3g} mm to the nearer edge"
+        ax.annotate(text, (0.0, i), textcoords="offset points", xytext=(6, 6), fontsize=7)
+        labels.append(f"{g.first} → {g.second} ({g.length:.1f} mm)")
+    ax.set_xscale("symlog", linthresh=1.0)
+    ax.set_xlim(-reach, reach)
+    ax.axvline(0.0, color=STYLE["ink"], linewidth=0.6)
     ax.set_yticks(range(len(windows)))
     ax.set_yticklabels(labels, fontsize=7)
     ax.invert_yaxis()
-    ax.set_xlabel("air spacing (mm): stable in both planes inside the bar, plan marked |")
+    ax.set_xlabel("change of air spacing (mm, symmetric log scale): stable in both planes inside the bar; "
+                  "plan at 0", fontsize=8)
     ax.grid(axis="y", visible=False)
     return _svg(fig)

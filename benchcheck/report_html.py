@@ -17,6 +17,7 @@ from . import __version__
 from .clipping import elliptical_loss
 from .findings import SAFETY_CAUTION, Bench
 from .planview import STYLE, plan_svg
+from .resonator import STATUS_LABEL
 
 #: First line of every report: an existing file that starts with it may be replaced.
 MARKER = "<!-- benchcheck design-review report -->"
@@ -73,6 +74,35 @@ def _clip_loss(optic, hit) -> float | None:
     a = optic.diameter / 2.0
     a_t = a if optic.kind in ("crystal", "plate") else a * math.cos(math.radians(hit.aoi_deg))
     return float(elliptical_loss(w_t, w_s, a_t, a))
+
+
+def _loss_text(loss) -> str:
+    if loss is None:
+        return "–"
+    return "&lt; 1e-9" if loss < 1e-9 else f"{loss:.2e}"
+
+
+def _ratio_text(optic, hit) -> str:
+    """One-way load on the surface over the rating as given, the largest of the kinds the
+    LIDT names (the coating-damage rule does this properly, with scaling and overlap)."""
+    lidt = optic.lidt
+    w_t, w_s = hit.w.get("t"), hit.w.get("s")
+    if lidt is None or not w_t or not w_s:
+        return "–"
+    cos = math.cos(math.radians(hit.aoi_deg)) if optic.kind in ("mirror", "splitter") else 1.0
+    ratios = []
+    if lidt.w_cm2 is not None and hit.peak_w_cm2 is not None:
+        ratios.append(hit.peak_w_cm2 * cos / lidt.w_cm2)
+    if lidt.w_cm is not None and hit.power_w is not None:
+        diameter_cm = 2.0 * min(w_t / cos, w_s) / 10.0
+        ratios.append(hit.power_w / diameter_cm / lidt.w_cm)
+    if lidt.j_cm2 is not None and hit.peak_j_cm2 is not None:
+        ratios.append(hit.peak_j_cm2 * cos / lidt.j_cm2)
+    if not ratios:
+        return "–"
+    worst = max(ratios)
+    text = f"{worst:.2g}"
+    return f"<strong>{text}</strong>" if worst > 0.5 else text
 
 
 class Report:
@@ -134,9 +164,19 @@ class Report:
             (f'<span class="swatch" style="background:{STYLE["mount"]}"></span>', "mount footprints"),
             (f'<span class="swatch" style="border:2px dashed {STYLE["enclosure"]}"></span>', "enclosures"),
             ('<span class="swatch hatch"></span>', "keep-out zones"),
-            ('<span class="dot">n</span>', "finding n (click to jump to it)"),
+            ('<span class="dot">n</span>', "finding n: circle error, diamond warning, square note, hollow waived "
+                                            "(links to its row)"),
         ]
         return " ".join(f'<span class="key">{s} {escape(t)}</span>' for s, t in items)
+
+    def _enclosure_of(self, points) -> str | None:
+        from shapely.geometry import LineString, Polygon
+
+        line = LineString(points) if len(points) > 1 else None
+        for z in self.layout.zones:
+            if z.kind == "enclosure" and line is not None and Polygon(z.polygon).covers(line):
+                return z.id
+        return None
 
     def _safety(self) -> str:
         sol = self.solution
@@ -144,56 +184,92 @@ class Report:
         rows = []
         for c in sol.cavities.values():
             both = " each way" if c.kind == "linear" else ""
-            over = c.circulating_w is not None and c.circulating_w > limits["intracavity_power_w"]
+            path = sol.trace.cavities[c.id]
+            pts = [tuple(h.point) for h in path.hits] + ([tuple(path.hits[0].point)] if path.role == "ring" else [])
+            box = self._enclosure_of(pts)
             power = "not given" if c.circulating_w is None else f"{c.circulating_w:.4g} W{both}"
-            rows.append([escape(c.id), escape(c.kind), power,
-                         "<strong>above</strong>" if over else "below" if c.circulating_w is not None else "–"])
+            if c.circulating_w is None:
+                status = "–"
+            elif box:
+                status = f"inside enclosure {escape(box)}: the open-bench limit does not apply"
+            elif c.circulating_w > limits["intracavity_power_w"]:
+                status = "<strong>above, on an open bench</strong>"
+            else:
+                status = "below"
+            rows.append([escape(c.id), escape(c.kind), power, status])
         cav_table = _table(["cavity", "kind", "circulating (one-way)",
-                            f"vs open-bench limit {limits['intracavity_power_w']:g} W"], rows)
+                            f"open-bench limit {limits['intracavity_power_w']:g} W"], rows)
+        beam_rows = [self._beam_row(b) for b in sol.beams.values()]
+        beam_table = _table(["beam", "power", "pulse energy", "ends", "status"], beam_rows)
         stray_rows = []
         for r in sol.strays:
             st, end = r.stray, r.stray.end
-            stopped, where = self._where(end, st)
             power = "–" if r.power_w is None else f'{"≤ " if r.at_most else ""}{r.power_w:.3g} W'
-            flag = "contained" if stopped else ("<strong>not stopped</strong>"
-                                                if r.power_w is None or r.power_w > limits["stray_power_w"]
-                                                else "below the stray limit")
-            stray_rows.append([escape(st.kind), escape(st.id), power, escape(where), flag])
-        for b in sol.beams.values():
-            if b.tail is not None and b.into is None:
-                stopped, where = self._where(b.tail, None)
-                power = b.hits[-1].power_w
-                stray_rows.append(["beam, traced on", escape(b.id), f"{_f(power, '.3g')} W", escape(where),
-                                   "contained" if stopped else "<strong>unterminated</strong>"])
+            where, status = self._stray_status(st, end, r.power_w, limits["stray_power_w"])
+            stray_rows.append([escape(st.kind), escape(st.id), power, escape(where), status])
         stray_table = _table(["kind", "beam", "power", "where it goes", "status"], stray_rows)
         return (f'<section id="safety"><h2>Safety summary</h2>'
-                f'<p class="caution"><strong>Advisory.</strong> {escape(SAFETY_CAUTION)} The figures below come '
-                f'from the plan, not from measurement.</p>'
+                f'<p class="caution"><strong>{escape(SAFETY_CAUTION)}</strong> The figures below come from the '
+                f'plan, not from measurement.</p>'
                 f'<h3>Circulating power</h3>{cav_table}'
-                f'<h3>Leak, secondary and uncontained beams</h3>{stray_table}'
-                f'<p class="small">Stray-power limit {limits["stray_power_w"]:g} W (repository configuration). A leak '
-                f'counts as contained when it ends on a dump or detector or stays inside an enclosure.</p></section>')
+                f'<h3>Beams</h3>{beam_table}'
+                f'<h3>Leak and secondary beams</h3>{stray_table}'
+                f'<p class="small">Stray-power limit {limits["stray_power_w"]:g} W (repository configuration). '
+                f'A leak is contained when it stays inside an enclosure; one that crosses open bench is open even '
+                f'where a dump, a detector or an enclosure wall stops it at the end.</p></section>')
 
-    def _where(self, end, stray) -> tuple[bool, str]:
+    def _beam_row(self, b) -> list[str]:
+        last = b.hits[-1]
+        optic = self.layout.optics[last.optic]
+        energy = "–"
+        if last.peak_j_cm2 is not None and last.w["t"] and last.w["s"]:
+            e = last.peak_j_cm2 * math.pi * last.w["t"] * last.w["s"] * 1e-2 / 2.0
+            energy = f"{e:.3g} J at {escape(last.optic)}"
+        power = "–" if b.power_w is None else f"{b.power_w:.3g} W"
+        if b.into is not None:
+            ends = f"coupled into cavity {escape(b.into)} through {escape(last.optic)}"
+            status = "contained in the cavity"
+        elif b.tail is None:
+            rating = optic.max_power_w
+            got = last.power_w
+            ends = f"{escape(optic.kind)} {escape(optic.id)}" + (f", rated {rating:g} W" if rating else "")
+            if rating is not None and got is not None and got > rating:
+                status = f"<strong>{got:.3g} W on it: over its rating</strong>"
+            else:
+                status = "terminated" + (f" ({got:.3g} W on it)" if got is not None else "")
+        else:
+            t = b.tail
+            stopped = t.kind == "zone" and t.zone_kind == "enclosure"
+            where = {"table-edge": "leaves the table", "footprint": f"meets the mount of {t.id}",
+                     "zone": f"meets {t.zone_kind} zone {t.id}"}[t.kind]
+            ends = (f"not on a dump: traced on from {escape(last.optic)}, {escape(where)} at "
+                    f"({t.point[0]:.0f}, {t.point[1]:.0f}) mm")
+            status = "stopped by the enclosure wall" if stopped else "<strong>unterminated</strong>"
+        return [escape(b.id), power, energy, ends, status]
+
+    def _stray_status(self, st, end, power, limit) -> tuple[str, str]:
         at = f"({end.point[0]:.0f}, {end.point[1]:.0f}) mm"
-        enclosures = [z for z in self.layout.zones if z.kind == "enclosure"]
+        box = self._enclosure_of([tuple(st.origin), tuple(end.point)])
         if end.kind == "footprint":
             optic = self.layout.optics[end.id]
-            stopped = optic.kind in ("dump", "detector")
-            where = f"{optic.kind} {end.id} at {at}"
+            where = f"{optic.kind} {end.id} at {at}, {end.length:.0f} mm on"
+            on_dump = optic.kind in ("dump", "detector")
         elif end.kind == "zone":
-            stopped = end.zone_kind == "enclosure"
-            where = f"{end.zone_kind} zone {end.id} at {at}"
+            where = f"{end.zone_kind} zone {end.id} at {at}, {end.length:.0f} mm on"
+            on_dump = False
         else:
-            stopped = False
-            where = f"table edge at {at}"
-        if not stopped and stray is not None and enclosures:
-            from shapely.geometry import LineString, Polygon
-
-            line = LineString([tuple(stray.origin), tuple(end.point)])
-            if any(Polygon(z.polygon).covers(line) for z in enclosures):
-                stopped, where = True, where + " (inside an enclosure)"
-        return stopped, where
+            where = f"table edge at {at}, {end.length:.0f} mm on"
+            on_dump = False
+        small = power is not None and power <= limit
+        if box:
+            return where, f"contained (inside enclosure {escape(box)})"
+        if on_dump:
+            return where, "stopped on a dump or detector, open path before it"
+        if end.kind == "zone" and end.zone_kind == "enclosure":
+            status = "stopped by the outside of an enclosure wall after open bench"
+        else:
+            status = "not stopped"
+        return where, (status + " (below the stray limit)" if small else f"<strong>{status}</strong>")
 
     def _findings(self) -> str:
         rows = []
@@ -211,7 +287,8 @@ class Report:
                 measured = "–"
             extra = f'<div class="hint">{escape(f.waiver_reason or "")}</div>' if f.waived else (
                 f'<div class="hint">{escape(f.hint)}</div>' if f.hint else "")
-            rows.append([f'<a id="finding-{n}" href="#plan" class="num">{n}</a>', sev,
+            rows.append([f'<a id="finding-{n}" href="#plan" class="num {escape(f.severity)}'
+                         f'{" waived-num" if f.waived else ""}">{n}</a>', sev,
                          f"<code>{escape(f.rule)}</code>", escape(f.message) + extra, measured,
                          f"<code>{loc}</code>"])
         table = _table(["#", "severity", "rule", "finding", "value / limit", "where"], rows, "findings")
@@ -234,7 +311,7 @@ class Report:
             for plane, name in (("t", "tangential"), ("s", "sagittal")):
                 mode = c.modes[plane]
                 rows.append([escape(c.id) if plane == "t" else "", name, f"{mode.m:+.4f}",
-                             escape(mode.status), _f(c.gouy_deg(plane), ".2f"), _si(c.tms_hz(plane), "Hz"),
+                             escape(STATUS_LABEL[mode.status].lower()), _f(c.gouy_deg(plane), ".2f"), _si(c.tms_hz(plane), "Hz"),
                              _si(c.fsr_hz, "Hz") if plane == "t" else "",
                              (("not given" if c.circulating_w is None else f"{c.circulating_w:.4g} W")
                               if plane == "t" else "")])
@@ -296,12 +373,15 @@ class Report:
                                  _f(h.aoi_deg, ".2f"), _f(None if h.w["t"] is None else h.w["t"] * 1e3, ".1f"),
                                  _f(None if h.w["s"] is None else h.w["s"] * 1e3, ".1f"),
                                  _f(h.power_w, ".4g"), peak, _lidt_text(optic.lidt),
-                                 "–" if loss is None else f"{loss:.2e}"])
+                                 _loss_text(loss), _ratio_text(optic, h)])
         table = _table(["optic", "kind", "on", "AOI (deg)", "w_t (µm)", "w_s (µm)", "power (W)",
-                        "peak (one-way)", "LIDT", "clip loss"], rows, "optics")
-        return (f'<section id="optics"><h2>Optics</h2>{table}<p class="small">Peak intensity 2P/(π w_t w_s) of '
-                f'the beam, one-way (in a linear cavity both directions overlap; coating-damage counts both). '
-                f'Clip loss: the power outside the clear aperture projected at the angle of incidence.</p></section>')
+                        "peak of the beam", "LIDT", "clip loss", "load / LIDT"], rows, "optics")
+        return (f'<section id="optics"><h2>Optics</h2>{table}<p class="small">Peak of the beam: 2P/(π w_t w_s) '
+                f'(or the fluence 2E/(π w_t w_s)), one-way, at the hit point (a crystal\'s centre). Load / LIDT: the '
+                f'same on the surface (the footprint grows by 1/cos of the angle of incidence), against the rating '
+                f'as given (unscaled; W/cm ratings against P over the smaller 1/e² footprint diameter); in a linear '
+                f'cavity inner optics carry both directions, which coating-damage counts. Clip loss: the power '
+                f'outside the clear aperture projected at the angle of incidence.</p></section>')
 
 
 CSS = """
@@ -321,7 +401,10 @@ th { background: #f3f1ec; font-weight: 600; }
 td code, p code { font-size: 11.5px; }
 .findings td:first-child { width: 2.2em; }
 .num { display: inline-block; min-width: 1.7em; text-align: center; border-radius: 1em; background: #44546a;
-       color: #fff; text-decoration: none; font-weight: 600; }
+       color: #fff; text-decoration: none; font-weight: 600; border: 1.5px solid transparent; }
+.num.error { background: #b3261e; } .num.warning { background: #8a5a00; border-radius: 3px; }
+.num.note { background: #44546a; border-radius: 0; }
+.num.waived-num { background: #fff; color: #44546a; border-color: #44546a; }
 .sev { font-weight: 700; text-transform: uppercase; font-size: 11px; letter-spacing: .03em; }
 .sev.error { color: #b3261e; } .sev.warning { color: #8a5a00; } .sev.note { color: #44546a; }
 .waived { font-size: 11px; border: 1px solid var(--muted); padding: 0 3px; border-radius: 3px; }
