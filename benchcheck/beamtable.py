@@ -150,15 +150,16 @@ def solution_json(sol: Solution) -> dict:
 
 # --- text -------------------------------------------------------------------------------
 
-def _f(x, fmt: str, none: str = "-") -> str:
+def fmt(x, spec: str, none: str = "-") -> str:
     if x is None or (isinstance(x, float) and (math.isnan(x) or math.isinf(x))):
         return none
-    return format(x, fmt)
+    return format(x, spec)
 
 
-def _si(x: float | None, unit: str) -> str:
+def fmt_si(x: float | None, unit: str, none: str = "-") -> str:
+    """A frequency or power with its SI prefix (k, M, G)."""
     if x is None or math.isinf(x) or math.isnan(x):
-        return "-"
+        return none
     for factor, prefix in ((1e9, "G"), (1e6, "M"), (1e3, "k")):
         if abs(x) >= factor:
             return f"{x / factor:.4g} {prefix}{unit}"
@@ -172,11 +173,11 @@ def _hits_table(hits: list[HitResult], pulsed: bool) -> list[str]:
     for h in hits:
         wt, ws = h.w.get(TANGENTIAL), h.w.get(SAGITTAL)
         ratio = wt / ws if wt and ws else None
-        row = [h.optic, _f(h.s, ".2f"), _f(h.aoi_deg, ".2f"), _f(None if wt is None else wt * 1e3, ".1f"),
-               _f(None if ws is None else ws * 1e3, ".1f"), _f(ratio, ".3f"), _f(h.power_w, ".4g"),
-               _f(h.peak_w_cm2, ".3e")]
+        row = [h.optic, fmt(h.s, ".2f"), fmt(h.aoi_deg, ".2f"), fmt(None if wt is None else wt * 1e3, ".1f"),
+               fmt(None if ws is None else ws * 1e3, ".1f"), fmt(ratio, ".3f"), fmt(h.power_w, ".4g"),
+               fmt(h.peak_w_cm2, ".3e")]
         if pulsed:
-            row.append(_f(h.peak_j_cm2, ".3e"))
+            row.append(fmt(h.peak_j_cm2, ".3e"))
         rows.append(row)
     return _grid(head, rows)
 
@@ -201,10 +202,10 @@ def cavity_text(c: CavityResult) -> list[str]:
         margin = 1.0 - abs(mode.m)
         state = STATUS_LABEL[mode.status]
         lines.append(f"  {name:<10}  m = {mode.m:+.6f}  margin 1-|m| = {margin:.4f}  {state}"
-                     + (f"  Gouy {c.gouy_deg(p):.2f} deg  TMS {_si(c.tms_hz(p), 'Hz')}" if mode.gouy is not None else ""))
+                     + (f"  Gouy {c.gouy_deg(p):.2f} deg  TMS {fmt_si(c.tms_hz(p), 'Hz')}" if mode.gouy is not None else ""))
         if mode.status != "stable":
             lines.append(f"    {STATUS_TEXT[mode.status]}")
-    lines.append(f"  round trip {c.round_trip_mm:.3f} mm (optical)  FSR {_si(c.fsr_hz, 'Hz')}  "
+    lines.append(f"  round trip {c.round_trip_mm:.3f} mm (optical)  FSR {fmt_si(c.fsr_hz, 'Hz')}  "
                  + (f"circulating {c.circulating_w:.4g} W one-way" if c.circulating_w is not None
                     else "circulating power not given (no output or input power in the layout)"))
     if c.thermal is not None:

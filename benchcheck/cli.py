@@ -39,14 +39,18 @@ def _layout_files(paths: list[str]) -> list[Path]:
     return out
 
 
+def _no_layouts(paths: list[str]) -> int:
+    for p in paths:
+        print(f"{p}: error: no layout files (*.toml) in this folder", file=sys.stderr)
+    return EXIT_BAD_INPUT
+
+
 def cmd_beams(args) -> int:
     from .api import solve_file
 
     files = _layout_files(args.layouts)
     if not files:
-        for p in args.layouts:
-            print(f"{p}: error: no layout files (*.toml) in this folder", file=sys.stderr)
-        return EXIT_BAD_INPUT
+        return _no_layouts(args.layouts)
     status = EXIT_OK
     results = []
     for f in files:
@@ -110,9 +114,7 @@ def cmd_check(args) -> int:
 
     files = _layout_files(args.paths)
     if not files:
-        for p in args.paths:
-            print(f"{p}: error: no layout files (*.toml) in this folder", file=sys.stderr)
-        return EXIT_BAD_INPUT
+        return _no_layouts(args.paths)
     if args.config and not Path(args.config).is_file():
         print(f"{args.config}: error: no such configuration file", file=sys.stderr)
         return EXIT_BAD_INPUT

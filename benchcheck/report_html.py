@@ -14,6 +14,7 @@ import math
 from html import escape
 
 from . import __version__
+from .beamtable import fmt, fmt_si
 from .clipping import elliptical_loss
 from .findings import SAFETY_CAUTION, Bench
 from .planview import STYLE, plan_svg
@@ -24,19 +25,12 @@ MARKER = "<!-- benchcheck design-review report -->"
 SEVERITY_ORDER = {"error": 0, "warning": 1, "note": 2}
 
 
-def _f(x, fmt: str, none: str = "–") -> str:
-    if x is None or (isinstance(x, float) and (math.isnan(x) or math.isinf(x))):
-        return none
-    return format(x, fmt)
+def _f(x, spec: str, none: str = "–") -> str:
+    return fmt(x, spec, none)
 
 
 def _si(x, unit: str) -> str:
-    if x is None or math.isinf(x) or math.isnan(x):
-        return "–"
-    for factor, prefix in ((1e9, "G"), (1e6, "M"), (1e3, "k")):
-        if abs(x) >= factor:
-            return f"{x / factor:.4g} {prefix}{unit}"
-    return f"{x:.4g} {unit}"
+    return fmt_si(x, unit, "–")
 
 
 def _table(head: list[str], rows: list[list[str]], cls: str = "") -> str:
