@@ -100,8 +100,10 @@ def _check_one(job):
             _WORKER_CACHE[key] = (config, load_rules(config.plugins, search_path=config_folder(config)))
         config, ruleset = _WORKER_CACHE[key]
     except LayoutError as exc:
-        return FileResult(str(path), errors=[str(exc)]), None
-    return check_file(Path(path), config, ruleset, today), config.fail_on
+        return FileResult(str(path), errors=[str(exc)])
+    result = check_file(Path(path), config, ruleset, today)
+    result.bench = None   # the report needs only the findings: do not ship the bench between processes
+    return result
 
 
 def cmd_check(args) -> int:
@@ -125,7 +127,7 @@ def cmd_check(args) -> int:
             done = list(pool.map(_check_one, jobs))
     else:
         done = [_check_one(j) for j in jobs]
-    results = [r for r, _ in done]
+    results = done
     if args.fail_on:
         for r in results:
             r.fail_on = args.fail_on
@@ -163,11 +165,8 @@ def cmd_rules(args) -> int:
 
 def cmd_report(args) -> int:
     from .config import find_config, load_config
-    from .engine import config_folder, run_rules, validate_options
-    from .findings import Bench
-    from .loader import load_path
+    from .engine import check_file, config_folder
     from .plugins import load_rules
-    from .solve import solve_layout
 
     try:
         import matplotlib  # noqa: F401
@@ -191,20 +190,17 @@ def cmd_report(args) -> int:
     try:
         cfg_path = Path(args.config) if args.config else find_config(layout_path)
         config = load_config(cfg_path)
-        ruleset = load_rules(config.plugins, search_path=config_folder(config))
-        problems = validate_options(config, ruleset)
-        layout = load_path(layout_path)
-        solution = solve_layout(layout)
     except LayoutError as exc:
         print(str(exc), file=sys.stderr)
         return EXIT_BAD_INPUT
-    bench = Bench(layout, solution, dict(config.limits))
-    result = run_rules(bench, config, ruleset)
-    status = EXIT_OK
-    for e in [f"error: {e}" for e in ruleset.errors] + [str(p) for p in problems] + result.errors:
+    ruleset = load_rules(config.plugins, search_path=config_folder(config))
+    result = check_file(layout_path, config, ruleset)
+    for e in result.errors:
         print(e, file=sys.stderr)
-        status = EXIT_BAD_INPUT
-    html = Report(bench, result.findings, str(cfg_path) if cfg_path else None, ruleset.rules).html()
+    if result.bench is None:
+        return EXIT_BAD_INPUT
+    status = EXIT_BAD_INPUT if result.errors else EXIT_OK
+    html = Report(result.bench, result.findings, str(cfg_path) if cfg_path else None, ruleset.rules).html()
     tmp = out.with_name(out.name + ".tmp")
     tmp.write_text(html, encoding="utf-8")
     tmp.replace(out)

@@ -33,6 +33,8 @@ class FileResult:
     errors: list[str] = field(default_factory=list)
     #: the fail level of the configuration that applies to this file
     fail_on: str = "error"
+    #: the solved bench the rules read (None where the layout could not be used)
+    bench: Bench | None = None
 
 
 def validate_options(config: Config, ruleset: RuleSet) -> list[LayoutError]:
@@ -174,10 +176,12 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
     except Exception as exc:  # noqa: BLE001
         return FileResult(name, errors=[f"{name}: internal error while solving ({type(exc).__name__}: {exc}); "
                                         "please report it with this layout"])
-    result = run_rules(Bench(layout, solution, dict(config.limits)), config, ruleset, today)
+    bench = Bench(layout, solution, dict(config.limits))
+    result = run_rules(bench, config, ruleset, today)
     # plugin and configuration problems are not this layout's: said once, whatever the file
     result.errors = [f"error: {e}" for e in ruleset.errors] + problems + result.errors
     result.fail_on = config.fail_on
+    result.bench = bench
     return result
 
 

@@ -264,7 +264,7 @@ def _scan_powers(ranges: list[tuple[float, float]]) -> np.ndarray:
     return np.array(list(itertools.product(*axes)))
 
 
-def _thermal_scan(layout: Layout, path: PathTrace) -> ThermalScan | None:
+def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan | None:
     """Stability over every thermal-lens power in range.
 
     In a ring each lens is passed once and m is linear in its power, so the ends bound it.
@@ -302,8 +302,7 @@ def _thermal_scan(layout: Layout, path: PathTrace) -> ThermalScan | None:
                 if lo < vertex < hi:
                     mats = np.concatenate([mats, _round_trips(layout, path, plane, crystals, np.array([[vertex]]))])
         m = abcd.half_trace(mats)
-        scale = max(sum(st.length * st.k for st in cavity_train(layout, path, plane).steps if isinstance(st, Space)),
-                    1e-9)
+        scale = max(_reduced_length(trains[plane]), 1e-9)
         edge = np.abs(m) >= 1.0 - resonator.BOUNDARY_TOL
         # touching |m| = 1 with a round trip of +-I (as at the confocal point) retraces every
         # ray and is stable on both sides: not a break in the range (DESIGN section 4)
@@ -414,7 +413,7 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
         fluence = _peak(p_circ / cav.rep_hz, w[TANGENTIAL], w[SAGITTAL]) if pulsed and p_circ is not None else None
         hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p_circ, peak,
                               fluence, counter_propagating=cav.kind == "linear"))
-    thermal = _thermal_scan(layout, path)
+    thermal = _thermal_scan(layout, path, trains)
     return CavityResult(cav.id, cav.kind, modes, round_trip, fsr, p_circ, hits, waists, thermal, trains,
                         passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)), profile=profile)
 
