@@ -265,6 +265,5 @@ def solution_text(sol: Solution) -> str:
         lines.append("")
     if sol.notes:
         lines += ["notes:"] + [f"  {n}" for n in sol.notes] + [""]
-    if any(c.circulating_w for c in sol.cavities.values()) or any(b.power_w for b in sol.beams.values()):
-        lines.append(SAFETY_CAUTION)
+    lines.append(SAFETY_CAUTION)
     return "\n".join(lines).rstrip() + "\n"

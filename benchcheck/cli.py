@@ -45,6 +45,20 @@ def _no_layouts(paths: list[str]) -> int:
     return EXIT_BAD_INPUT
 
 
+def _solved(path: Path, work, what: str = "solving"):
+    """``work(path)``, or None with the reason printed (a sentence, never a traceback)."""
+    try:
+        return work(path)
+    except LayoutError as exc:
+        print(str(exc), file=sys.stderr)
+    except RecursionError:
+        print(f"{path}: error: the layout is nested too deeply to read", file=sys.stderr)
+    except Exception as exc:  # noqa: BLE001 - the user gets a sentence, not a traceback
+        print(f"{path}: internal error while {what} ({type(exc).__name__}: {exc}); please report it "
+              "with this layout", file=sys.stderr)
+    return None
+
+
 def cmd_beams(args) -> int:
     from .api import solve_file
 
@@ -54,19 +68,8 @@ def cmd_beams(args) -> int:
     status = EXIT_OK
     results = []
     for f in files:
-        try:
-            sol = solve_file(f)
-        except LayoutError as exc:
-            print(str(exc), file=sys.stderr)
-            status = EXIT_BAD_INPUT
-            continue
-        except RecursionError:
-            print(f"{f}: error: the layout is nested too deeply to read", file=sys.stderr)
-            status = EXIT_BAD_INPUT
-            continue
-        except Exception as exc:  # noqa: BLE001 - the user gets a sentence, not a traceback
-            print(f"{f}: internal error while solving ({type(exc).__name__}: {exc}); please report it "
-                  "with this layout", file=sys.stderr)
+        sol = _solved(f, solve_file)
+        if sol is None:
             status = EXIT_BAD_INPUT
             continue
         results.append(sol)
@@ -208,6 +211,40 @@ def cmd_report(args) -> int:
     return status
 
 
+def cmd_hazards(args) -> int:
+    from .api import solve_file
+    from .config import find_config, load_config
+    from .hazards import assess
+    from .hazardtable import assessment_csv, assessment_json, assessment_text, dumps
+
+    files = _layout_files(args.layouts)
+    if not files:
+        return _no_layouts(args.layouts)
+    status = EXIT_OK
+    docs, texts = [], []
+    def one(f):
+        config = load_config(Path(args.config) if args.config else find_config(f))
+        sol = solve_file(f)
+        return sol, assess(sol, config.exposure)
+
+    for f in files:
+        done = _solved(f, one, "assessing hazards")
+        if done is None:
+            status = EXIT_BAD_INPUT
+            continue
+        sol, found = done
+        docs.append(assessment_json(str(f), sol.layout.bench.name, found))
+        texts.append(assessment_text(str(f), sol.layout.bench.name, found))
+    if args.format == "json":
+        if docs or len(files) > 1:
+            sys.stdout.write(dumps(docs, many=len(files) > 1))
+    elif args.format == "csv":
+        sys.stdout.write(assessment_csv(docs))
+    else:
+        sys.stdout.write("\n".join(texts))
+    return status
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="benchcheck",
@@ -260,6 +297,22 @@ def build_parser() -> argparse.ArgumentParser:
     report.add_argument("--force", action="store_true",
                         help="replace FILE even if it is not an earlier benchcheck report")
     report.set_defaults(func=cmd_report)
+
+    hazards = sub.add_parser(
+        "hazards",
+        help="laser hazards for the safety officer: MPE, eyewear OD, class estimates, open beams, hazard distances",
+        description="Assess every stretch of beam on each layout against the ocular exposure limits (IEC 60825-1 / "
+                    "ANSI Z136.1): per wavelength the worst power, the MPE and exposure duration used, the eyewear "
+                    "OD needed and a class estimate; then every segment on open bench with its exposure against the "
+                    "MPE and hazard distance. Advisory: the laser safety officer, IEC 60825-1 / ANSI Z136.1 and "
+                    "local regulations decide.",
+    )
+    hazards.add_argument("layouts", nargs="+", metavar="LAYOUT", help="layout file(s) or folder(s)")
+    hazards.add_argument("--format", choices=("text", "json", "csv"), default="text",
+                         help="text (default), JSON (format 1) or CSV (one row per segment)")
+    hazards.add_argument("--config", metavar="FILE",
+                         help="configuration with [exposure] settings (default: found walking up from each layout)")
+    hazards.set_defaults(func=cmd_hazards)
 
     rules = sub.add_parser("rules", help="list every rule with its plugin, severity, options and explanation")
     rules.add_argument("--format", choices=("text", "json"), default="text")

@@ -10,7 +10,16 @@ plugins = ["mylab_rules"]         # extra plugin modules to import
 
 [limits]
 intracavity_power_w = 0.5
+intracavity_error_power_w = 10.0
 stray_power_w = 0.001
+open_beam_power_w = 0.5
+open_beam_energy_j = 0.03
+
+[exposure]                        # how exposures are judged (advisory)
+visible_s = 0.25
+invisible_s = 10.0
+[exposure.mpe]                    # a lab's own MPE figures, by wavelength in nm
+1550 = { w_cm2 = 0.1 }
 
 [rules.coating-damage]
 enabled = true
@@ -28,6 +37,7 @@ from pathlib import Path
 from typing import Any
 
 from .findings import SEVERITIES
+from .hazards import MpeOverride, Policy
 from .model import LayoutError, Loc
 from .tomlpos import key_positions
 
@@ -42,10 +52,23 @@ CONFIG_NAME = "benchcheck.toml"
 LIMITS = {
     "intracavity_power_w": (0.5, "W", "one-way circulating power above which an open bench is flagged "
                                       "(0.5 W is the Class 3B limit for CW, from memory)"),
+    "intracavity_error_power_w": (10.0, "W", "one-way circulating power above which an open-bench cavity is an "
+                                             "error, not a warning (a policy choice of the lab)"),
     "stray_power_w": (0.001, "W", "leak, secondary and unterminated beams above this power must end on a dump, "
                                   "a detector or inside an enclosure (1 mW: the visible Class 2 limit, from memory)"),
+    "open_beam_power_w": (0.5, "W", "average power above which a beam outside every enclosure is an error (0.5 W: "
+                                    "the Class 3B limit for CW, IEC 60825-1:2014, from memory)"),
+    "open_beam_energy_j": (0.03, "J", "pulse energy above which a pulsed beam outside every enclosure is an error "
+                                      "(0.03 J: the lowest Class 3B single-pulse limit of IEC 60825-1:2014 between "
+                                      "400 and 1400 nm, from memory; the lowest, so that it errs on the safe side)"),
 }
-TOP_KEYS = ("fail_on", "plugins", "limits", "rules")
+#: [exposure]: how exposures are judged; durations in s
+EXPOSURE = {
+    "visible_s": (0.25, "s", "exposure duration for 400-700 nm (the aversion response, common practice)"),
+    "invisible_s": (10.0, "s", "exposure duration outside 400-700 nm (common practice for unintended viewing)"),
+}
+MPE_KEYS = {"w_cm2": "W/cm^2", "j_cm2": "J/cm^2", "aperture_mm": "mm"}
+TOP_KEYS = ("fail_on", "plugins", "limits", "exposure", "rules")
 RULE_KEYS = ("enabled", "severity")
 
 
@@ -55,6 +78,8 @@ class Config:
     fail_on: str = "error"
     plugins: tuple[str, ...] = ()
     limits: dict[str, float] = field(default_factory=lambda: {k: v[0] for k, v in LIMITS.items()})
+    #: how exposures are judged (hazards.Policy)
+    exposure: Policy = field(default_factory=Policy)
     #: rule id -> {"enabled": bool, "severity": str | None, "options": {...}, "loc": Loc}
     rules: dict[str, dict] = field(default_factory=dict)
 
@@ -150,6 +175,7 @@ def _parse(doc: dict, file: str, positions: dict, prefix: tuple) -> Config:
         if isinstance(value, bool) or not isinstance(value, (int, float)) or not value >= 0 or value == float("inf"):
             raise fail(("limits", key), f"limits.{key} must be a non-negative number in {LIMITS[key][1]}")
         cfg.limits[key] = float(value)
+    cfg.exposure = _exposure(doc.get("exposure", {}), fail, unknown)
     rules = doc.get("rules", {})
     if not isinstance(rules, dict):
         raise fail(("rules",), "[rules] must hold one table per rule id, e.g. [rules.coating-damage]")
@@ -171,3 +197,47 @@ def _parse(doc: dict, file: str, positions: dict, prefix: tuple) -> Config:
                 entry["option_locs"][key] = loc("rules", rule_id, key)
         cfg.rules[rule_id] = entry
     return cfg
+
+
+def _positive(value) -> bool:
+    return not isinstance(value, bool) and isinstance(value, (int, float)) and 0 < value < float("inf")
+
+
+def _exposure(table, fail, unknown) -> Policy:
+    """[exposure]: durations, and [exposure.mpe] with a lab's own limits by wavelength."""
+    if not isinstance(table, dict):
+        raise fail(("exposure",), "[exposure] must be a table")
+    values = {k: v[0] for k, v in EXPOSURE.items()}
+    overrides = []
+    for key, value in table.items():
+        if key == "mpe":
+            if not isinstance(value, dict):
+                raise fail(("exposure", "mpe"), "[exposure.mpe] must be a table keyed by wavelength in nm, "
+                                                "e.g. 1550 = { w_cm2 = 0.1 }")
+            for nm, entry in value.items():
+                path = ("exposure", "mpe", nm)
+                try:
+                    wavelength = float(nm)
+                except ValueError:
+                    wavelength = float("nan")
+                if not 0 < wavelength < 1e7:
+                    raise fail(path, f"exposure.mpe key '{nm}' must be a wavelength in nm, e.g. 1550")
+                if not isinstance(entry, dict) or not entry:
+                    raise fail(path, f"exposure.mpe.{nm} must be a table such as {{ w_cm2 = 0.1 }} "
+                                     "(CW) or {{ j_cm2 = 1e-6 }} (per pulse)")
+                for k, v in entry.items():
+                    if k not in MPE_KEYS:
+                        raise unknown(k, MPE_KEYS, f"exposure.mpe.{nm}", path + (k,))
+                    if not _positive(v):
+                        raise fail(path + (k,), f"exposure.mpe.{nm}.{k} must be a positive number in {MPE_KEYS[k]}")
+                if "w_cm2" not in entry and "j_cm2" not in entry:
+                    raise fail(path, f"exposure.mpe.{nm} needs w_cm2 (CW) or j_cm2 (per pulse)")
+                overrides.append(MpeOverride(wavelength, *(float(entry[k]) if k in entry else None
+                                                           for k in ("w_cm2", "j_cm2", "aperture_mm"))))
+        elif key in EXPOSURE:
+            if not _positive(value):
+                raise fail(("exposure", key), f"exposure.{key} must be a positive number of seconds")
+            values[key] = float(value)
+        else:
+            raise unknown(key, tuple(EXPOSURE) + ("mpe",), "[exposure]", ("exposure", key))
+    return Policy(values["visible_s"], values["invisible_s"], tuple(overrides))

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field, replace
+from functools import cached_property
 from typing import Any, Callable, Iterable, Mapping
 
 from .model import Layout, Loc
@@ -124,12 +125,21 @@ class Bench:
     - ``placement``: positions, orientations and mount footprints (shapely polygons);
     - ``trace``: hits, segments, geometric issues, leak and secondary beams (``strays``);
     - ``solution``: cavity modes, beam sizes and powers (``benchcheck.solve``);
-    - ``limits``: the repository's safety limits (``[limits]`` in the configuration).
+    - ``limits``: the repository's safety limits (``[limits]`` in the configuration);
+    - ``exposure``: how exposures are judged (``[exposure]``, a ``hazards.Policy``);
+    - ``hazards``: every segment of beam judged against the exposure limits
+      (``benchcheck.hazards.Assessment``), computed once on first use.
     """
 
     layout: Layout
     solution: Solution
     limits: Mapping[str, Any] = field(default_factory=dict)
+    exposure: Any = None
+
+    @cached_property
+    def hazards(self):
+        from .hazards import assess
+        return assess(self.solution, self.exposure)
 
     @property
     def placement(self):

@@ -37,8 +37,9 @@ def exit_status(results: list[FileResult]) -> int:
     return 0
 
 
-def _safety(findings: list[Finding], rules: dict) -> bool:
-    return any(rules.get(f.rule, (None,))[0] is not None and rules[f.rule][0].safety for f in findings)
+#: said on a run with nothing to report: a clean check is not a sign-off
+NOT_AN_APPROVAL = ("No findings: the plan passed the rules that ran. This is not a safety approval; "
+                   "'benchcheck hazards' lists the exposure figures for the laser safety officer's review.")
 
 
 # --- text -------------------------------------------------------------------------------
@@ -60,8 +61,9 @@ def text_report(results: list[FileResult], rules: dict) -> str:
     summary = ", ".join(parts) + (f"; {waived} waived" if waived else "")
     files = len(results)
     lines.append(f"{summary} in {files} layout{'s' if files != 1 else ''}")
-    if _safety(findings, rules):
-        lines.append(SAFETY_CAUTION)
+    if not any(not f.waived for f in findings):
+        lines.append(NOT_AN_APPROVAL)
+    lines.append(SAFETY_CAUTION)
     return "\n".join(lines) + "\n"
 
 
@@ -151,7 +153,8 @@ def _fingerprint(f: Finding) -> str:
 
 def _sarif_rule(rule: Rule, plugin: str) -> dict:
     options = "; ".join(f"{o.name} = {o.default!r}{(' ' + o.unit) if o.unit else ''}: {o.help}" for o in rule.options)
-    text = rule.explanation + (f" Options: {options}." if options else "")
+    text = rule.explanation + (f" Options: {options}." if options else "") + \
+        (f" {SAFETY_CAUTION}" if rule.safety else "")
     return {
         "id": rule.id,
         "name": "".join(part.capitalize() for part in rule.id.split("-")),
@@ -186,8 +189,9 @@ def github_report(results: list[FileResult], rules: dict, root: Path | None = No
                      f"{_escape_data(f.message)}")
     for e in dict.fromkeys(e for r in results for e in r.errors):
         lines.append(f"::error::{_escape_data(e)}")
-    if _safety([f for f in all_findings(results) if not f.waived], rules):
-        lines.append(f"::notice title=benchcheck::{_escape_data(SAFETY_CAUTION)}")
+    if not any(not f.waived for f in all_findings(results)):
+        lines.append(f"::notice title=benchcheck::{_escape_data(NOT_AN_APPROVAL)}")
+    lines.append(f"::notice title=benchcheck::{_escape_data(SAFETY_CAUTION)}")
     return "\n".join(lines) + ("\n" if lines else "")
 
 

@@ -41,6 +41,7 @@ class HitResult:
     peak_w_cm2: float | None
     peak_j_cm2: float | None = None
     counter_propagating: bool = False
+    energy_j: float | None = None      # pulse energy arriving here (pulsed paths only)
 
 
 @dataclass
@@ -102,6 +103,7 @@ class BeamResult:
     into: str | None = None             # the passive cavity this beam is coupled into
     mode_match: float | None = None     # fraction of its power in that cavity's mode
     profile: dict = field(default_factory=dict)   # plane -> free-propagation pieces
+    energy_j: float | None = None       # pulse energy at the origin (pulsed beams only)
 
 
 @dataclass
@@ -410,9 +412,10 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
     for i, hit in enumerate(path.hits):
         w = {p: radii[p].get(i) for p in PLANES}
         peak = _peak(p_circ, w[TANGENTIAL], w[SAGITTAL])
-        fluence = _peak(p_circ / cav.rep_hz, w[TANGENTIAL], w[SAGITTAL]) if pulsed and p_circ is not None else None
+        energy = p_circ / cav.rep_hz if pulsed and p_circ is not None else None
+        fluence = _peak(energy, w[TANGENTIAL], w[SAGITTAL])
         hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p_circ, peak,
-                              fluence, counter_propagating=cav.kind == "linear"))
+                              fluence, counter_propagating=cav.kind == "linear", energy_j=energy))
     thermal = _thermal_scan(layout, path, trains)
     return CavityResult(cav.id, cav.kind, modes, round_trip, fsr, p_circ, hits, waists, thermal, trains,
                         passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)), profile=profile)
@@ -483,15 +486,17 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         optic = layout.optics[hit.optic]
         w = {pl: radii[pl].get(i) for pl in PLANES}
         p = None if power is None else power * kept
-        fluence = None if energy is None else _peak(energy * kept, w[TANGENTIAL], w[SAGITTAL])
+        e = None if energy is None else energy * kept
         hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p,
-                              _peak(p, w[TANGENTIAL], w[SAGITTAL]), fluence))
+                              _peak(p, w[TANGENTIAL], w[SAGITTAL]), _peak(e, w[TANGENTIAL], w[SAGITTAL]),
+                              energy_j=e))
         if hit.action != "end":
             if optic.kind == "mirror" and hit.action == TRANSMIT and optic.reflectivity is None:
                 notes.append(f"\"{optic.id}\" gives no reflectivity, so it is taken as a perfect reflector and "
                              f"beam \"{path.id}\" passes it with no power")
             kept *= pass_factor(optic, hit.action, wl_nm)
-    return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)), path.tail, path.into, match, profile)
+    return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)), path.tail, path.into, match, profile,
+                      energy_j=energy)
 
 
 def _q_at_marker(train: Train, q0: complex, hit_index: int, after: bool = False) -> complex:

@@ -7,12 +7,16 @@ regulations decide.  Limits come from ``[limits]`` in the repository configurati
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from shapely import STRtree
 from shapely.geometry import LineString, Polygon
 
-from benchcheck.coatings import pass_factor
+from benchcheck import hazards
+from benchcheck.coatings import transmission
 from benchcheck.findings import ERROR, WARNING, Finding, Rule
+from benchcheck.hazards import BEAM, CAVITY_LEG, EXTENSION, LEAK, SECONDARY
 
 
 def _w(p):
@@ -23,16 +27,25 @@ def _w(p):
 
 def check_intracavity(bench, options):
     limit = bench.limits["intracavity_power_w"]
-    enclosures = [Polygon(z.polygon) for z in bench.layout.zones if z.kind == "enclosure"]
+    hard = bench.limits.get("intracavity_error_power_w", math.inf)
+    legs = {}
+    for seg in bench.hazards.segments:
+        if seg.kind == CAVITY_LEG:
+            legs.setdefault(seg.parent, []).append(seg)
     for cav in bench.solution.cavities.values():
         p = cav.circulating_w
         if p is None or p <= limit:
             continue
-        path = bench.trace.cavities[cav.id]
-        legs = LineString([tuple(h.point) for h in path.hits] + ([tuple(path.hits[0].point)] if path.role == "ring" else []))
-        if any(e.covers(legs) for e in enclosures):
+        if legs.get(cav.id) and all(seg.inside_enclosure for seg in legs[cav.id]):
             continue   # not an open bench: the whole cavity is inside an enclosure
         both = " in each direction (a linear cavity holds both)" if cav.kind == "linear" else ""
+        if p > hard:
+            yield Finding(
+                f"cavity \"{cav.id}\" circulates {p:.3g} W one-way{both} on open bench, above the limit of "
+                f"{hard:g} W for an open bench",
+                (cav.id,), value=p, limit=hard, unit="W", severity=ERROR,
+                hint="enclose the cavity (interlocked cover); the laser safety officer must review it before build")
+            continue
         yield Finding(
             f"cavity \"{cav.id}\" circulates {p:.3g} W one-way{both}, above the open-bench limit of {limit:g} W",
             (cav.id,), value=p, limit=limit, unit="W",
@@ -67,39 +80,199 @@ def _rating(bench, end, power, what, targets):
     return None
 
 
+def _class4(bench, seg) -> bool:
+    """Power or pulse energy at the level where an open beam is an error (Class 4 level)."""
+    p_lim = bench.limits.get("open_beam_power_w", 0.5)
+    e_lim = bench.limits.get("open_beam_energy_j", 0.03)
+    return (seg.power_w is not None and seg.power_w > p_lim) or \
+        (seg.pulse_energy_j is not None and seg.pulse_energy_j > e_lim)
+
+
+def _amount(seg) -> str:
+    if seg.pulse_energy_j is not None:
+        avg = "" if seg.power_w is None else f", {seg.power_w:.3g} W average"
+        return f"{seg.pulse_energy_j:.3g} J pulses{avg}"
+    return _w(seg.power_w)
+
+
+def _figures(seg) -> str:
+    """Exposure against the MPE, eyewear OD and hazard distance, in words."""
+    if seg.ratio is None:
+        return ""
+    unit = "J/cm^2" if seg.pulsed else "W/cm^2"
+    out = (f"; {seg.ratio:.3g} x the MPE ({seg.mpe / 1e4:.3g} {unit}, {seg.exposure_s:g} s, "
+           f"{seg.aperture_mm:g} mm aperture)")
+    if seg.od:
+        out += f", eyewear OD {seg.od} needed"
+    if seg.nohd_mm is not None and seg.nohd_mm > 0:
+        nohd = "unbounded (the beam stays hazardous)" if not math.isfinite(seg.nohd_mm) else \
+            f"{seg.nohd_mm / 1000:.3g} m" if seg.nohd_mm >= 1000 else f"{seg.nohd_mm:.0f} mm"
+        out += f", hazard distance {nohd}"
+        beyond = [("the table edge" if r["kind"] == "table-edge" else f"keep-out zone \"{r['id']}\"")
+                  for r in seg.reaches]
+        if beyond:
+            out += " reaching " + " and ".join(beyond)
+    return out
+
+
+def _stray_segments(bench):
+    return {seg.id: seg for seg in bench.hazards.segments if seg.kind in (LEAK, SECONDARY)}
+
+
 def check_leaks(bench, options):
     limit = bench.limits["stray_power_w"]
-    enclosures = [Polygon(z.polygon) for z in bench.layout.zones if z.kind == "enclosure"]
+    segs = _stray_segments(bench)
     for r in bench.solution.strays:
         st = r.stray
+        seg = segs.get(st.id)
         what = f"{st.kind} beam {st.id}"
         rating = _rating(bench, st.end, r.power_w, what, (st.optic, st.parent))
         if rating:
             yield rating
-        if r.power_w is None or r.power_w <= limit:
-            continue
         stopped, where = _ends_safely(bench, st.end)
-        line = LineString([tuple(st.origin), tuple(st.end.point)])
-        if stopped or any(e.covers(line) for e in enclosures):
+        if stopped or (seg is not None and seg.inside_enclosure):
             continue   # on a dump or detector, or inside an enclosure all the way
+        leaves = st.end.kind == "table-edge" or (st.end.kind == "zone" and st.end.zone_kind == "keepout")
+        at = tuple(st.end.point)
+        if r.power_w is None:
+            # never skipped: judged by its pulse energy against the pulsed limits, or reported
+            if seg is None or seg.ratio is None:
+                why = seg.problem if seg is not None and seg.problem else "its power is not known"
+                yield Finding(
+                    f"{what} leaves \"{st.optic}\" and goes {st.end.length:.0f} mm to {where}, but its hazard "
+                    f"cannot be judged: {why}",
+                    (st.optic, st.parent), severity=ERROR, at=at,
+                    hint="give the source's rep_hz (or power_w) and pulse_s, so the beam's power is known")
+                continue
+            if seg.ratio <= 1.0 and not _class4(bench, seg):
+                continue
+            severity = ERROR if leaves or _class4(bench, seg) else WARNING
+            yield Finding(
+                f"{what} leaves \"{st.optic}\" with {_amount(seg)} and goes {st.end.length:.0f} mm to {where} at "
+                f"({at[0]:.0f}, {at[1]:.0f}) mm{_figures(seg)}",
+                (st.optic, st.parent), value=seg.ratio, limit=1.0, unit="exposure/MPE", severity=severity,
+                hint="put a beam dump or block in its way, or enclose that part of the bench", at=at)
+            continue
+        if r.power_w <= limit:
+            continue
         bound = "up to " if r.at_most else ""
+        severity = WARNING
+        why = ""
+        if seg is not None and _class4(bench, seg):
+            severity, why = ERROR, f" (above the open-beam limit of {bench.limits.get('open_beam_power_w', 0.5):g} W)"
+        elif leaves:
+            severity = ERROR
+            why = " (it leaves the table)" if st.end.kind == "table-edge" else " (it enters a keep-out zone)"
+        figures = _figures(seg) if seg is not None else ""
         yield Finding(
             f"{what} leaves \"{st.optic}\" with {bound}{r.power_w:.3g} W and goes {st.end.length:.0f} mm to "
-            f"{where} at ({st.end.point[0]:.0f}, {st.end.point[1]:.0f}) mm; limit {limit:g} W",
-            (st.optic, st.parent), value=r.power_w, limit=limit, unit="W",
-            hint="put a beam dump or block in its way, or enclose that part of the bench", at=tuple(st.end.point))
+            f"{where} at ({at[0]:.0f}, {at[1]:.0f}) mm{why}; limit {limit:g} W{figures}",
+            (st.optic, st.parent), value=r.power_w, limit=limit, unit="W", severity=severity,
+            hint="put a beam dump or block in its way, or enclose that part of the bench", at=at)
+
+
+# --- open-beam ---------------------------------------------------------------------------
+
+def _stretch(seg) -> str:
+    """A segment's ends by optic (or source, cavity) name."""
+    if seg.kind == EXTENSION:
+        return f"{seg.id.split(':', 1)[1].rsplit('-', 1)[0]} onward"
+    a, b = seg.id.split(":", 1)[1].rsplit("-", 1) if seg.kind == BEAM else seg.id.split(":", 1)[1].split("-", 1)
+    return f"{a}-{b}"
+
+
+def _group(segs) -> str:
+    """The cavity or beam, with the open stretches by optic name."""
+    first = segs[0]
+    if first.kind == EXTENSION:
+        return f"beam \"{first.parent}\" past its last optic"
+    name = "cavity" if first.kind == CAVITY_LEG else "beam"
+    return f"{name} \"{first.parent}\" ({', '.join(_stretch(s) for s in segs)})"
+
+
+def check_open_beams(bench, options):
+    """Cavity legs, beams and traced-on stretches outside every enclosure: one finding per
+    cavity, beam or traced-on stretch, with the worst of its open segments."""
+    told = set()
+    groups: dict = {}
+    for seg in bench.hazards.segments:
+        if seg.kind in (LEAK, SECONDARY):
+            continue   # leak-beam judges those
+        if seg.problem and "no built-in exposure limit" in seg.problem:
+            key = round(seg.wavelength_nm, 3)
+            if key not in told:
+                told.add(key)
+                yield Finding(f"{_group([seg])} at {seg.wavelength_nm:g} nm: {seg.problem}", seg.targets,
+                              severity=ERROR, hint="add the MPE your laser safety officer uses for this wavelength "
+                                                   "to the repository configuration")
+            continue
+        if not seg.inside_enclosure:
+            groups.setdefault((seg.parent, seg.kind), []).append(seg)
+    for segs in groups.values():
+        first = segs[0]
+        where = _group(segs)
+        length = f"{sum(s.length_mm for s in segs):.0f} mm"
+        both = " (both directions)" if first.directions == 2 else ""
+        unknown = [s for s in segs if s.problem]
+        if unknown:
+            yield Finding(f"{where} at {first.wavelength_nm:g} nm runs {length} on open bench and its hazard cannot "
+                          f"be judged: {unknown[0].problem}", first.targets, severity=ERROR,
+                          hint="give the power (or pulse energy, pulse_s and rep_hz) of what feeds it", at=_mid(first))
+            continue
+        worst = max(segs, key=lambda s: s.ratio)
+        strongest = max(segs, key=lambda s: (s.pulse_energy_j or 0.0, s.power_w or 0.0))
+        ends = ""
+        if first.kind == EXTENSION:
+            ends = "; it runs to the table edge" if first.end_kind == "table-edge" else \
+                f"; it runs into keep-out zone \"{first.end_id}\"" if first.end_zone_kind == "keepout" else \
+                f"; it stops on {first.end_id}" if first.end_id else ""
+        if _class4(bench, strongest):
+            e_lim = bench.limits.get("open_beam_energy_j", 0.03)
+            p_lim = bench.limits.get("open_beam_power_w", 0.5)
+            by_energy = strongest.pulse_energy_j is not None and strongest.pulse_energy_j > e_lim
+            value, limit, unit = (strongest.pulse_energy_j, e_lim, "J") if by_energy else (strongest.power_w, p_lim, "W")
+            yield Finding(
+                f"{where} at {first.wavelength_nm:g} nm carries up to {_amount(strongest)}{both} over {length} of open "
+                f"bench, above the open-beam limit of {limit:g} {unit}{_figures(worst)}{ends}",
+                first.targets, value=value, limit=limit, unit=unit, severity=ERROR,
+                hint="enclose this part of the bench (a box or beam tube), or lower the power; the laser safety "
+                     "officer decides the controls", at=_mid(strongest))
+        elif worst.ratio is not None and worst.ratio > 1.0:
+            yield Finding(
+                f"{where} at {first.wavelength_nm:g} nm carries up to {_amount(strongest)}{both} over {length} of open "
+                f"bench{_figures(worst)}{ends}",
+                first.targets, value=worst.ratio, limit=1.0, unit="exposure/MPE", severity=WARNING,
+                hint="enclose or tube this stretch, or plan eyewear of the stated OD with the laser safety officer",
+                at=_mid(worst))
+
+
+def _mid(seg):
+    return ((seg.start[0] + seg.end[0]) / 2.0, (seg.start[1] + seg.end[1]) / 2.0)
+
+
+# --- undeclared-output -------------------------------------------------------------------
+
+def check_undeclared_output(bench, options):
+    """An active cavity's output must be followed by a [[beam]] to where it stops."""
+    declared = {b.origin for b in bench.layout.beams.values()}
+    for cav in bench.layout.cavities.values():
+        if cav.output_coupler is None or cav.id in declared:
+            continue
+        res = bench.solution.cavities[cav.id]
+        p = None if res.circulating_w is None else res.circulating_w * transmission(
+            bench.layout.optics[cav.output_coupler], cav.wavelength_nm)
+        yield Finding(
+            f"cavity \"{cav.id}\" sends {_w(p)} out through its output coupler \"{cav.output_coupler}\", but no "
+            f"[[beam]] declares where that output goes",
+            (cav.id, cav.output_coupler), value=p, unit="W", severity=ERROR,
+            hint=f"add a [[beam]] with from = \"{cav.id}\" whose path ends on a dump, a detector or the next "
+                 "experiment")
 
 
 # --- beam-unterminated -------------------------------------------------------------------
 
 def tail_power(bench, b):
-    """Power a beam carries past its last optic: what arrives there times what that optic
-    passes on in the traced-on direction."""
-    last = b.hits[-1]
-    if last.power_w is None:
-        return None
-    optic = bench.layout.optics[last.optic]
-    return last.power_w * pass_factor(optic, last.action, bench.trace.beams[b.id].wavelength_nm)
+    return hazards.tail_power(bench.layout, b, bench.trace.beams[b.id].wavelength_nm)
 
 
 def check_unterminated(bench, options):
@@ -209,8 +382,9 @@ RULES = (
             "Compares each cavity's one-way circulating power (active: P_out / T_oc; passive: the build-up on "
             "resonance) with limits.intracavity_power_w from the repository configuration. In a linear cavity "
             "the same power also travels the other way. A cavity whose every leg lies inside an enclosure zone "
-            "is not on an open bench and is not reported. A finding means the plan needs the laser safety "
-            "officer's review (enclosure, interlocks, eyewear) before build."
+            "is not on an open bench and is not reported. Above limits.intracavity_error_power_w on open bench "
+            "it is an error. A finding means the plan needs the laser safety officer's review (enclosure, "
+            "interlocks, eyewear) before build."
         ),
         check=check_intracavity, severity=WARNING, safety=True,
     ),
@@ -223,7 +397,12 @@ RULES = (
             "sends back the cavity's reflection, at most the input power. At a splitter, or a mirror a beam "
             "passes, the branch no [[beam]] follows is a secondary beam. Each is traced across the table to the "
             "first mount, zone or table edge. Above limits.stray_power_w it must end on a dump or detector, or "
-            "stay inside an enclosure. A dump or detector's max_power_w is checked against what it receives."
+            "stay inside an enclosure: a warning, and an error when it leaves the table, enters a keep-out zone "
+            "or carries more than limits.open_beam_power_w (or a pulse above limits.open_beam_energy_j). A "
+            "stray of unknown average power is judged by its pulse energy against the pulsed exposure limit, "
+            "and one whose power and energy are both unknown is an error. The message gives the exposure "
+            "against the MPE, the eyewear OD and the hazard distance. A dump or detector's max_power_w is "
+            "checked against what it receives."
         ),
         check=check_leaks, severity=WARNING, safety=True,
     ),
@@ -248,5 +427,32 @@ RULES = (
             "carry and the length inside the zone."
         ),
         check=check_keepout, severity=ERROR, safety=True,
+    ),
+    Rule(
+        id="open-beam",
+        summary="a cavity leg or beam outside every enclosure at a hazardous level",
+        explanation=(
+            "Every cavity leg (a linear cavity's in both directions), declared beam and traced-on stretch that "
+            "no enclosure zone covers is judged as an eye would meet it: its power (or pulse energy) through the "
+            "limiting aperture of IEC 60825-1 / ANSI Z136.1 (7 mm for 400-1400 nm) at its smallest 1/e^2 radius, "
+            "against the ocular MPE for the exposure duration of [exposure] (0.25 s visible, 10 s otherwise). "
+            "Above limits.open_beam_power_w (or a pulse above limits.open_beam_energy_j; the Class 4 level) it is "
+            "an error; above the MPE a warning. The message gives the exposure against the MPE, the eyewear OD "
+            "needed and, for a beam that runs off the bench, the nominal ocular hazard distance and whether it "
+            "reaches a keep-out zone or the table edge. A stretch whose power is unknown, or a wavelength with no "
+            "MPE (configure one under [exposure.mpe]), is an error: never skipped. Advisory: the laser safety "
+            "officer, IEC 60825-1 / ANSI Z136.1 and local regulations decide."
+        ),
+        check=check_open_beams, severity=ERROR, safety=True,
+    ),
+    Rule(
+        id="undeclared-output",
+        summary="an active cavity's output that no [[beam]] follows",
+        explanation=(
+            "The main output of a laser (what leaves through its output coupler) must be accounted for: a [[beam]] "
+            "from the cavity routes it to a dump, a detector or the next experiment. Without one, that output is "
+            "an open beam of unknown destination; the leak-beam rule traces where it goes."
+        ),
+        check=check_undeclared_output, severity=ERROR, safety=True,
     ),
 )

@@ -14,7 +14,8 @@ from benchcheck.cli import main
 SCHEMA = Path(__file__).resolve().parent.parent.parent / "shared" / "data" / "sarif-schema-2.1.0.json"
 
 # A plano-concave laser whose output goes to a dump; the HR leaks 0.05 % of 40 W = 20 mW
-# out of the back, to the table edge (P_circ = P_out / T_oc, DESIGN section 4).
+# out of the back onto a card (an obstacle, not a dump) behind it (P_circ = P_out / T_oc,
+# README "Physics conventions").
 LAYOUT = """format = 1
 [bench]
 name = "check test"
@@ -37,6 +38,12 @@ id = "D1"
 kind = "dump"
 max_power_w = 5.0
 
+[[optic]]
+id = "CARD"
+kind = "obstacle"
+at = [60.0, 200.0]
+size = [10.0, 40.0]
+
 [[cavity]]
 id = "laser"
 kind = "linear"
@@ -52,8 +59,13 @@ from = "laser"
 path = [{ id = "D1", distance = 300.0 }]
 """
 
+# A lab whose room is the laser-controlled area (interlocked door, eyewear): open beams are
+# controlled at the room level, so the open-beam rule is off and only leaks are judged.
 OPEN_LAB = """[limits]
 intracavity_power_w = 100.0
+intracavity_error_power_w = 100.0
+[rules.open-beam]
+enabled = false
 """
 
 
@@ -107,19 +119,32 @@ def test_fail_on_warning(tmp_path, capsys):
 
 
 def test_limits_come_from_the_configuration(tmp_path, capsys):
-    cfg = OPEN_LAB + "stray_power_w = 0.05\n"
+    cfg = OPEN_LAB.replace("[limits]\n", "[limits]\nstray_power_w = 0.05\n")
     _, doc = json_findings(capsys, write(tmp_path, config=cfg))
     assert not [f for f in doc["findings"] if f["rule"] == "leak-beam"]
 
 
 def test_default_limits_without_configuration(tmp_path, capsys):
-    _, doc = json_findings(capsys, write(tmp_path, config=None))
+    code, doc = json_findings(capsys, write(tmp_path, config=None))
     power = [f for f in doc["findings"] if f["rule"] == "intracavity-power"]
-    assert power and power[0]["value"] == pytest.approx(40.0) and power[0]["limit"] == pytest.approx(0.5)
+    # 40 W is above the default open-bench error limit of 10 W, not just the 0.5 W review limit
+    assert power and power[0]["value"] == pytest.approx(40.0) and power[0]["limit"] == pytest.approx(10.0)
+    assert power[0]["severity"] == "error"
+    # and with no enclosure the 40 W legs and the 2 W output are open beams: errors by default
+    assert {f["targets"][0] for f in doc["findings"] if f["rule"] == "open-beam"} == {"laser", "out"}
+    assert code == 1
+
+
+def test_intracavity_power_between_the_two_limits_is_a_warning(tmp_path, capsys):
+    cfg = "[limits]\nintracavity_error_power_w = 50.0\n"
+    _, doc = json_findings(capsys, write(tmp_path, config=cfg))
+    power = [f for f in doc["findings"] if f["rule"] == "intracavity-power"]
+    assert power[0]["severity"] == "warning" and power[0]["limit"] == pytest.approx(0.5)
 
 
 def test_pyproject_tool_table_is_found_walking_up(tmp_path, capsys):
-    cfg = '[project]\nname = "x"\n[tool.benchcheck.limits]\nintracavity_power_w = 100.0\nstray_power_w = 1.0\n'
+    cfg = ('[project]\nname = "x"\n[tool.benchcheck.limits]\nintracavity_power_w = 100.0\nstray_power_w = 1.0\n'
+           '[tool.benchcheck.rules.open-beam]\nenabled = false\n')
     path = write(tmp_path, config=cfg, config_name="pyproject.toml")
     _, doc = json_findings(capsys, path)
     assert doc["findings"] == []
@@ -127,7 +152,8 @@ def test_pyproject_tool_table_is_found_walking_up(tmp_path, capsys):
 
 def test_nearest_configuration_wins(tmp_path, capsys):
     path = write(tmp_path)
-    (tmp_path / "layouts" / "benchcheck.toml").write_text("[rules.leak-beam]\nenabled = false\n")
+    (tmp_path / "layouts" / "benchcheck.toml").write_text("[rules.leak-beam]\nenabled = false\n"
+                                                          "[rules.open-beam]\nenabled = false\n")
     _, doc = json_findings(capsys, path)
     # the nearer file disables leak-beam and sets no limits: the default 0.5 W applies again
     assert not [f for f in doc["findings"] if f["rule"] == "leak-beam"]

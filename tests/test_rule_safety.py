@@ -87,6 +87,10 @@ def test_leak_through_the_hr():
 
 
 def test_intracavity_power_on_an_open_bench_only():
-    (f,) = run("intracavity-power", laser(), intracavity_power_w=50.0)
-    assert f.value == pytest.approx(100.0, rel=1e-9) and f.limit == 50.0
+    (f,) = run("intracavity-power", laser(), intracavity_power_w=50.0, intracavity_error_power_w=200.0)
+    assert f.value == pytest.approx(100.0, rel=1e-9) and f.limit == 50.0 and f.severity is None
     assert run("intracavity-power", laser(BOX), intracavity_power_w=50.0) == []
+    # above the second limit it is an error on open bench, and still nothing inside the box
+    (g,) = run("intracavity-power", laser(), intracavity_power_w=50.0, intracavity_error_power_w=80.0)
+    assert g.severity == "error" and g.limit == 80.0
+    assert run("intracavity-power", laser(BOX), intracavity_power_w=50.0, intracavity_error_power_w=80.0) == []
