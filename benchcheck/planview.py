@@ -33,6 +33,7 @@ STYLE = {
     "error": "#b3261e",
     "warning": "#8a5a00",
     "note": "#44546a",
+    "hazard": "#e0b400",
 }
 NICE = (1, 2, 5, 10, 20, 50, 100, 200, 500, 1000)
 
@@ -123,8 +124,9 @@ def _envelope(frame, leg, srange, pieces, k) -> str | None:
     return frame.pts(ring)
 
 
-def plan_svg(solution, findings=(), width_px: float = 960.0) -> str:
-    """The plan view.  ``findings`` are (number, Finding) pairs to mark on the drawing."""
+def plan_svg(solution, findings=(), hazards=None, width_px: float = 960.0) -> str:
+    """The plan view.  ``findings`` are (number, Finding) pairs to mark on the drawing;
+    ``hazards`` (a ``hazards.Assessment``) adds the hazard zones of open beams."""
     layout = solution.layout
     frame = _Frame(layout.bench.size, width_px, margin=46.0)
     k = exaggeration_for(solution, frame)
@@ -137,6 +139,8 @@ def plan_svg(solution, findings=(), width_px: float = 960.0) -> str:
            f'orient="auto-start-reverse"><path d="M0,0 L10,5 L0,10 z" fill="{STYLE["stray"]}"/></marker></defs>']
     out += _table(frame)
     out += _zones(frame, layout)
+    if hazards is not None:
+        out += _hazard_zones(frame, hazards)
     out += _mounts(frame, solution)
     for cid in solution.cavities:
         out += _path(frame, solution, cid, "cavity", k)
@@ -226,6 +230,34 @@ def _path(frame, solution, ident: str, role: str, k: float) -> list[str]:
         (x1, y1), (x2, y2) = frame.xy(*leg[0]), frame.xy(*leg[1])
         out.append(f'<line x1="{x1:.1f}" y1="{y1:.1f}" x2="{x2:.1f}" y2="{y2:.1f}" stroke="{colour}" '
                    f'stroke-width="{width}"><title>{role} {escape(ident)}</title></line>')
+    return out
+
+
+def _hazard_zones(frame, assessment) -> list[str]:
+    """A wide translucent band along every stretch outside the enclosures where the
+    exposure exceeds the MPE, cut at the hazard distance; where the hazard runs on past the
+    drawing, a double arrow at the end with the distance."""
+    out = []
+    colour = STYLE["hazard"]
+    for seg in assessment.segments:
+        if seg.inside_enclosure or seg.ratio is None or seg.ratio <= 1.0:
+            continue
+        length = seg.length_mm
+        reach = length if seg.nohd_mm is None else min(seg.nohd_mm, length)
+        if reach <= 0:
+            continue
+        dx, dy = (seg.end[0] - seg.start[0]) / length, (seg.end[1] - seg.start[1]) / length
+        (x1, y1) = frame.xy(*seg.start)
+        (x2, y2) = frame.xy(seg.start[0] + dx * reach, seg.start[1] + dy * reach)
+        label = f"{seg.id}: {seg.ratio:.3g} x MPE, OD {seg.od}"
+        out.append(f'<line x1="{x1:.1f}" y1="{y1:.1f}" x2="{x2:.1f}" y2="{y2:.1f}" stroke="{colour}" '
+                   f'stroke-opacity="0.45" stroke-width="12" stroke-linecap="butt">'
+                   f'<title>{escape(label)}</title></line>')
+        if seg.nohd_mm is not None and seg.nohd_mm > length:
+            far = "unbounded" if seg.nohd_mm == float("inf") else (
+                f"{seg.nohd_mm / 1000:.3g} m" if seg.nohd_mm >= 1000 else f"{seg.nohd_mm:.0f} mm")
+            out.append(f'<text x="{x2:.1f}" y="{y2 - 8:.1f}" class="tiny" text-anchor="middle" fill="{STYLE["ink"]}">'
+                       f'&#187;&#187; hazard to {escape(far)}</text>')
     return out
 
 

@@ -138,7 +138,8 @@ class Report:
             ' · <a href="#cavities">Cavities</a> · <a href="#beams">Beams</a> · <a href="#optics">Optics</a></nav>',
             self._safety(),
             '<section id="plan"><h2>Plan view</h2>',
-            f'<figure class="wide">{plan_svg(sol, self.numbered)}<figcaption>{self._legend()}</figcaption></figure>',
+            f'<figure class="wide">{plan_svg(sol, self.numbered, self.bench.hazards)}<figcaption>{self._legend()}'
+            '</figcaption></figure>',
             "</section>",
             self._findings(),
             self._cavities(plots),
@@ -158,19 +159,67 @@ class Report:
             (f'<span class="swatch" style="background:{STYLE["mount"]}"></span>', "mount footprints"),
             (f'<span class="swatch" style="border:2px dashed {STYLE["enclosure"]}"></span>', "enclosures"),
             ('<span class="swatch hatch"></span>', "keep-out zones"),
+            (f'<span class="swatch" style="background:{STYLE["hazard"]};opacity:0.45"></span>',
+             "hazard zone of an open beam above the MPE (wide band; a double arrow where it runs on past the "
+             "drawing, with its hazard distance)"),
             ('<span class="dot">n</span>', "finding n: circle error, diamond warning, square note, hollow waived "
                                             "(links to its row)"),
         ]
         return " ".join(f'<span class="key">{s} {escape(t)}</span>' for s, t in items)
 
     def _enclosure_of(self, points) -> str | None:
-        from shapely.geometry import LineString, Polygon
+        """The enclosure that covers a stretch (the hazard assessment's own test)."""
+        from shapely.geometry import Polygon
 
-        line = LineString(points) if len(points) > 1 else None
+        from .hazards import enclosed
+
         for z in self.layout.zones:
-            if z.kind == "enclosure" and line is not None and Polygon(z.polygon).covers(line):
+            if z.kind == "enclosure" and enclosed([Polygon(z.polygon)], points):
                 return z.id
         return None
+
+    def _exposure_tables(self) -> str:
+        """Per wavelength: exposure, MPE, worst power, eyewear OD, class estimate; then every
+        segment on open bench with its exposure against the MPE and hazard distance."""
+        from .hazardtable import M2_TO_CM2, _nohd, _power
+
+        a = self.bench.hazards
+        rows = []
+        for w in a.wavelengths:
+            unit = "J/cm²" if w.pulsed else "W/cm²"
+            mpe = "none built in" if w.mpe is None else f"{w.mpe / M2_TO_CM2:.3g} {unit}"
+            rows.append([f"{w.wavelength_nm:g} nm", f"{w.exposure_s:g} s", escape(mpe),
+                         escape(_power(w.max_power_w, w.max_pulse_energy_j)),
+                         "–" if w.od is None else f"<strong>OD {w.od}</strong>", escape(w.class_estimate or "–"),
+                         escape(w.problem or "")])
+        per_wl = _table(["wavelength", "exposure", "MPE", "worst power or pulse", "eyewear", "class (estimate)",
+                         "cannot judge"], rows)
+        src = _table(["source or output", "kind", "wavelength", "power", "class (estimate)"],
+                     [[escape(s.id), escape(s.kind), f"{s.wavelength_nm:g} nm",
+                       escape(_power(s.power_w, s.pulse_energy_j)), escape(s.class_estimate or "–")]
+                      for s in a.sources])
+        open_rows = []
+        for seg in a.segments:
+            if seg.inside_enclosure:
+                continue
+            reach = ", ".join("table edge" if r["kind"] == "table-edge" else f"keep-out {r['id']}"
+                              for r in seg.reaches)
+            ratio = "–" if seg.ratio is None else f"{seg.ratio:.3g}"
+            if seg.ratio is not None and seg.ratio > 1:
+                ratio = f"<strong>{ratio}</strong>"
+            open_rows.append([escape(seg.kind), escape(seg.id), f"{seg.wavelength_nm:g} nm",
+                              escape(_power(seg.power_w, seg.pulse_energy_j)), f"{seg.length_mm:.0f} mm", ratio,
+                              "–" if seg.od is None else str(seg.od), escape(_nohd(seg)), escape(reach or "–"),
+                              escape(seg.problem or "")])
+        opened = _table(["kind", "segment", "wavelength", "power", "length", "exposure / MPE", "OD",
+                         "hazard distance", "reaches", "cannot judge"], open_rows) if open_rows else \
+            "<p>No segment lies outside an enclosure.</p>"
+        return (f'<h3>Exposure and eyewear by wavelength</h3>{per_wl}'
+                f'<p class="small">Eyewear covers the worst segment at each wavelength, enclosed or not (alignment '
+                f'is done with covers open). Class estimates are simplified from IEC 60825-1:2014 and never '
+                f'replace the manufacturer\'s classification.</p>{src}'
+                f'<h3>Open beams</h3>{opened}'
+                f'<p class="small">{escape(a.caution)}</p>')
 
     def _safety(self) -> str:
         sol = self.solution
@@ -205,6 +254,7 @@ class Report:
         return (f'<section id="safety"><h2>Safety summary</h2>'
                 f'<p class="caution"><strong>{escape(SAFETY_CAUTION)}</strong> The figures below come from the '
                 f'plan, not from measurement.</p>'
+                f'{self._exposure_tables()}'
                 f'<h3>Circulating power</h3>{cav_table}'
                 f'<h3>Beams</h3>{beam_table}'
                 f'<h3>Leak and secondary beams</h3>{stray_table}'

@@ -117,3 +117,21 @@ def test_renders_in_headless_chromium(tmp_path, capsys):
     target = ROOT / "docs" / "report-screenshot.png"
     if target.parent.is_dir() and not target.exists():
         shutil.copyfile(png, target)   # the README's picture comes from this check
+
+
+def test_safety_summary_has_eyewear_by_wavelength_and_hazard_zones(tmp_path, capsys):
+    """The flawed demo has open class 4 beams at 800 nm: the safety section lists each
+    wavelength with its MPE and eyewear OD, the open segments, and the plan view draws their
+    hazard zones (the figures themselves are checked against closed forms in test_hazards)."""
+    layout = ROOT / "layouts" / "flawed" / "every-rule-fires.toml"
+    root = parse(make(layout, tmp_path / "r.html", capsys))
+    safety = next(e for e in root.iter() if e.get("id") == "safety")
+    text = " ".join(safety.itertext())
+    assert "Exposure and eyewear by wavelength" in text and "Open beams" in text
+    for wl in ("633 nm", "800 nm", "1064 nm"):
+        assert wl in text
+    assert "OD 5" in text and "laser safety officer" in text
+    plan = next(s for s in root.iter(SVG + "svg") if s.get("class") == "plan")
+    titles = [t.text for t in plan.iter(SVG + "title") if t.text and "x MPE" in t.text]
+    assert any(t.startswith("osc:") for t in titles)
+    assert any("hazard to" in (t.text or "") for t in plan.iter(SVG + "text"))
