@@ -256,8 +256,10 @@ def _hazard_zones(frame, assessment) -> list[str]:
         if seg.nohd_mm is not None and seg.nohd_mm > length:
             far = "unbounded" if seg.nohd_mm == float("inf") else (
                 f"{seg.nohd_mm / 1000:.3g} m" if seg.nohd_mm >= 1000 else f"{seg.nohd_mm:.0f} mm")
-            out.append(f'<text x="{x2:.1f}" y="{y2 - 8:.1f}" class="tiny" text-anchor="middle" fill="{STYLE["ink"]}">'
-                       f'&#187;&#187; hazard to {escape(far)}</text>')
+            # the label stays inside the drawing: it ends at the arrow on the side it came from
+            anchor = "end" if dx >= 0 else "start"
+            out.append(f'<text x="{x2:.1f}" y="{y2 - 8:.1f}" class="tiny" text-anchor="{anchor}" '
+                       f'fill="{STYLE["ink"]}">{"hazard to " + escape(far) + " &#187;&#187;" if dx >= 0 else "&#171;&#171; hazard to " + escape(far)}</text>')
     return out
 
 
