@@ -174,8 +174,9 @@ def cmd_report(args) -> int:
     try:
         import matplotlib  # noqa: F401
     except ImportError:
-        print("error: the report draws its plots with matplotlib, which is not installed; "
-              "install it with: pip install 'benchcheck[report]'", file=sys.stderr)
+        print("error: the report draws its plots with matplotlib, which is not installed; install it with "
+              "the report extra: pip install \"benchcheck[report]\", or in a source checkout of benchcheck: "
+              "pip install \".[report]\"", file=sys.stderr)
         return EXIT_BAD_INPUT
     from .report_html import MARKER, Report
 
@@ -288,7 +289,7 @@ def build_parser() -> argparse.ArgumentParser:
         help="write a self-contained HTML design-review report (plan view, beam plots, findings, safety)",
         description="Solve and check one layout and write a single HTML file: the plan view with beams and "
                     "findings, beam sizes along every path, stability, per-optic tables and a safety summary. "
-                    "Needs matplotlib (pip install 'benchcheck[report]').",
+                    "Needs matplotlib: pip install \"benchcheck[report]\" (in a source checkout: pip install \".[report]\").",
     )
     report.add_argument("layout", metavar="LAYOUT", help="layout file")
     report.add_argument("-o", "--output", metavar="FILE", help="where to write the report "

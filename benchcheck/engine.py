@@ -35,6 +35,8 @@ class FileResult:
     fail_on: str = "error"
     #: the solved bench the rules read (None where the layout could not be used)
     bench: Bench | None = None
+    #: the layout itself could not be read or solved (its errors say why)
+    unreadable: bool = False
 
 
 def validate_options(config: Config, ruleset: RuleSet) -> list[LayoutError]:
@@ -167,15 +169,18 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
         if ruleset is None:
             ruleset = load_rules(config.plugins, search_path=config_folder(config))
         problems = [str(p) for p in validate_options(config, ruleset)]
+    except LayoutError as exc:      # the configuration, not the layout
+        return FileResult(name, errors=[str(exc)])
+    try:
         layout = load_path(path)
         solution = solve_layout(layout)
     except LayoutError as exc:
-        return FileResult(name, errors=[str(exc)])
+        return FileResult(name, errors=[str(exc)], unreadable=True)
     except RecursionError:
-        return FileResult(name, errors=[f"{name}: error: the layout is nested too deeply to read"])
+        return FileResult(name, errors=[f"{name}: error: the layout is nested too deeply to read"], unreadable=True)
     except Exception as exc:  # noqa: BLE001
         return FileResult(name, errors=[f"{name}: internal error while solving ({type(exc).__name__}: {exc}); "
-                                        "please report it with this layout"])
+                                        "please report it with this layout"], unreadable=True)
     bench = Bench(layout, solution, dict(config.limits), config.exposure)
     result = run_rules(bench, config, ruleset, today)
     # plugin and configuration problems are not this layout's: said once, whatever the file

@@ -656,7 +656,9 @@ class _Reader:
             if fold is not None:
                 if optic.kind not in ("mirror", "splitter"):
                     raise self.fail(ip + ("fold",), f"\"{ident}\" is a {optic.kind}; only a mirror or splitter folds the beam")
-                if optic.fold is not None and abs(optic.fold - fold) > 1e-9:
+                # a splitter's own fold is its face angle for the path that orients it; another
+                # path reflecting there makes its own fold (placement and trace check both)
+                if optic.kind == "mirror" and optic.fold is not None and abs(optic.fold - fold) > 1e-9:
                     raise self.fail(ip + ("fold",), f"fold {fold:g} deg here contradicts fold = {optic.fold:g} deg "
                                                     f"on optic \"{ident}\" (line {optic.where('fold').line})")
             out.append(PathEntry(ident, self.loc(ip), dist, fold))

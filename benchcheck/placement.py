@@ -62,6 +62,19 @@ def fold_for_turn(turn: float) -> float:
     return math.copysign(180.0 - abs(t), t) if t != 0 else 180.0
 
 
+class Note(str):
+    """An assumption placement made, as text, with the optics it concerns and the line of
+    the layout where the user would change it."""
+
+    targets: tuple[str, ...]
+    loc: Loc | None
+
+    def __new__(cls, text: str, targets: tuple[str, ...] = (), loc: Loc | None = None):
+        obj = super().__new__(cls, text)
+        obj.targets, obj.loc = targets, loc
+        return obj
+
+
 @dataclass
 class Placed:
     """Where an optic stands and which way it faces."""
@@ -278,7 +291,8 @@ def _orientation(optic: Optic, seen: list):
     if not seen:
         if optic.kind in ("dump", "detector"):
             return np.array([1.0, 0.0]), None, None   # a block for stray light: facing does not matter
-        return np.array([1.0, 0.0]), None, f"optic \"{optic.id}\" is on no cavity or beam path; its mount is drawn facing +x"
+        return np.array([1.0, 0.0]), None, Note(f"optic \"{optic.id}\" is on no cavity or beam path; its mount is "
+                                                "drawn facing +x", (optic.id,), optic.loc)
     by, d_in, d_out = seen[0]
     if optic.kind in FOLDING_KINDS:
         if d_out is not None and bends(d_in, d_out):
@@ -288,8 +302,8 @@ def _orientation(optic: Optic, seen: list):
         fold = optic.fold
         if fold is None and optic.kind == "splitter":
             fold = DEFAULT_SPLITTER_FOLD
-            note = (f"splitter \"{optic.id}\" gives no 'fold' for its face angle; {DEFAULT_SPLITTER_FOLD:g} deg "
-                    "(45 deg incidence) is assumed")
+            note = Note(f"splitter \"{optic.id}\" gives no 'fold' for its face angle; {DEFAULT_SPLITTER_FOLD:g} deg "
+                        "(45 deg incidence) is assumed", (optic.id,), optic.loc)
         if fold is None:
             return -np.asarray(d_in), by, None
         d_refl = unit(heading_of(d_in) + turn_for_fold(fold))

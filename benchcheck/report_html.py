@@ -12,10 +12,10 @@ from __future__ import annotations
 import datetime as _dt
 import math
 from html import escape
+from pathlib import Path
 
 from . import __version__
 from .beamtable import fmt, fmt_si
-from .clipping import elliptical_loss
 from .findings import SAFETY_CAUTION, Bench
 from .planview import STYLE, plan_svg
 from .resonator import STATUS_LABEL
@@ -57,17 +57,17 @@ def _lidt_text(lidt) -> str:
     return escape("; ".join(parts))
 
 
-def _clip_loss(optic, hit) -> float | None:
-    """Power lost at the optic's own clear aperture for the beam at its hit point (the
-    aperture projected by cos(aoi) in the table plane; a crystal or plate is seen whole)."""
-    if optic.diameter is None or optic.kind in ("dump", "detector", "obstacle"):
-        return None
-    w_t, w_s = hit.w.get("t"), hit.w.get("s")
-    if not w_t or not w_s:
-        return None
-    a = optic.diameter / 2.0
-    a_t = a if optic.kind in ("crystal", "plate") else a * math.cos(math.radians(hit.aoi_deg))
-    return float(elliptical_loss(w_t, w_s, a_t, a))
+def _rule_module(name: str):
+    """A module of the built-in rule pack (benchcheck.rules.NAME): the report shows the
+    numbers the rules compute, from the same functions."""
+    import importlib
+
+    try:
+        return importlib.import_module(f"benchcheck.rules.{name}")
+    except ImportError:   # a source checkout: the rule pack is loaded by the plugin manager
+        from .plugins import _builtin_module
+        _builtin_module()
+        return importlib.import_module(f"benchcheck.rules.{name}")
 
 
 def _loss_text(loss) -> str:
@@ -76,27 +76,15 @@ def _loss_text(loss) -> str:
     return "&lt; 1e-9" if loss < 1e-9 else f"{loss:.2e}"
 
 
-def _ratio_text(optic, hit) -> str:
-    """One-way load on the surface over the rating as given, the largest of the kinds the
-    LIDT names (the coating-damage rule does this properly, with scaling and overlap)."""
-    lidt = optic.lidt
-    w_t, w_s = hit.w.get("t"), hit.w.get("s")
-    if lidt is None or not w_t or not w_s:
+def _ratio_text(loads, factor: float) -> str:
+    """The largest load over its LIDT among the ratings of the optic: the value the
+    coating-damage rule compares (both directions where they overlap, the worst surface,
+    a pulsed rating moved to the beam's pulse length), divided by the rating itself."""
+    if not loads:
         return "–"
-    cos = math.cos(math.radians(hit.aoi_deg)) if optic.kind in ("mirror", "splitter") else 1.0
-    ratios = []
-    if lidt.w_cm2 is not None and hit.peak_w_cm2 is not None:
-        ratios.append(hit.peak_w_cm2 * cos / lidt.w_cm2)
-    if lidt.w_cm is not None and hit.power_w is not None:
-        diameter_cm = 2.0 * min(w_t / cos, w_s) / 10.0
-        ratios.append(hit.power_w / diameter_cm / lidt.w_cm)
-    if lidt.j_cm2 is not None and hit.peak_j_cm2 is not None:
-        ratios.append(hit.peak_j_cm2 * cos / lidt.j_cm2)
-    if not ratios:
-        return "–"
-    worst = max(ratios)
+    worst = max(ld.value / ld.rated for ld in loads)
     text = f"{worst:.2g}"
-    return f"<strong>{text}</strong>" if worst > 0.5 else text
+    return f"<strong>{text}</strong>" if worst > 1.0 / (factor or 1.0) else text
 
 
 class Report:
@@ -109,6 +97,18 @@ class Report:
         self.numbered = list(enumerate(self.findings, start=1))
         self.config_path = config_path
         self.rules = rules
+
+    def _option(self, rule_id: str, name: str):
+        """A rule option as the repository's configuration sets it (else its default)."""
+        from .config import load_config
+
+        value = self.rules[rule_id][0].defaults()[name] if rule_id in self.rules else None
+        if self.config_path:
+            try:
+                value = load_config(Path(self.config_path)).options(rule_id).get(name, value)
+            except Exception:  # noqa: BLE001 - the check run has reported a bad configuration already
+                pass
+        return value
 
     # -- sections ----------------------------------------------------------------------
     def html(self, generated: _dt.datetime | None = None) -> str:
@@ -381,12 +381,7 @@ class Report:
     def _windows(self, cav):
         if not (cav.stable("t") and cav.stable("s")):
             return []
-        try:
-            from benchcheck.rules.margin import spacing_windows
-        except ImportError:   # a source checkout: the rule pack is loaded by the plugin manager
-            from .plugins import _builtin_module
-            _builtin_module()
-            from benchcheck.rules.margin import spacing_windows
+        spacing_windows = _rule_module("margin").spacing_windows
         try:
             return spacing_windows(cav, self.layout, self.solution.trace.cavities[cav.id])
         except Exception:  # noqa: BLE001 - the drawing is optional; the rule reports its own failure
@@ -406,26 +401,32 @@ class Report:
     def _optics(self) -> str:
         sol = self.solution
         rows = []
+        clipping, damage = _rule_module("clipping"), _rule_module("damage")
+        factor = self._option("coating-damage", "safety_factor")
         for role, results in (("cavity", sol.cavities), ("beam", sol.beams)):
             for res in results.values():
-                for h in res.hits:
+                for i, h in enumerate(res.hits):
                     optic = self.layout.optics[h.optic]
-                    loss = _clip_loss(optic, h)
+                    clipped = clipping.clip_loss(self.bench, role, res.id, res, i)
+                    loss = None if clipped is None else clipped[0]
+                    loads = damage.surface_loads(self.bench, role, res.id, res, i)
                     peak = (f"{h.peak_j_cm2:.3g} J/cm²" if h.peak_j_cm2 is not None else
                             f"{h.peak_w_cm2:.3g} W/cm²" if h.peak_w_cm2 is not None else "–")
                     rows.append([escape(h.optic), escape(optic.kind), f"{escape(role)} {escape(res.id)}",
                                  _f(h.aoi_deg, ".2f"), _f(None if h.w["t"] is None else h.w["t"] * 1e3, ".1f"),
                                  _f(None if h.w["s"] is None else h.w["s"] * 1e3, ".1f"),
                                  _f(h.power_w, ".4g"), peak, _lidt_text(optic.lidt),
-                                 _loss_text(loss), _ratio_text(optic, h)])
+                                 _loss_text(loss), _ratio_text(loads, factor)])
         table = _table(["optic", "kind", "on", "AOI (deg)", "w_t (µm)", "w_s (µm)", "power (W)",
                         "peak of the beam", "LIDT", "clip loss", "load / LIDT"], rows, "optics")
         return (f'<section id="optics"><h2>Optics</h2>{table}<p class="small">Peak of the beam: 2P/(π w_t w_s) '
-                f'(or the fluence 2E/(π w_t w_s)), one-way, at the hit point (a crystal\'s centre). Load / LIDT: the '
-                f'same on the surface (the footprint grows by 1/cos of the angle of incidence), against the rating '
-                f'as given (unscaled; W/cm ratings against P over the smaller 1/e² footprint diameter); in a linear '
-                f'cavity inner optics carry both directions, which coating-damage counts. Clip loss: the power '
-                f'outside the clear aperture projected at the angle of incidence.</p></section>')
+                f'(or the fluence 2E/(π w_t w_s)), one-way, at the hit point (a crystal\'s centre). Load / LIDT: what '
+                f'coating-damage compares, over the rating: the peak on the worst surface (the footprint grows by '
+                f'1/cos of the angle of incidence), both directions on the inner optics of a linear cavity (one way '
+                f'on its end mirrors), W/cm ratings against P over the smaller 1/e² footprint diameter, a pulsed '
+                f'rating moved to the beam\'s pulse length and wavelength; in bold above 1 / the safety factor, '
+                f'where coating-damage reports it. Clip loss: what aperture-clipping computes, the power outside the '
+                f'clear aperture projected at the angle of incidence, on the worst face.</p></section>')
 
 
 CSS = """

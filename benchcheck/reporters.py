@@ -44,6 +44,15 @@ NOT_AN_APPROVAL = ("No findings: the plan passed the rules that ran. This is not
 
 # --- text -------------------------------------------------------------------------------
 
+def input_errors(results: list[FileResult]) -> tuple[int, int]:
+    """(layouts that could not be read or solved, distinct configuration or plugin
+    problems): the errors that are no rule's finding, counted once each (a bad
+    configuration repeats in every file's result)."""
+    unreadable = sum(1 for r in results if r.unreadable)
+    setup = {e for r in results if not r.unreadable for e in r.errors}
+    return unreadable, len(setup)
+
+
 def text_report(results: list[FileResult], rules: dict) -> str:
     lines = []
     findings = all_findings(results)
@@ -57,7 +66,16 @@ def text_report(results: list[FileResult], rules: dict) -> str:
             lines.append(f"    hint: {f.hint}")
     counts = {s: sum(1 for f in findings if f.severity == s and not f.waived) for s in ("error", "warning", "note")}
     waived = sum(1 for f in findings if f.waived)
+    unreadable, setup = input_errors(results)
+    counts["error"] += unreadable + setup
     parts = [f"{n} {s}{'s' if n != 1 else ''}" for s, n in counts.items()]
+    why = []
+    if unreadable:
+        why.append(f"{unreadable} layout{'s' if unreadable != 1 else ''} could not be read or solved")
+    if setup:
+        why.append(f"{setup} problem{'s' if setup != 1 else ''} with the configuration or plugins")
+    if why:
+        parts[0] += f" ({'; '.join(why)})"
     summary = ", ".join(parts) + (f"; {waived} waived" if waived else "")
     files = len(results)
     lines.append(f"{summary} in {files} layout{'s' if files != 1 else ''}")
@@ -185,8 +203,9 @@ def github_report(results: list[FileResult], rules: dict, root: Path | None = No
         level = {"error": "error", "warning": "warning"}.get(f.severity, "notice")
         file = _escape_property(_relative(f.loc.file, root))
         title = _escape_property(f.rule)
+        hint = f"\nhint: {f.hint}" if f.hint else ""
         lines.append(f"::{level} file={file},line={f.loc.line},col={f.loc.column},title={title}::"
-                     f"{_escape_data(f.message)}")
+                     f"{_escape_data(f.message + hint)}")
     for e in dict.fromkeys(e for r in results for e in r.errors):
         lines.append(f"::error::{_escape_data(e)}")
     if not any(not f.waived for f in all_findings(results)):

@@ -20,7 +20,7 @@ from .coatings import reflectivity_at, transmission
 from .model import WAVELENGTH_MATCH, Layout, Loc
 from .raycast import RayEnd, Table
 from .placement import (
-    FOLDING_KINDS, STRAIGHT_TOLERANCE_DEG, Placement, bends, cavity_exit, fold_for_turn, heading_of, turn_for_fold, unit, wrap180,
+    DEFAULT_SPLITTER_FOLD, FOLDING_KINDS, STRAIGHT_TOLERANCE_DEG, Placement, bends, cavity_exit, fold_for_turn, heading_of, turn_for_fold, unit, wrap180,
 )
 
 #: Default tolerance (deg) between a declared fold and the one the geometry gives.
@@ -222,17 +222,22 @@ def _hit(placement, entry, s, d_in, d_out, role_end, holder_id, tol, issues) -> 
         action = TRANSMIT
     if action == REFLECT:
         fold = fold_for_turn(heading_of(d_out) - heading_of(d_in))
-        declared = entry.fold if entry.fold is not None else optic.fold
-        if declared is not None and abs(wrap180(fold - declared)) > tol:
-            issues.append(GeometryIssue(
-                "fold-mismatch",
-                f"\"{optic.id}\" folds \"{holder_id}\" by {fold:.3f} deg on the table, but {declared:g} deg is declared",
-                (optic.id, holder_id), entry.loc, fold, declared, "deg"))
+        declared = [(entry.fold, entry.loc)] if entry.fold is not None else []
+        if optic.fold is not None and (not declared or (optic.kind == "splitter" and placed.oriented_by == holder_id)):
+            declared.append((optic.fold, optic.where("fold")))
+        for value, where in declared:
+            if abs(wrap180(fold - value)) > tol:
+                issues.append(GeometryIssue(
+                    "fold-mismatch",
+                    f"\"{optic.id}\" folds \"{holder_id}\" by {fold:.3f} deg on the table, but {value:g} deg is declared",
+                    (optic.id, holder_id), where, fold, value, "deg"))
         # the law of reflection against the normal set by the path that oriented the mirror
         normal = placed.direction
         expected = np.asarray(d_in) - 2.0 * np.dot(d_in, normal) * normal
         miss = abs(wrap180(heading_of(d_out) - heading_of(expected)))
-        if placed.oriented_by != holder_id and miss > tol:
+        if placed.oriented_by != holder_id and miss > tol and optic.kind == "splitter":
+            issues.append(_splitter_face(placement, placed, entry, d_in, d_out, miss, holder_id, tol))
+        elif placed.oriented_by != holder_id and miss > tol:
             issues.append(GeometryIssue(
                 "reflection-off-normal",
                 f"\"{holder_id}\" reflects at \"{optic.id}\" {miss:.2f} deg away from the law of reflection for the "
@@ -248,6 +253,46 @@ def _hit(placement, entry, s, d_in, d_out, role_end, holder_id, tol, issues) -> 
             from_back = float(np.dot(d_in, placed.direction)) > 0
     return Hit(optic.id, optic.kind, placed.point, s, np.asarray(d_in), None if d_out is None else np.asarray(d_out),
                action, aoi, fold, entry.loc, from_back)
+
+
+def _splitter_face(placement, placed, entry, d_in, d_out, miss, holder_id, tol) -> GeometryIssue:
+    """A path reflecting at a splitter whose face another path's pass (and the splitter's
+    own ``fold`` key, or the default angle) has set: the splitter's ``fold`` is what to
+    change, to the value that makes this path obey the law of reflection."""
+    optic = placed.optic
+    wanted = np.asarray(d_out) - np.asarray(d_in)
+    wanted = wanted / float(np.hypot(*wanted))
+    setter = placement.layout.cavities.get(placed.oriented_by) or placement.layout.beams.get(placed.oriented_by)
+    arrive = _arrival(placement, setter, optic.id)
+    mirrored = arrive - 2.0 * float(np.dot(arrive, wanted)) * wanted
+    needed = fold_for_turn(heading_of(mirrored) - heading_of(arrive))
+    if optic.fold is None:
+        face = f"its own 'fold' key, which is not given ({DEFAULT_SPLITTER_FOLD:g} deg, 45 deg incidence, is assumed)"
+    else:
+        face = f"its own 'fold = {optic.fold:g}'"
+    how = f"the entry's 'fold = {entry.fold:g}'" if entry.fold is not None else "the coordinates"
+    return GeometryIssue(
+        "splitter-face",
+        f"\"{holder_id}\" reflects at splitter \"{optic.id}\" as {how} says, {miss:.2f} deg away from the law of "
+        f"reflection: the splitter's face is set by {face} for the pass of \"{placed.oriented_by}\"; "
+        f"'fold = {needed:.6g}' on \"{optic.id}\" turns its face to reflect \"{holder_id}\" this way",
+        (optic.id, holder_id), optic.where("fold"), miss, tol, "deg")
+
+
+def _arrival(placement, holder, optic_id) -> np.ndarray:
+    """Direction in which ``holder`` (the path that orients the optic) first arrives at it."""
+    ids = [e.id for e in holder.path]
+    k = ids.index(optic_id)
+    if k > 0:
+        prev = placement.optics[ids[k - 1]].point
+    elif holder.id in placement.layout.beams:
+        origin = holder.origin
+        layout = placement.layout
+        prev = (placement.sources[origin] if origin in layout.sources
+                else cavity_exit(layout, layout.cavities[origin], {i: v.point for i, v in placement.optics.items()})[0])
+    else:   # the first element of a cavity: arriving from the second (linear) or the last (ring)
+        prev = placement.optics[ids[1] if holder.kind == "linear" else ids[-1]].point
+    return _dir(prev, placement.optics[optic_id].point)
 
 
 def _transmission_aoi(placed, d_in, holder_id, loc, issues) -> float:
@@ -326,14 +371,17 @@ def _check_heading(holder_id: str, declared: float | None, start, first, first_i
 
 def _ring_closure(placement, cav, pts, issues) -> None:
     """A relatively placed ring must close: the declared heading leaving the last element
-    should lead back onto the first.  Reports the miss in mm and the angle error."""
+    should lead back onto the first.  Reports the miss in mm and the angle error (the
+    closure residual), the fold at the last element that would close it, the first element
+    in path order where the declared and the geometric folds part, and the total turn the
+    declared folds make where all are declared (a closed ring turns by 360 deg)."""
     entries = cav.path
     if not any(e.distance is not None for e in entries):
         return
     last = entries[-1]
     optic = placement.optics[last.id].optic
     arrive = heading_of(pts[-1] - pts[-2])
-    fold = last.fold if last.fold is not None else optic.fold
+    fold = _declared_fold(placement, last)
     if optic.kind in FOLDING_KINDS and fold is None:
         return
     leave = arrive + (turn_for_fold(fold) if optic.kind in FOLDING_KINDS else 0.0)
@@ -341,11 +389,36 @@ def _ring_closure(placement, cav, pts, issues) -> None:
     along = unit(leave)
     miss = abs(float(along[0] * to_first[1] - along[1] * to_first[0]))
     angle = abs(wrap180(heading_of(to_first) - leave))
-    if miss > 1e-3 or float(np.dot(along, to_first)) <= 0:
-        issues.append(GeometryIssue(
-            "ring-not-closed",
-            f"ring \"{cav.id}\" does not close: leaving \"{last.id}\" it passes {miss:.3f} mm beside \"{entries[0].id}\" "
-            f"({angle:.3f} deg off)", (cav.id, last.id, entries[0].id), cav.loc, miss, 1e-3, "mm"))
+    if miss <= 1e-3 and float(np.dot(along, to_first)) > 0:
+        return
+    text = (f"ring \"{cav.id}\" does not close: leaving \"{last.id}\" it passes {miss:.3f} mm beside "
+            f"\"{entries[0].id}\" ({angle:.3f} deg off)")
+    if optic.kind in FOLDING_KINDS:
+        text += (f"; a fold of {fold_for_turn(heading_of(to_first) - arrive):.3f} deg at \"{last.id}\" (declared "
+                 f"{fold:g}) would send it onto \"{entries[0].id}\"")
+    n = len(entries)
+    declared = [_declared_fold(placement, e) for e in entries]
+    for i, e in enumerate(entries):
+        if declared[i] is None or placement.optics[e.id].optic.kind not in FOLDING_KINDS:
+            continue
+        geometric = fold_for_turn(heading_of(pts[(i + 1) % n] - pts[i]) - heading_of(pts[i] - pts[i - 1]))
+        if abs(wrap180(geometric - declared[i])) > FOLD_TOLERANCE_DEG:
+            text += (f"; the declared and the geometric folds first part at \"{e.id}\" ({geometric:.3f} deg on the "
+                     f"table, {declared[i]:g} declared)")
+            break
+    folding = [placement.optics[e.id].optic.kind in FOLDING_KINDS for e in entries]
+    if all(d is not None for d, f in zip(declared, folding) if f):
+        total = sum(turn_for_fold(d) for d, f in zip(declared, folding) if f)
+        off = wrap180(total)
+        if abs(off) > FOLD_TOLERANCE_DEG:
+            text += (f"; the declared folds turn the beam by {total:.3f} deg in all, {off:+.3f} deg from a whole "
+                     "turn, which no choice of distances can close")
+    issues.append(GeometryIssue("ring-not-closed", text, (cav.id, last.id, entries[0].id), cav.loc, miss, 1e-3, "mm"))
+
+
+def _declared_fold(placement, entry) -> float | None:
+    optic = placement.optics[entry.id].optic
+    return entry.fold if entry.fold is not None else optic.fold
 
 
 def _trace_beam(placement: Placement, beam, tol, issues) -> PathTrace:

@@ -76,14 +76,16 @@ def _ellipticity(where: str, hit, optic, options) -> Finding | None:
     max_ratio = options["max_ratio"]
     if 1.0 / max_ratio <= ratio <= max_ratio:
         return None
-    physical = ""
+    radii = f"w_t = {w_t * 1e3:.1f} um, w_s = {w_s * 1e3:.1f} um"
     if abs(scale - 1.0) > 1e-12:
-        physical = (f"; physically {w_t / w_s:.3f} inside, where refraction at its tilted faces alone stretches the "
-                    f"tangential radius by cos t2/cos t1 = {scale:.4f}")
+        what = (f"w_t/w_s = {ratio:.3f} air-equivalent (the ratio checked; the physical radii inside, {radii}, give "
+                f"physically {w_t / w_s:.3f}: refraction at its tilted faces alone stretches the tangential radius "
+                f"by cos t2/cos t1 = {scale:.4f})")
+    else:
+        what = f"w_t/w_s = {ratio:.3f} ({radii}; here the air-equivalent and the physical radii are the same)"
     limit = max_ratio if ratio > 1.0 else 1.0 / max_ratio
     return Finding(
-        f"the mode at \"{hit.optic}\" ({where}) is elliptical: w_t/w_s = {ratio:.3f} air-equivalent "
-        f"(w_t = {w_t * 1e3:.1f} um, w_s = {w_s * 1e3:.1f} um{physical}), outside [{1.0 / max_ratio:.3f}, "
+        f"the mode at \"{hit.optic}\" ({where}) is elliptical: {what}, outside [{1.0 / max_ratio:.3f}, "
         f"{max_ratio:g}]",
         (hit.optic,), value=ratio, limit=limit, unit="w_t/w_s",
         hint="off-axis curved mirrors and tilted elements focus the two planes differently: bring the fold angles "

@@ -147,22 +147,31 @@ def check(bench, options):
             raise ValueError(f"rules.aperture-clipping.{name} must lie strictly between 0 and 1, not {value!r}")
     for kind, ident, result in paths(bench):
         for i, hit in enumerate(result.hits):
-            optic = bench.layout.optics[hit.optic]
-            if optic.diameter is None or optic.kind in NOT_CLIPPED:
+            worst = clip_loss(bench, kind, ident, result, i)
+            if worst is None or worst[0] <= max_loss:
                 continue
-            faces = surfaces(bench, kind, ident, result, i)
-            if not faces:
-                continue          # no mode in some plane: nothing to integrate
-            radius = optic.diameter / 2.0
-            worst = None
-            for f in faces:
-                loss = elliptical_loss(f.w_t, f.w_s, radius * f.cos_aperture, radius)
-                if worst is None or loss > worst[0]:
-                    worst = (loss, f)
             loss, face = worst
-            if loss <= max_loss:
-                continue
+            optic = bench.layout.optics[hit.optic]
             yield _finding(bench, kind, ident, i, hit, optic, loss, face, max_loss, error_loss)
+
+
+def clip_loss(bench, kind: str, ident: str, result, i: int):
+    """(fraction lost, Surface) at the optic's own clear aperture for hit ``i``, on the
+    face where the loss is largest; None where the optic has no aperture to clip or the
+    path has no mode in some plane.  The rule and the report's per-optic table both read it."""
+    optic = bench.layout.optics[result.hits[i].optic]
+    if optic.diameter is None or optic.kind in NOT_CLIPPED:
+        return None
+    faces = surfaces(bench, kind, ident, result, i)
+    if not faces:
+        return None          # no mode in some plane: nothing to integrate
+    radius = optic.diameter / 2.0
+    worst = None
+    for f in faces:
+        loss = elliptical_loss(f.w_t, f.w_s, radius * f.cos_aperture, radius)
+        if worst is None or loss > worst[0]:
+            worst = (loss, f)
+    return worst
 
 
 def _finding(bench, kind, ident, index, hit, optic, loss, face, max_loss, error_loss):

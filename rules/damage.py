@@ -9,6 +9,7 @@ functions below, because a LIDT figure is only meaningful with its definition.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 from benchcheck.findings import ERROR, NOTE, WARNING, Finding, Option, Rule
 
@@ -132,6 +133,87 @@ def _severity(value: float, lidt: float) -> str:
     return ERROR if value > lidt else WARNING
 
 
+@dataclass
+class Load:
+    """What one LIDT figure of an optic is compared with at one hit: the rule's finding and
+    the report's "load / LIDT" column both read this, so they cannot disagree."""
+
+    quantity: str             # "peak intensity" | "linear power density" | "peak fluence"
+    unit: str                 # W/cm^2 | W/cm | J/cm^2
+    value: float              # on the worst surface, both directions where they overlap
+    rated: float              # the LIDT it is compared with (a fluence moved to the beam's pulse and wavelength)
+    face: object              # clipping.Surface where the value is largest
+    load: str                 # how the value was formed ("2 x 3 W one-way: ...", "one pass")
+    spec: str                 # the rating as given, and how it was moved
+    caveat: str = ""          # why the comparison is only approximate
+
+
+def surface_loads(bench, kind: str, ident: str, result, i: int) -> list[Load]:
+    """Every comparison of hit ``i`` of a cavity or beam with the optic's LIDT: the peak
+    intensity on the surface against a W/cm^2 rating, the power over the smaller footprint
+    diameter against a W/cm rating, the peak fluence against a pulsed rating (for a pulsed
+    beam with a known energy).  Inner elements of a linear cavity carry both directions."""
+    hit = result.hits[i]
+    optic = bench.layout.optics[hit.optic]
+    lidt = optic.lidt
+    if lidt is None or (hit.power_w is None and hit.peak_j_cm2 is None):
+        return []
+    faces = surfaces(bench, kind, ident, result, i)
+    if not faces:
+        return []
+    pulse_s, wl_nm = _pulse(bench, kind, ident, result)
+    both = _both_directions(kind, result, i, hit)
+    out = []
+    if hit.power_w is not None:
+        power = hit.power_w * (2.0 if both else 1.0)
+        load = (f"2 x {hit.power_w:.3g} W one-way: the linear cavity's two directions overlap there" if both
+                else f"{hit.power_w:.3g} W")
+        if pulse_s is not None:
+            load = "average power " + load
+        cw_note = ""
+        if lidt.wavelength_nm is not None and abs(lidt.wavelength_nm - wl_nm) > SCALING_WAVELENGTH * lidt.wavelength_nm:
+            cw_note = f"; rated at {lidt.wavelength_nm:g} nm, used at {wl_nm:g} nm (not scaled)"
+        if lidt.w_cm2 is not None:
+            value, f = max(((surface_peak(power, f.w_t, f.w_s, f.cos_face), f) for f in faces), key=lambda x: x[0])
+            out.append(Load("peak intensity", "W/cm^2", value, lidt.w_cm2, f, load,
+                            f"LIDT {lidt.w_cm2:g} W/cm^2", cw_note))
+        if lidt.w_cm is not None:
+            value, f = max(((linear_power_density(power, f.w_t, f.w_s, f.cos_face), f) for f in faces),
+                           key=lambda x: x[0])
+            out.append(Load("linear power density", "W/cm", value, lidt.w_cm, f, load,
+                            f"LIDT {lidt.w_cm:g} W/cm", cw_note))
+    if lidt.j_cm2 is not None and pulse_s is not None and hit.peak_j_cm2 is not None:
+        value, f = max(((_face_fluence(hit, f), f) for f in faces), key=lambda x: x[0])
+        load = "one pass"
+        if both:
+            overlap, why = _overlaps(result, i, pulse_s)
+            if overlap:
+                value *= 2.0
+                load = f"2 x one pass: {why}"
+            else:
+                load = why
+        rated, approx = scaled_fluence_threshold(lidt.j_cm2, lidt.pulse_s, pulse_s, lidt.wavelength_nm, wl_nm)
+        spec = f"LIDT {lidt.j_cm2:g} J/cm^2 at {_seconds(lidt.pulse_s)}"
+        if lidt.wavelength_nm is not None:
+            spec += f", {lidt.wavelength_nm:g} nm"
+        if not math.isclose(rated, lidt.j_cm2, rel_tol=1e-12):
+            to = f"{_seconds(pulse_s)}" + (f", {wl_nm:g} nm" if lidt.wavelength_nm is not None else "")
+            spec += f" scaled to {to} ({rated:.3g} J/cm^2)"
+        if lidt.wavelength_nm is None:
+            spec += "; no rated wavelength given, not scaled in wavelength"
+        caveat = f"; the scaling is approximate here: {', '.join(approx)}" if approx else ""
+        out.append(Load("peak fluence", "J/cm^2", value, rated, f, load, spec, caveat))
+    return out
+
+
+def _both_directions(kind, result, i, hit) -> bool:
+    """In a linear cavity both directions cross every inner element.  At an end mirror the
+    arriving and the reflected beam are one reflection, as in any test of an HR coating,
+    so the one-way power is what its rating compares with."""
+    end_mirror = i in (0, len(result.hits) - 1)
+    return kind == "cavity" and hit.counter_propagating and not end_mirror
+
+
 def check(bench, options):
     factor = float(options["safety_factor"])
     if not factor > 0.0:
@@ -146,62 +228,47 @@ def check(bench, options):
             faces = surfaces(bench, kind, ident, result, i)
             if not faces:
                 continue
-            yield from _check_hit(bench, kind, ident, result, i, hit, optic, lidt, faces, pulse_s, wl_nm, factor)
+            yield from _check_hit(bench, kind, ident, result, i, hit, optic, lidt, faces, pulse_s, factor)
 
 
-def _check_hit(bench, kind, ident, result, i, hit, optic, lidt, faces, pulse_s, wl_nm, factor):
+def _check_hit(bench, kind, ident, result, i, hit, optic, lidt, faces, pulse_s, factor):
     who = f"{kind} \"{ident}\""
     target = f"{optic.kind} \"{optic.id}\""
     targets = (optic.id, ident)
     at = optic_point(bench, optic.id)
     pulsed = pulse_s is not None
-    # In a linear cavity both directions cross every inner element.  At an end mirror the
-    # arriving and the reflected beam are one reflection, as in any test of an HR coating,
-    # so the one-way power is what its rating compares with.
-    end_mirror = i in (0, len(result.hits) - 1)
-    both = kind == "cavity" and hit.counter_propagating and not end_mirror
+    for ld in surface_loads(bench, kind, ident, result, i):
+        limit = ld.rated / factor
+        if ld.value <= limit:
+            continue
+        how = ""
+        if ld.quantity == "linear power density":
+            d = footprint_diameter_cm(ld.face.w_t, ld.face.w_s, ld.face.cos_face) * 10.0
+            how = f"; divided by the smaller 1/e^2 footprint diameter, {d:.3g} mm"
+            hint = (f"a beam {ld.value / limit:.3g} times larger on this optic (W/cm falls as 1/w), "
+                    f"{limit / ld.value:.3g} times the power, or a coating rated higher")
+        else:
+            hint = _hint_size(ld.value, limit, fluence=ld.unit == "J/cm^2")
+        yield Finding(
+            f"{ld.quantity} {ld.value:.3g} {ld.unit} on {target}{_face(ld.face)}{_incidence(hit)} from {who} "
+            f"({ld.load}{how}), above the limit {limit:.3g} {ld.unit} = {ld.spec} / safety factor {factor:g}"
+            f"{ld.caveat}",
+            targets, value=ld.value, limit=limit, unit=ld.unit, severity=_severity(ld.value, ld.rated), at=at,
+            hint=hint)
     if hit.power_w is None:   # a single pulse: only its fluence is known
-        if lidt.j_cm2 is not None and pulsed:
-            yield from _pulsed(result, i, hit, target, who, targets, at, lidt, faces, pulse_s, wl_nm, factor, both)
-        return
-    power = hit.power_w * (2.0 if both else 1.0)
-    if both:
-        load = f"2 x {hit.power_w:.3g} W one-way: the linear cavity's two directions overlap there"
-    else:
-        load = f"{hit.power_w:.3g} W"
-    if pulsed:
-        load = "average power " + load
-    cw_note = ""
-    if lidt.wavelength_nm is not None and abs(lidt.wavelength_nm - wl_nm) > SCALING_WAVELENGTH * lidt.wavelength_nm:
-        cw_note = f"; rated at {lidt.wavelength_nm:g} nm, used at {wl_nm:g} nm (not scaled)"
-
-    if lidt.w_cm2 is not None:
-        value, f = max(((surface_peak(power, f.w_t, f.w_s, f.cos_face), f) for f in faces), key=lambda x: x[0])
-        limit = lidt.w_cm2 / factor
-        if value > limit:
-            yield Finding(
-                f"peak intensity {value:.3g} W/cm^2 on {target}{_face(f)}{_incidence(hit)} from {who} ({load}), "
-                f"above the limit {limit:.3g} W/cm^2 = LIDT {lidt.w_cm2:g} W/cm^2 / safety factor {factor:g}{cw_note}",
-                targets, value=value, limit=limit, unit="W/cm^2", severity=_severity(value, lidt.w_cm2), at=at,
-                hint=_hint_size(value, limit))
-    if lidt.w_cm is not None:
-        value, f = max(((linear_power_density(power, f.w_t, f.w_s, f.cos_face), f) for f in faces),
-                       key=lambda x: x[0])
-        limit = lidt.w_cm / factor
-        if value > limit:
-            d = footprint_diameter_cm(f.w_t, f.w_s, f.cos_face) * 10.0
-            yield Finding(
-                f"linear power density {value:.3g} W/cm on {target}{_face(f)}{_incidence(hit)} from {who} ({load}; "
-                f"divided by the smaller 1/e^2 footprint diameter, {d:.3g} mm), above the limit {limit:.3g} W/cm = "
-                f"LIDT {lidt.w_cm:g} W/cm / safety factor {factor:g}{cw_note}",
-                targets, value=value, limit=limit, unit="W/cm", severity=_severity(value, lidt.w_cm), at=at,
-                hint=f"a beam {value / limit:.3g} times larger on this optic (W/cm falls as 1/w), "
-                     f"{limit / value:.3g} times the power, or a coating rated higher")
-
+        if not (lidt.j_cm2 is not None and pulsed):
+            return
     has_cw = lidt.w_cm2 is not None or lidt.w_cm is not None
-    if lidt.j_cm2 is not None and pulsed:
-        yield from _pulsed(result, i, hit, target, who, targets, at, lidt, faces, pulse_s, wl_nm, factor, both)
-    elif lidt.j_cm2 is not None and not has_cw:
+    if lidt.j_cm2 is not None and pulsed and hit.peak_j_cm2 is None:
+        yield Finding(
+            f"{who} is pulsed ({_seconds(pulse_s)}) but its pulse energy is unknown (give pulse_energy_j, or "
+            f"power_w with rep_hz), so the fluence on {target} cannot be compared with its LIDT",
+            targets, severity=NOTE, at=at, hint="give the pulse energy or the repetition rate")
+    elif lidt.j_cm2 is not None and not pulsed and not has_cw:
+        both = _both_directions(kind, result, i, hit)
+        power = hit.power_w * (2.0 if both else 1.0)
+        load = (f"2 x {hit.power_w:.3g} W one-way: the linear cavity's two directions overlap there" if both
+                else f"{hit.power_w:.3g} W")
         value = max(surface_peak(power, f.w_t, f.w_s, f.cos_face) for f in faces)
         yield Finding(
             f"{target} has only a pulsed LIDT ({lidt.j_cm2:g} J/cm^2 at {_seconds(lidt.pulse_s)}), and {who} is "
@@ -209,7 +276,7 @@ def _check_hit(bench, kind, ident, result, i, hit, optic, lidt, faces, pulse_s, 
             "CW heating, so this is not checked",
             targets, value=value, unit="W/cm^2", severity=NOTE, at=at,
             hint="ask for a CW rating (W/cm or W/cm^2) of the coating")
-    if pulsed and lidt.j_cm2 is None:
+    if pulsed and lidt.j_cm2 is None and hit.power_w is not None:
         fluence = None if hit.peak_j_cm2 is None else max(_face_fluence(hit, f) for f in faces)
         what = "unknown" if fluence is None else f"{fluence:.3g} J/cm^2 per pass"
         compared = "its average power was compared with the CW rating; " if has_cw else ""
@@ -226,43 +293,6 @@ def _face_fluence(hit, f) -> float:
     return hit.peak_j_cm2 * (hit.w["t"] * hit.w["s"]) / (f.w_t * f.w_s) * f.cos_face
 
 
-def _pulsed(result, i, hit, target, who, targets, at, lidt, faces, pulse_s, wl_nm, factor, both):
-    if hit.peak_j_cm2 is None:
-        yield Finding(
-            f"{who} is pulsed ({_seconds(pulse_s)}) but its pulse energy is unknown (give pulse_energy_j, or "
-            f"power_w with rep_hz), so the fluence on {target} cannot be compared with its LIDT",
-            targets, severity=NOTE, at=at, hint="give the pulse energy or the repetition rate")
-        return
-    value, f = max(((_face_fluence(hit, f), f) for f in faces), key=lambda x: x[0])
-    load = "one pass"
-    if both:
-        overlap, why = _overlaps(result, i, pulse_s)
-        if overlap:
-            value *= 2.0
-            load = f"2 x one pass: {why}"
-        else:
-            load = why
-    rated, approx = scaled_fluence_threshold(lidt.j_cm2, lidt.pulse_s, pulse_s, lidt.wavelength_nm, wl_nm)
-    limit = rated / factor
-    if value <= limit:
-        return
-    spec = f"LIDT {lidt.j_cm2:g} J/cm^2 at {_seconds(lidt.pulse_s)}"
-    if lidt.wavelength_nm is not None:
-        spec += f", {lidt.wavelength_nm:g} nm"
-    moved = not math.isclose(rated, lidt.j_cm2, rel_tol=1e-12)
-    if moved:
-        to = f"{_seconds(pulse_s)}" + (f", {wl_nm:g} nm" if lidt.wavelength_nm is not None else "")
-        spec += f" scaled to {to} ({rated:.3g} J/cm^2)"
-    if lidt.wavelength_nm is None:
-        spec += "; no rated wavelength given, not scaled in wavelength"
-    caveat = f"; the scaling is approximate here: {', '.join(approx)}" if approx else ""
-    yield Finding(
-        f"peak fluence {value:.3g} J/cm^2 on {target}{_face(f)}{_incidence(hit)} from {who} ({load}), above the "
-        f"limit {limit:.3g} J/cm^2 = {spec} / safety factor {factor:g}{caveat}",
-        targets, value=value, limit=limit, unit="J/cm^2", severity=_severity(value, rated), at=at,
-        hint=_hint_size(value, limit, fluence=True))
-
-
 def _hint_size(value: float, limit: float, fluence: bool = False) -> str:
     grow = math.sqrt(value / limit)
     what = "pulse energy" if fluence else "power"
@@ -273,7 +303,7 @@ def _hint_size(value: float, limit: float, fluence: bool = False) -> str:
 RULES = (
     Rule(
         id="coating-damage",
-        summary="peak intensity or fluence against each optic's damage threshold times a safety factor",
+        summary="peak intensity or fluence against each optic's damage threshold divided by a safety factor",
         explanation=(
             "For every hit on an optic with a 'lidt': a CW rating in W/cm^2 is compared with the peak "
             "irradiance on the surface, 2P cos(aoi)/(pi w_t w_s) (the tilted footprint spreads the beam); a "
@@ -282,8 +312,10 @@ RULES = (
             "moving the rating to the beam's pulse length by sqrt(tau) (Stuart et al. 1996) and to its "
             "wavelength by lambda (vendor practice), flagged as approximate outside 10 ps-100 ns, over more "
             "than x10 in tau or across more than 2 % in wavelength. A crystal or plate is checked at both "
-            "faces. In a linear cavity both directions load every mirror: twice the one-way power (and twice "
-            "the fluence where a pulse overlaps its own return). A pulsed beam is checked against a CW rating "
+            "faces. In a linear cavity both directions cross every inner element (fold mirrors, crystals, "
+            "plates, lenses): twice the one-way power (and twice the fluence where a pulse overlaps its own "
+            "return). An end mirror is loaded one way: its arriving and reflected beams are one reflection, as "
+            "in the damage test of an HR coating. A pulsed beam is checked against a CW rating "
             "by its average power, and a CW beam cannot be checked against a pulsed rating alone: both are "
             "said in a note. The limit is the LIDT divided by safety_factor; above the LIDT itself the "
             "finding is an error."

@@ -11,6 +11,8 @@ KINDS = {
     "fold-mismatch": (WARNING, "move the neighbouring optics, or correct the declared fold"),
     "reflection-off-normal": (ERROR, "this path cannot reflect at that angle from a mirror oriented by another "
                                      "path: check the coordinates of both paths"),
+    "splitter-face": (ERROR, "a splitter's own 'fold' sets its face for every path; a path entry's 'fold' only "
+                             "says which branch that path follows"),
     "ring-not-closed": (ERROR, "adjust the distances or folds so the last leg returns onto the first optic"),
     "off-table": (ERROR, "move the optic (and its mount) onto the table, or enlarge [bench].size"),
     "heading-mismatch": (WARNING, "remove 'heading' where 'at' coordinates decide, or correct it"),
@@ -34,7 +36,7 @@ def check(bench, options):
                           severity=ERROR)
     if options["report_assumptions"]:
         for note in bench.placement.notes:
-            yield Finding(note, (), severity=NOTE)
+            yield Finding(str(note), getattr(note, "targets", ()), severity=NOTE, loc=getattr(note, "loc", None))
 
 
 RULES = (

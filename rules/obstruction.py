@@ -267,7 +267,7 @@ class LegSampler:
             guess = max(worst.need, HINT_STEP_MM)
         else:
             # the part of the footprint abreast of the leg, measured across the leg
-            offsets = (shapely.get_coordinates(self._abreast(poly)) - self.leg.a) @ self.normal
+            offsets = (shapely.get_coordinates(self.abreast(poly)) - self.leg.a) @ self.normal
             if offsets.size == 0:
                 offsets = (shapely.get_coordinates(poly) - self.leg.a) @ self.normal
             reach = ratio_needed * float(np.nanmax(self.w))
@@ -296,11 +296,31 @@ class LegSampler:
                 lo = mid
         return math.ceil(hi / HINT_STEP_MM - 1e-9) * HINT_STEP_MM, direction
 
-    def _abreast(self, poly: Polygon):
+    def abreast(self, poly: Polygon):
+        """The part of ``poly`` between the perpendiculars through the leg's two ends."""
         reach = self.length + float(np.hypot(*np.subtract(poly.bounds[2:], poly.bounds[:2]))) + 1.0
         a, b, n = self.leg.a, self.leg.b, self.normal * reach
         slab = Polygon([tuple(a - n), tuple(b - n), tuple(b + n), tuple(a + n)])
         return poly.intersection(slab)
+
+
+def _in_line(bench, leg: Leg, oid: str) -> bool:
+    """Whether the optic stands on the straight line through the leg (within 1 um)."""
+    p = np.asarray(bench.placement.optics[oid].point, float)
+    v = leg.b - leg.a
+    cross = v[0] * (p - leg.a)[1] - v[1] * (p - leg.a)[0]
+    return abs(float(cross)) / float(np.hypot(*v)) < 1e-3
+
+
+def _polygonal(geom):
+    """The polygonal part of a clipped footprint (a single polygon or a multipolygon);
+    None where nothing with an area is left."""
+    if geom.is_empty:
+        return None
+    if geom.geom_type in ("Polygon", "MultiPolygon"):
+        return geom if geom.area > 0 else None
+    parts = [g for g in getattr(geom, "geoms", []) if g.geom_type in ("Polygon", "MultiPolygon") and g.area > 0]
+    return shapely.union_all(parts) if parts else None
 
 
 def sampler_for(leg: Leg) -> LegSampler | None:
@@ -347,7 +367,12 @@ def check(bench, options):
             oid = ids[k]
             if oid in leg.exempt:
                 continue
-            poly = shapes[k]
+            # light on this leg travels between its two ends only: what lies behind its start
+            # or beyond its end (a lens just behind the fold mirror the leg starts at) cannot
+            # clip it, only the part of the footprint abreast of the leg
+            poly = _polygonal(sampler.abreast(shapes[k]))
+            if poly is None:
+                continue
             worst = sampler.worst(poly, ratio_needed)
             if worst is None:
                 continue
@@ -381,6 +406,11 @@ def _finding(bench, leg, sampler, oid, poly, worst, fraction, limit, error_at, r
     thing = f"obstacle \"{oid}\"" if optic.kind == "obstacle" else f"\"{oid}\""
     if move is None:
         hint = f"re-route {leg.label} away from {thing}, or move {thing} out of its way"
+    elif oid in leg.members and _in_line(bench, leg, oid):
+        # on the straight line of this leg there is no angle between legs to open
+        hint = (f"\"{oid}\" is on this path elsewhere, in line with this leg: if the beam passes through it here, "
+                f"list it in the path at this place too; else move it, or give it a mount that stays "
+                f"{ratio_needed:.2f} beam radii clear of this leg (a clipped fraction below {limit:g})")
     elif oid in leg.members:
         # the optic is on this path elsewhere: moving it moves the path; its mount or the
         # angle between the legs is what can change
@@ -405,7 +435,9 @@ RULES = (
         explanation=(
             "Every leg of every cavity (a ring's closing leg too) and of every [[beam]] (from its source, between "
             "its optics, and the stretch it is traced on past its last optic) is checked against every footprint "
-            "on the table: mounts and obstacles. The two elements at the ends of a leg are exempt on that leg; "
+            "on the table: mounts and obstacles, the part of each that lies abreast of the leg (between the "
+            "perpendiculars through its ends: light on the leg goes nowhere else). The two elements at the ends "
+            "of a leg are exempt on that leg; "
             "other optics of the same path are not (the far mirror of a Z-fold beside the first leg). Along the "
             "leg the signed clearance delta from the beam axis to the footprint and the local 1/e^2 radius w in "
             "the table (tangential) plane give the power beyond a straight edge, 1/2 erfc(sqrt(2) delta / w) "

@@ -324,3 +324,43 @@ def test_a_folder_search_skips_configuration_files(tmp_path, capsys):
     (tmp_path / "layouts" / "pyproject.toml").write_text('[project]\nname = "x"\n')
     code, out, err = run(capsys, tmp_path, "--format", "json")
     assert json.loads(out)["files"] == [str(path)] and code == 0
+
+
+def test_summary_counts_unreadable_layouts_and_configuration_errors(tmp_path, capsys):
+    good = write(tmp_path)
+    bad = write(tmp_path, layout="format = 1\n[bench]\nname = 3\n", name="bad.toml")
+    code, out, _ = run(capsys, good, bad)
+    assert code == 2
+    # the leak warning of the good layout, and the bad layout counted as an error
+    assert re.search(r"^1 error \(1 layout could not be read or solved\), 1 warning, 0 notes in 2 layouts$",
+                     out, re.M), out
+    other = tmp_path / "other"    # a fresh folder: the configuration is read once per path and run
+    other.mkdir()
+    good = write(other, config=OPEN_LAB + '[rules.no-such-rule]\nenabled = false\n')
+    code, out, _ = run(capsys, good)
+    assert code == 2
+    assert re.search(r"^1 error \(1 problem with the configuration or plugins\), 1 warning", out, re.M), out
+
+
+def test_github_annotations_carry_the_hint(tmp_path, capsys):
+    _, out, _ = run(capsys, write(tmp_path), "--format", "github")
+    first = out.splitlines()[0]
+    # a newline inside an annotation's message is written %0A (GitHub's workflow-command escaping)
+    assert "%0Ahint: put a beam dump or block in its way" in first, first
+
+
+def test_missing_matplotlib_names_both_ways_to_install(tmp_path, capsys, monkeypatch):
+    import builtins
+
+    real_import = builtins.__import__
+
+    def no_matplotlib(name, *args, **kwargs):
+        if name == "matplotlib" or name.startswith("matplotlib."):
+            raise ImportError("No module named 'matplotlib'")
+        return real_import(name, *args, **kwargs)
+
+    monkeypatch.setattr(builtins, "__import__", no_matplotlib)
+    code = main(["report", str(write(tmp_path)), "-o", str(tmp_path / "r.html")])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert 'pip install "benchcheck[report]"' in err and 'source checkout' in err and 'pip install ".[report]"' in err

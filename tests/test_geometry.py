@@ -124,17 +124,21 @@ path = ["M1", { id = "M2", distance = 200.0, fold = 90.0 }, { id = "M3", distanc
     assert issue.value == pytest.approx(200.0 * math.sin(math.radians(5.0)), rel=1e-9)
 
 
-def test_closed_relative_ring_has_no_issue():
-    text = HEAD + mirror("M1", (500.0, 500.0), extra="fold = 90.0\n") + mirror("M2") + mirror("M3") + mirror("M4") + """
+def square_ring(m2_fold: float = 90.0, m4_fold: float = 90.0) -> str:
+    """A square ring of 200 mm sides placed relatively from M1 (declared fold 90)."""
+    return HEAD + mirror("M1", (500.0, 500.0), extra="fold = 90.0\n") + mirror("M2") + mirror("M3") + mirror("M4") + f"""
 [[cavity]]
 id = "r"
 kind = "ring"
 heading = 0.0
 wavelength_nm = 1000
-path = ["M1", { id = "M2", distance = 200.0, fold = 90.0 }, { id = "M3", distance = 200.0, fold = 90.0 },
-        { id = "M4", distance = 200.0, fold = 90.0 }]
+path = ["M1", {{ id = "M2", distance = 200.0, fold = {m2_fold!r} }}, {{ id = "M3", distance = 200.0, fold = 90.0 }},
+        {{ id = "M4", distance = 200.0, fold = {m4_fold!r} }}]
 """
-    sol = solve_text(text)
+
+
+def test_closed_relative_ring_has_no_issue():
+    sol = solve_text(square_ring())
     assert sol.trace.issues == []
     assert sol.cavities["r"].round_trip_mm == pytest.approx(800.0)
 
@@ -199,3 +203,95 @@ path = ["M2"]
     hit = sol.trace.beams["pump"].hits[0]
     assert math.degrees(hit.aoi) == pytest.approx(180.0 - (112.5 + 45.0), abs=1e-9)
     assert hit.action == "end" or hit.action == "transmit"
+
+
+SPLITTER = HEAD + """
+[[optic]]
+id = "BS"
+kind = "splitter"
+at = [200.0, 100.0]
+reflectivity = 0.5
+{face}
+[[optic]]
+id = "D1"
+kind = "dump"
+at = [400.0, 100.0]
+
+[[optic]]
+id = "D2"
+kind = "dump"
+
+[[source]]
+id = "S1"
+at = [50.0, 100.0]
+heading = 0.0
+wavelength_nm = 633
+power_w = 0.0001
+waist = 0.5
+
+[[source]]
+id = "S2"
+at = [200.0, 300.0]
+heading = -90.0
+wavelength_nm = 633
+power_w = 0.0001
+waist = 0.5
+
+[[beam]]
+id = "a"
+from = "S1"
+path = ["BS", "D1"]
+
+[[beam]]
+id = "b"
+from = "S2"
+path = [{{ id = "BS", fold = 90.0 }}, {{ id = "D2", distance = 150.0 }}]
+"""
+
+
+def test_splitter_face_names_the_splitters_fold_and_its_line():
+    """Beam "a" passes BS along +x and sets its face: with the default 90 deg fold the
+    reflected branch of "a" would leave along +y, so the normal is along (-1, 1).  Beam "b"
+    comes down (-y) and its entry's fold = 90 sends it along +x; the law of reflection
+    off that face sends it along -x instead, 180 deg away.  The face that reflects -y into
+    +x has its normal along (1, 1); off it "a" (+x) reflects into -y, a right turn of 90
+    deg: fold = -90 (plane geometry, computed here)."""
+    sol = solve_text(SPLITTER.format(face=""))
+    issue = next(i for i in sol.trace.issues if i.kind == "splitter-face")
+    assert issue.value == pytest.approx(180.0)
+    assert "its own 'fold' key, which is not given" in issue.message
+    assert "'fold = -90' on \"BS\"" in issue.message
+    assert issue.loc.line == 6            # the splitter's [[optic]] table, not [bench]
+    assert not [i for i in sol.trace.issues if i.kind == "reflection-off-normal"]
+    note = next(n for n in sol.placement.notes if "BS" in n)
+    assert note.loc.line == 6 and note.targets == ("BS",)
+    # with the suggested face the geometry is consistent
+    fixed = solve_text(SPLITTER.format(face="fold = -90.0\n"))
+    assert not [i for i in fixed.trace.issues if i.kind in ("splitter-face", "reflection-off-normal", "fold-mismatch")]
+
+
+def test_a_splitters_fold_is_checked_on_the_path_that_sets_its_face():
+    # beam "a" reflects at BS by its entry's fold = 90 while BS says fold = -90: the
+    # geometry follows the entry, so BS's own key disagrees by 180 deg
+    text = SPLITTER.format(face="fold = -90.0\n").replace('path = ["BS", "D1"]',
+                                                         'path = [{ id = "BS", fold = 90.0 }, { id = "D3", distance = 100.0 }]')
+    text += '[[optic]]\nid = "D3"\nkind = "dump"\n'
+    sol = solve_text(text)
+    bad = [i for i in sol.trace.issues if i.kind == "fold-mismatch" and i.targets == ("BS", "a")]
+    assert len(bad) == 1 and bad[0].limit == -90.0 and bad[0].loc.line == 11   # BS's fold key
+
+
+def test_ring_not_closed_says_which_fold_closes_it_and_where_folds_part():
+    # the square ring of test_ring_that_does_not_close_reports_the_miss, with M1 declared
+    # 90 deg: M4 declared 95 deg sends the beam 5 deg off M1, and 90 deg would close it
+    # (a square turns by 90 deg at each corner, plane geometry); the declared folds turn
+    # by 90 + 90 + 85 + 90 = 355 deg, 5 deg short of a whole turn
+    text = square_ring(m4_fold=95.0)
+    issue = [i for i in solve_text(text).trace.issues if i.kind == "ring-not-closed"][0]
+    assert "a fold of 90.000 deg at \"M4\" (declared 95) would send it onto \"M1\"" in issue.message
+    assert "first part at \"M4\" (90.000 deg on the table, 95 declared)" in issue.message
+    assert "turn the beam by 355.000 deg in all, -5.000 deg from a whole turn" in issue.message
+    # the mistake made earlier, at M2 (85 instead of 90, a turn of 180 - 85 = 95 deg): the
+    # ring follows the declared folds up to M4, and the total, 365 deg, shows the 5 deg
+    issue = [i for i in solve_text(square_ring(m2_fold=85.0)).trace.issues if i.kind == "ring-not-closed"][0]
+    assert "turn the beam by 365.000 deg in all, +5.000 deg from a whole turn" in issue.message

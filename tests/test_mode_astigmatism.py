@@ -211,6 +211,10 @@ def test_ellipticity_at_the_crystal_output_coupler_and_output_beam():
     assert x.limit == pytest.approx(1 / 1.1)
     physical = N_XTAL * r["t"]["centre"] / r["s"]["centre"]
     assert f"physically {physical:.3f}" in x.message
+    # which ratio is which: the checked one is the air-equivalent ratio, the radii printed
+    # beside it are the physical ones
+    assert f"w_t/w_s = {x.value:.3f} air-equivalent (the ratio checked; the physical radii inside, w_t = " in x.message
+    assert "air-equivalent and the physical radii are the same" in found["OC"].message
     assert found["OC"].value == pytest.approx(r["t"]["oc"] / r["s"]["oc"], rel=1e-6)
     assert found["OC"].limit == 1.1
     assert found["D1"].value == pytest.approx(r["t"]["out"] / r["s"]["out"], rel=1e-6)

@@ -313,3 +313,61 @@ def test_a_single_pulse_is_checked_by_its_fluence():
                      pulse_s=10e-9))
     (f,) = [x for x in found if x.unit == "J/cm^2"]
     assert f.value == pytest.approx(2.546479, rel=1e-6) and f.severity == ERROR
+
+
+def _report_row(text: str, optic_id: str) -> list[str]:
+    """The cells of the report's per-optic row for ``optic_id`` (the first such row)."""
+    import re
+
+    from benchcheck.report_html import Report
+
+    sol = solve_text(text)
+    html = Report(Bench(sol.layout, sol, Config().limits), [], None, _PACK.rules)._optics()
+    for row in re.findall(r"<tr>(.*?)</tr>", html):
+        cells = [re.sub(r"<[^>]+>", "", c) for c in re.findall(r"<td>(.*?)</td>", row)]
+        if cells and cells[0] == optic_id:
+            return cells
+    raise AssertionError(f"no row for {optic_id}")
+
+
+def test_the_reports_load_column_is_the_rules_value_over_the_lidt():
+    # the fold mirror of the two-directions test: the rule compares 2 x the one-way peak
+    # (both directions) with the rating; the report's "load / LIDT" column must show that
+    # same number over the LIDT, not the one-way half of it
+    text = layout(
+        mirror("M1", 500.0, at=[1000.0, 1000.0], diameter=25.4),
+        mirror("FM", None, diameter=25.4, lidt={"w_cm2": 2e5}),
+        mirror("M2", 500.0, reflectivity=0.99, diameter=25.4),
+        cavity("c", "linear", ["M1", rel("FM", 125.0, 10.0), rel("M2", 125.0)], WL_NM, heading=0.0,
+               output_coupler="M2", output_power_w=1.0),
+    )
+    (f,) = run(text)
+    cells = _report_row(text, "FM")
+    assert float(cells[-1]) == pytest.approx(f.value / 2e5, abs=0.005)
+    assert f.value / 2e5 > 0.8          # the one-way half (about 0.43) would be far off
+
+
+def test_the_reports_clip_loss_is_the_rules_worst_face():
+    # a Brewster plate of 1.2 mm clear aperture: inside, the beam crosses the aperture at the
+    # refraction angle, so aperture-clipping sees it shortened by cos(theta') in the table
+    # plane, on the face where the beam is largest; the report's clip-loss column shows the
+    # same number
+    text = layout(
+        source("S", at=[0.0, 500.0], heading=0.0, wavelength_nm=WL_NM, power_w=1.0, waist=0.5, waist_at=300.0),
+        optic("P", "plate", diameter=1.2, thickness=3.0, index=1.5, faces="brewster"),
+        optic("D", "dump"),
+        beam("b", "S", [rel("P", 100.0), rel("D", 300.0)]),
+        size=(2000.0, 2000.0),
+    )
+    sol = solve_text(text)
+    clip_rule = _PACK.rules["aperture-clipping"][0]
+    (f,) = clip_rule.check(Bench(sol.layout, sol, Config().limits), clip_rule.defaults())
+    cells = _report_row(text, "P")
+    assert float(cells[-2]) == pytest.approx(f.value, rel=0.006)     # printed to 3 figures
+
+
+def test_the_rules_words_match_what_it_computes():
+    # the limit is LIDT / safety factor (the check divides), and end mirrors are loaded one way
+    assert "divided by a safety factor" in RULE.summary and "times a safety factor" not in RULE.summary
+    assert "end mirror is loaded one way" in RULE.explanation
+    assert "load every mirror" not in RULE.explanation

@@ -317,3 +317,33 @@ def test_a_beam_leaving_a_cavity_passes_its_own_output_coupler_mount():
     assert f.value == pytest.approx(edge(0.7, w), rel=1e-4)
     # power out: P_out = 1 W
     assert numbers(f.message, "about") == pytest.approx(1.0 * f.value, rel=1e-2)
+
+
+def _pump_line(second_pass: bool = False) -> str:
+    """A 3.5 mm pump beam through a lens L1 (mount 25.4 mm deep, centred on it) and, 20 mm
+    on, an aperture A: the lens mount ends 7.3 mm behind A, on the axis of the leg A -> D."""
+    if second_pass:     # back from a mirror at 300 mm through the line of L1 to a dump behind S
+        parts = [optic("M", "mirror", at=[300.0, 500.0]), optic("D", "dump", at=[-50.0, 500.0]),
+                 beam("pump", "S", ["L1", {"id": "M", "fold": 0.0}, "D"])]
+    else:
+        parts = [optic("A", "aperture", at=[120.0, 500.0], diameter=25.0, mount={"size": [40.0, 4.0]}),
+                 optic("D", "dump", at=[400.0, 500.0]), beam("pump", "S", ["L1", "A", "D"])]
+    return layout(
+        source("S", at=[0.0 if not second_pass else -20.0, 500.0], heading=0.0, wavelength_nm=808.0,
+               power_w=5.0, waist=3.5 if not second_pass else 0.5),
+        optic("L1", "lens", at=[100.0, 500.0], focal_length=1000.0, diameter=25.4),
+        *parts, size=(1000.0, 1000.0))
+
+
+def test_a_mount_behind_the_start_of_a_leg_does_not_clip_it():
+    # before the fix the leg A -> D was "clipped" by L1 7.3 mm behind its start (a 3.4 mm
+    # beam: 1/2 erfc(sqrt 2 * 7.3 / 3.43) = 1e-5 > 1e-6): light on that leg never goes there
+    assert [f for f in run(_pump_line()) if "L1" in f.targets] == []
+
+
+def test_a_footprint_abreast_of_the_leg_is_still_found_and_no_angle_hint_on_a_straight_line():
+    # a second pass back through the line of L1 (not listed on that leg): L1's mount is abreast
+    # of the leg M -> D and in line with it; there is no angle between legs to open
+    found = [f for f in run(_pump_line(second_pass=True)) if f.targets[0] == "L1"]
+    assert found and found[0].severity == "error"
+    assert "open the angle" not in found[0].hint and "in line with this leg" in found[0].hint
