@@ -199,9 +199,10 @@ def cavity_text(c: CavityResult) -> list[str]:
     lines = [f"cavity {c.id} ({c.kind}{', passive' if c.passive else ''})"]
     for p, name in ((TANGENTIAL, "tangential"), (SAGITTAL, "sagittal")):
         mode = c.modes[p]
-        margin = 1.0 - abs(mode.m)
+        margin = 1.0 - abs(mode.m) if mode.margin is None else mode.margin
+        shown = f"{margin:.4f}" if abs(margin) >= 1e-4 or margin == 0.0 else f"{margin:.2e}"
         state = STATUS_LABEL[mode.status]
-        lines.append(f"  {name:<10}  m = {mode.m:+.6f}  margin 1-|m| = {margin:.4f}  {state}"
+        lines.append(f"  {name:<10}  m = {mode.m:+.6f}  margin 1-|m| = {shown}  {state}"
                      + (f"  Gouy {c.gouy_deg(p):.2f} deg  TMS {fmt_si(c.tms_hz(p), 'Hz')}" if mode.gouy is not None else ""))
         if mode.status != "stable":
             lines.append(f"    {STATUS_TEXT[mode.status]}")

@@ -19,7 +19,13 @@ import numpy as np
 
 from .abcd import half_trace
 
-#: |m| within this of 1 is "on the boundary"; so are matrix entries this close to +-I.
+#: Rounding allowance of the discriminant, relative to the round trip's first-order
+#: distance from +-I (see ``discriminant``): a few hundred units in the last place.
+ROUNDING = 1e-13
+#: A round trip on the boundary whose entries (B, C scaled by the cavity length) are this
+#: close to +-I retraces every ray.
+RETRACE_TOL = 1e-9
+#: Kept for callers that compare |m| with 1 directly.
 BOUNDARY_TOL = 1e-9
 
 STABLE = "stable"
@@ -48,59 +54,98 @@ STATUS_TEXT = {
 }
 
 
+def discriminant(matrix, length_scale=1.0):
+    """(m^2 - 1, its rounding allowance) of round-trip matrices (..., 2, 2).
+
+    With det = 1, m^2 - 1 = ((A - D)/2)^2 + B C.  Near +-I (a near-confocal cavity, L = R(1 +
+    eps)) 1 - |m| is O(eps^2) while A - D, B and C are O(eps): taken from m, the margin
+    drowns in the rounding of A + D once eps is below 1e-8; taken from the entries, each
+    term is a product of two O(eps) numbers and keeps its relative accuracy down to eps of
+    about 1e-15.  The allowance is ``ROUNDING`` times those first-order terms (B and C
+    scaled by ``length_scale``), so the boundary band and the +-I test below agree: a round
+    trip within the band is within about ``ROUNDING`` of +-I or on a walk-off edge.
+    """
+    matrix = np.asarray(matrix, dtype=float)
+    scale = np.maximum(np.asarray(length_scale, dtype=float), 1e-30)
+    a, b = matrix[..., 0, 0], matrix[..., 0, 1] / scale
+    c, d = matrix[..., 1, 0] * scale, matrix[..., 1, 1]
+    half_diff = (a - d) / 2.0
+    disc = half_diff * half_diff + b * c
+    allowance = ROUNDING * (np.abs(half_diff) + np.abs(b) + np.abs(c))
+    return disc, allowance
+
+
 def classify(matrix: np.ndarray, length_scale: float) -> str:
-    """Stability class of one round-trip matrix; ``length_scale`` (mm) sets the B, C tolerance."""
+    """Stability class of one round-trip matrix; ``length_scale`` (mm) scales B and C.
+
+    Stable when m^2 - 1 < 0 beyond its rounding allowance (|m| < 1 by any margin the
+    numbers resolve), unstable when > 0; otherwise on the boundary, where a round trip of
+    +-I retraces and any other walks off."""
+    disc, allowance = (float(x) for x in discriminant(matrix, length_scale))
+    if disc < -allowance:
+        return STABLE
+    if disc > allowance:
+        return UNSTABLE
     m = float(half_trace(matrix))
-    if abs(abs(m) - 1.0) > BOUNDARY_TOL:
-        return STABLE if abs(m) < 1.0 else UNSTABLE
     sign = 1.0 if m > 0 else -1.0
     scale = max(length_scale, 1e-30)
     a, b = matrix[0, 0], matrix[0, 1]
     c, d = matrix[1, 0], matrix[1, 1]
     near_identity = (
-        abs(a - sign) < 1e-7
-        and abs(d - sign) < 1e-7
-        and abs(b) < 1e-7 * scale
-        and abs(c) * scale < 1e-7
+        abs(a - sign) < RETRACE_TOL
+        and abs(d - sign) < RETRACE_TOL
+        and abs(b) < RETRACE_TOL * scale
+        and abs(c) * scale < RETRACE_TOL
     )
     return MARGINAL_RETRACE if near_identity else MARGINAL_WALKOFF
 
 
-def is_stable(matrix) -> np.ndarray:
-    """Vectorised strict test |m| < 1 (boundary cases count as not stable)."""
-    return np.abs(half_trace(matrix)) < 1.0 - BOUNDARY_TOL
+def is_stable(matrix, length_scale=1.0) -> np.ndarray:
+    """Vectorised strict test (boundary cases count as not stable), as ``classify``."""
+    disc, allowance = discriminant(matrix, length_scale)
+    return disc < -allowance
+
+
+def margin(matrix, length_scale=1.0):
+    """1 - |m| from the discriminant: (1 - m^2) / (1 + |m|), accurate near +-I."""
+    disc, _ = discriminant(matrix, length_scale)
+    return -disc / (1.0 + np.abs(half_trace(matrix)))
 
 
 def eigen_q(matrix):
-    """Self-reproducing q^ of a stable round trip (NaN where |m| >= 1 or B = 0)."""
-    m = half_trace(matrix)
+    """Self-reproducing q^ of a stable round trip (NaN where not stable or B = 0)."""
     a = matrix[..., 0, 0]
     b = matrix[..., 0, 1]
     d = matrix[..., 1, 1]
+    disc, _ = discriminant(matrix)
     with np.errstate(invalid="ignore", divide="ignore"):
-        root = np.sqrt(1.0 - m**2)
+        root = np.sqrt(-disc)
         inv_q = (d - a) / (2.0 * b) - 1j * root / np.abs(b)
         q = 1.0 / inv_q
-    ok = (np.abs(m) < 1.0) & (b != 0)
+    ok = (disc < 0) & (b != 0)
     return np.where(ok, q, np.nan + 1j * np.nan)
 
 
 def gouy_round_trip(matrix):
-    """Round-trip Gouy phase in radians with the branch chosen by the sign of B."""
-    m = np.clip(half_trace(matrix), -1.0, 1.0)
+    """Round-trip Gouy phase in radians with the branch chosen by the sign of B;
+    arccos(m) as atan2(sqrt(1 - m^2), m), so that it stays accurate near m = +-1."""
+    m = half_trace(matrix)
     b = matrix[..., 0, 1]
-    base = np.arccos(m)
+    disc, _ = discriminant(matrix)
+    base = np.arctan2(np.sqrt(np.maximum(-disc, 0.0)), m)
     return np.where(b < 0, 2.0 * np.pi - base, base)
 
 
 @dataclass(frozen=True)
 class PlaneMode:
-    """Result for one plane: status, half-trace, q^ at the reference plane, Gouy (rad)."""
+    """Result for one plane: status, half-trace, q^ at the reference plane, Gouy (rad),
+    and 1 - |m| computed from the discriminant (resolved where m itself rounds to +-1)."""
 
     status: str
     m: float
     q: complex | None
     gouy: float | None
+    margin: float | None = None
 
     @property
     def stable(self) -> bool:
@@ -112,13 +157,14 @@ def solve_plane(round_trip: np.ndarray, length_scale: float, halves=()) -> Plane
     +-I boundary the first stable half whose eigenmode exists gives the mode."""
     status = classify(round_trip, length_scale)
     m = float(half_trace(round_trip))
+    edge = float(margin(round_trip, length_scale))
     if status == STABLE:
-        return PlaneMode(status, m, complex(eigen_q(round_trip)), float(gouy_round_trip(round_trip)))
+        return PlaneMode(status, m, complex(eigen_q(round_trip)), float(gouy_round_trip(round_trip)), edge)
     if status == MARGINAL_RETRACE:
         for h1, h2 in halves:
             if classify(h1, length_scale) == STABLE and classify(h2, length_scale) == STABLE:
                 q = complex(eigen_q(h1))
                 gouy = float(gouy_round_trip(h1) + gouy_round_trip(h2))
-                return PlaneMode(status, m, q, gouy)
-        return PlaneMode(status, m, None, None)
-    return PlaneMode(status, m, None, None)
+                return PlaneMode(status, m, q, gouy, 0.0)
+        return PlaneMode(status, m, None, None, 0.0)
+    return PlaneMode(status, m, None, None, edge)

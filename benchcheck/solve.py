@@ -7,21 +7,20 @@ what to multiply and where to look.
 
 from __future__ import annotations
 
-import itertools
 import math
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import abcd, gauss, resonator
+from . import abcd, bernstein, gauss, resonator
 from .abcd import PLANES, SAGITTAL, TANGENTIAL
 from .coatings import absorption_at, pass_factor, reflectivity_at, transmission
 from .model import Cavity, Layout, LayoutError
 from .placement import Placement, place
 from .trace import REFLECT, TRANSMIT, PathTrace, Stray, Trace, trace
 from .unfold import (
-    Marker, Space, Train, beam_train, cavity_train, extent, overlap_issues,
-    substrate_steps, thermal_range,
+    Marker, Space, Thin, Train, beam_train, cavity_train, extent, overlap_issues,
+    substrate_steps, thermal_design_power, thermal_range,
 )
 
 SPEED_OF_LIGHT_MM_S = 299_792_458_000.0
@@ -53,9 +52,9 @@ class WaistResult:
 
 @dataclass
 class ThermalScan:
-    """Stability over the whole thermal-lens range (every corner of the range box)."""
+    """Stability over the whole thermal-lens range box (the crystals whose lens is a range)."""
 
-    lenses: dict               # crystal id -> {plane: (f_min, f_max) mm}
+    lenses: dict               # crystal id -> {plane: (f_min, f_max) mm, None for a fixed lens}
     design_f: dict             # crystal id -> {plane: f used for the table (mm)}
     stable: dict               # plane -> bool over the whole range
     m_range: dict              # plane -> (min m, max m)
@@ -253,27 +252,18 @@ def _dedupe_waists(plane: str, raw, tol: float = 1e-6) -> list[WaistResult]:
 
 # --- cavities ---------------------------------------------------------------------------
 
-#: Grid points per thermal lens when several lenses are scanned together (their product is
-#: kept near a few thousand round trips).
-_GRID_BUDGET = 4096
-
-
-def _scan_powers(ranges: list[tuple[float, float]]) -> np.ndarray:
-    """Dioptric powers to evaluate, one row per sample, one column per lens."""
-    n = len(ranges)
-    per_axis = 257 if n == 1 else max(5, int(round(_GRID_BUDGET ** (1.0 / n))))
-    axes = [np.linspace(lo, hi, per_axis) if hi > lo else np.array([lo]) for lo, hi in ranges]
-    return np.array(list(itertools.product(*axes)))
-
-
 def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan | None:
-    """Stability over every thermal-lens power in range.
+    """Stability over every thermal-lens power in range, exactly.
 
-    In a ring each lens is passed once and m is linear in its power, so the ends bound it.
-    In a linear cavity each lens is passed twice and m is quadratic in its power: two
-    stable ends can hide an unstable middle (the gap between two stability zones).  One
-    lens: m(P) is sampled and its exact extremum (the vertex of the parabola through three
-    samples) added.  Several lenses: a grid over the box.
+    The half-trace m is a polynomial in the lens powers of the crystals whose lens is a
+    range (a crystal with one fixed focal length is part of the cavity, not a scan axis),
+    of degree in each power the number of times the round trip passes that lens (two in a
+    linear cavity, one in a ring).  It is evaluated at (degree + 1) powers per lens and
+    bounded over the whole range box in the Bernstein form (``bernstein``): the extremes
+    of m are found to 1e-12 with a proof that nothing in the box lies beyond them, for any
+    number of lenses.  Where an extreme reaches |m| = 1, the round trip there is classified
+    like any cavity: touching the boundary with a round trip of +-I (the confocal-like
+    point) retraces every ray and does not break the range.
     """
     crystals = [h.optic for h in path.hits if layout.optics[h.optic].kind == "crystal"
                 and any(thermal_range(layout.optics[h.optic], p) for p in PLANES)]
@@ -283,34 +273,35 @@ def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan 
     lenses, design = {}, {}
     stable, m_range = {}, {}
     for plane in PLANES:
-        ranges = []
+        axes, ranges = [], []
         for cid in crystals:
             vals = thermal_range(layout.optics[cid], plane) or ()
-            lenses.setdefault(cid, {})[plane] = (min(vals), max(vals)) if vals else None
-            powers = [1.0 / f for f in vals] or [0.0]
-            ranges.append((min(powers), max(powers)))
-            design.setdefault(cid, {})[plane] = (1.0 / (sum(powers) / len(powers))
-                                                 if sum(powers) else math.inf)
-        samples = _scan_powers(ranges)
-        mats = _round_trips(layout, path, plane, crystals, samples)
-        if len(crystals) == 1 and ranges[0][1] > ranges[0][0]:
-            lo, hi = ranges[0]
-            p3 = np.array([lo, (lo + hi) / 2.0, hi])
-            m3 = abcd.half_trace(_round_trips(layout, path, plane, crystals, p3[:, None]))
-            curv = m3[0] - 2.0 * m3[1] + m3[2]
-            if abs(curv) > 1e-15:
-                h = (hi - lo) / 2.0
-                vertex = p3[1] - h * (m3[2] - m3[0]) / (2.0 * curv)
-                if lo < vertex < hi:
-                    mats = np.concatenate([mats, _round_trips(layout, path, plane, crystals, np.array([[vertex]]))])
-        m = abcd.half_trace(mats)
+            design.setdefault(cid, {})[plane] = (1.0 / thermal_design_power(vals)
+                                                 if thermal_design_power(vals) else math.inf)
+            powers = [1.0 / f for f in vals]
+            ranged = len(powers) > 1 and max(powers) > min(powers)
+            lenses.setdefault(cid, {})[plane] = (min(vals), max(vals)) if ranged else None
+            if ranged:
+                axes.append(cid)
+                ranges.append((min(powers), max(powers)))
+        degrees = [sum(1 for st in trains[plane].steps if isinstance(st, Thin) and st.thermal == cid)
+                   for cid in axes]
+        low = np.array([r[0] for r in ranges])
+        span = np.array([r[1] - r[0] for r in ranges])
+
+        def round_trips(unit):
+            return _round_trips(layout, path, plane, axes, low + np.atleast_2d(unit) * span)
+
+        coef = bernstein.coefficients(abcd.half_trace(round_trips(bernstein.nodes(degrees))), degrees)
+        lowest, highest = bernstein.value_range(coef)
         scale = max(_reduced_length(trains[plane]), 1e-9)
-        edge = np.abs(m) >= 1.0 - resonator.BOUNDARY_TOL
-        # touching |m| = 1 with a round trip of +-I (as at the confocal point) retraces every
-        # ray and is stable on both sides: not a break in the range (DESIGN section 4)
-        stable[plane] = all(resonator.classify(mats[i], scale) == resonator.MARGINAL_RETRACE
-                            for i in np.flatnonzero(edge))
-        m_range[plane] = (float(np.min(m)), float(np.max(m)))
+        ok = True
+        for ext, beyond in ((highest, highest.bound >= 1.0), (lowest, lowest.bound <= -1.0)):
+            if beyond:
+                status = resonator.classify(round_trips(ext.point)[0], scale)
+                ok = ok and status in (resonator.STABLE, resonator.MARGINAL_RETRACE)
+        stable[plane] = ok
+        m_range[plane] = (lowest.value, highest.value)
     return ThermalScan(lenses, design, stable, m_range)
 
 
