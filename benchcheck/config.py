@@ -224,7 +224,7 @@ def _exposure(table, fail, unknown) -> Policy:
                     raise fail(path, f"exposure.mpe key '{nm}' must be a wavelength in nm, e.g. 1550")
                 if not isinstance(entry, dict) or not entry:
                     raise fail(path, f"exposure.mpe.{nm} must be a table such as {{ w_cm2 = 0.1 }} "
-                                     "(CW) or {{ j_cm2 = 1e-6 }} (per pulse)")
+                                     "(CW) or { j_cm2 = 1e-6 } (per pulse)")
                 for k, v in entry.items():
                     if k not in MPE_KEYS:
                         raise unknown(k, MPE_KEYS, f"exposure.mpe.{nm}", path + (k,))

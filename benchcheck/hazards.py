@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from shapely.geometry import LineString, Polygon
+from shapely.ops import unary_union
 
 from . import exposure, gauss
 from .abcd import PLANES
@@ -112,6 +113,7 @@ class Segment:
     end_id: str | None = None
     end_zone_kind: str | None = None
     inside_enclosure: bool = False
+    open_mm: float | None = None       # length outside every enclosure
     beam: tuple[Gaussian, ...] = ()    # per plane, at the start (segments that run off only)
     # --- the judgement ---
     exposure_s: float | None = None
@@ -183,14 +185,28 @@ def enclosures(layout) -> list[Polygon]:
     return [Polygon(z.polygon) for z in layout.zones if z.kind == "enclosure"]
 
 
-def enclosed(polys: list[Polygon], points) -> bool:
-    """A stretch of beam is enclosed when one enclosure covers all of it."""
+def _line(points):
     pts = [tuple(map(float, p)) for p in points]
-    geom = LineString(pts) if len(pts) > 1 and pts[0] != pts[-1] else None
-    if geom is None:
-        from shapely.geometry import Point
-        geom = Point(pts[0])
-    return any(p.covers(geom) for p in polys)
+    if len(pts) > 1 and pts[0] != pts[-1]:
+        return LineString(pts)
+    from shapely.geometry import Point
+    return Point(pts[0])
+
+
+def enclosed(polys: list[Polygon], points) -> bool:
+    """A stretch of beam is enclosed when the enclosures together cover all of it (two
+    boxes that abut count as one cover)."""
+    if not polys:
+        return False
+    return unary_union(polys).covers(_line(points))
+
+
+def open_length(polys: list[Polygon], points) -> float:
+    """How much of a stretch (mm) no enclosure covers."""
+    line = _line(points)
+    if not polys:
+        return float(line.length)
+    return float(line.difference(unary_union(polys)).length)
 
 
 def tail_power(layout, b, wavelength_nm):
@@ -298,7 +314,7 @@ def segments(solution) -> list[Segment]:
                           None if res.circulating_w is None or rep_hz is None else res.circulating_w / rep_hz,
                           pulse_s, rep_hz, _smallest_radius(res.profile, a.s, s1),
                           directions=2 if path.role == "linear" else 1)
-            seg.inside_enclosure = enclosed(polys, [seg.start, seg.end])
+            _cover(seg, polys)
             out.append(seg)
     for bid, path in traced.beams.items():
         res = solution.beams[bid]
@@ -310,8 +326,9 @@ def segments(solution) -> list[Segment]:
             seg = Segment(BEAM, f"{bid}:{a_name}-{path.hits[k].optic}", bid, (bid,), path.wavelength_nm,
                           # what travels into hit k is what arrives there (solve gives it per hit)
                           pts[k], pts[k + 1], res.hits[k].power_w, res.hits[k].energy_j, pulse_s, rep_hz,
-                          _smallest_radius(res.profile, s_at[k], s_at[k + 1]))
-            seg.inside_enclosure = enclosed(polys, [seg.start, seg.end])
+                          _smallest_radius(res.profile, s_at[k], s_at[k + 1]),
+                          end_kind="optic", end_id=path.hits[k].optic)
+            _cover(seg, polys)
             out.append(seg)
         if path.tail is not None:
             last = path.hits[-1]
@@ -327,7 +344,7 @@ def segments(solution) -> list[Segment]:
                 if g is not None:
                     beams.append(g)
             seg.beam = tuple(beams) if len(beams) == len(PLANES) else ()
-            seg.inside_enclosure = enclosed(polys, [seg.start, seg.end])
+            _cover(seg, polys)
             out.append(seg)
     for r in solution.strays:
         out.append(_stray_segment(solution, r, polys))
@@ -376,7 +393,7 @@ def _stray_segment(solution, r, polys) -> Segment:
                          f"on \"{st.optic}\"")
     if st.optic in layout.optics and layout.optics[st.optic].roc is not None and st.kind == "leak":
         seg.notes.append(f"the lens of \"{st.optic}\"'s curved substrate is not applied to this leak")
-    seg.inside_enclosure = enclosed(polys, [seg.start, seg.end])
+    _cover(seg, polys)
     return seg
 
 
@@ -396,6 +413,11 @@ def _arrives_backwards(path, st) -> bool:
     return False
 
 
+def _cover(seg: Segment, polys: list[Polygon]) -> None:
+    seg.open_mm = open_length(polys, [seg.start, seg.end])
+    seg.inside_enclosure = enclosed(polys, [seg.start, seg.end])
+
+
 def _xy(p) -> tuple[float, float]:
     return (float(p[0]), float(p[1]))
 
@@ -406,7 +428,6 @@ def judge(seg: Segment, policy: Policy, keepouts: dict) -> None:
     """Fill in the exposure, MPE, ratio, OD and hazard distance of one segment."""
     wl = seg.wavelength_nm
     seg.exposure_s = policy.exposure_s(wl)
-    seg.pulsed = seg.pulse_energy_j is not None or (seg.rep_hz is not None and seg.pulse_s is not None)
     over = policy.override(wl)
     t = seg.exposure_s
     seg.aperture_mm = float(over.aperture_mm) if over and over.aperture_mm else \
@@ -417,42 +438,14 @@ def judge(seg: Segment, policy: Policy, keepouts: dict) -> None:
         seg.aperture_mm = SMALLEST_APERTURE_MM
         seg.notes.append(f"no limiting aperture is built in at {wl:g} nm: {SMALLEST_APERTURE_MM:g} mm is used "
                          "(set aperture_mm under [exposure.mpe])")
-    if seg.pulsed:
-        energy = seg.pulse_energy_j
-        if energy is None and seg.power_w is not None and seg.rep_hz:
-            energy = seg.power_w / seg.rep_hz
-        if energy is None:
-            seg.problem = "its pulse energy is not known: give pulse_energy_j, or power_w with rep_hz"
-            return
-        seg.pulse_energy_j = energy
-        if seg.pulse_s is None:
-            seg.problem = "it is pulsed but its pulse length is not known: give pulse_s"
-            return
-        if over is not None and over.j_cm2 is not None:
-            seg.mpe, seg.mpe_rule, seg.mpe_source = over.j_cm2 * M2_TO_CM2, "configured", "configuration"
-        else:
-            if seg.rep_hz:
-                mpe, rule = exposure.pulse_train_mpe_j_m2(wl, seg.pulse_s, seg.rep_hz, t)
-                seg.mpe, seg.mpe_rule = float(mpe), str(np.asarray(rule).item())
-            else:
-                seg.mpe, seg.mpe_rule = float(exposure.mpe_j_m2(wl, seg.pulse_s)), "single-pulse"
-            seg.mpe_source = "built-in"
-        amount = energy
-    else:
-        if seg.power_w is None:
-            seg.problem = "its power is not known"
-            return
-        if over is not None and over.w_cm2 is not None:
-            seg.mpe, seg.mpe_rule, seg.mpe_source = over.w_cm2 * M2_TO_CM2, "configured", "configuration"
-        else:
-            seg.mpe, seg.mpe_rule, seg.mpe_source = float(exposure.mpe_w_m2(wl, t)), "cw", "built-in"
-        amount = seg.power_w
-    if seg.mpe is None or not math.isfinite(seg.mpe) or seg.mpe <= 0:
-        seg.mpe = None
+    amount = _mpe(seg, wl, t, over)
+    if seg.mpe is None and seg.problem is None:
         what = "per-pulse (j_cm2)" if seg.pulsed else "CW (w_cm2)"
         seg.problem = (f"benchcheck has no built-in exposure limit at {wl:g} nm: set a {what} MPE for it under "
                        f"[exposure.mpe] in the repository configuration")
         return
+    if amount is None or seg.mpe is None:
+        return                 # the problem says what is missing (the MPE is shown where known)
     if seg.w_mm is None:
         seg.notes.append("its size is not known, so all of it is taken through the limiting aperture")
     seg.exposure = float(exposure.aperture_averaged_w_m2(amount, seg.w_mm or 0.0, seg.aperture_mm))
@@ -460,6 +453,55 @@ def judge(seg: Segment, policy: Policy, keepouts: dict) -> None:
     seg.od = int(exposure.od_required(seg.exposure, seg.mpe))
     if seg.runs_off and not seg.inside_enclosure:
         _hazard_distance(seg, amount, keepouts)
+
+
+def _mpe(seg: Segment, wl: float, t: float, over: MpeOverride | None):
+    """Set the segment's MPE (per pulse for pulsed light) and return what to compare with
+    it (energy per pulse or power), or None with ``problem`` saying what is missing."""
+    # any pulse datum makes the light pulsed: judging a pulse train as CW would be far too lax
+    seg.pulsed = seg.pulse_energy_j is not None or seg.rep_hz is not None or seg.pulse_s is not None
+    if not seg.pulsed:
+        if over is not None and over.w_cm2 is not None:
+            seg.mpe, seg.mpe_rule, seg.mpe_source = over.w_cm2 * M2_TO_CM2, "configured", "configuration"
+        else:
+            if over is not None:
+                seg.notes.append(f"the configured MPE at {over.wavelength_nm:g} nm gives no w_cm2: the built-in "
+                                 "CW limit is used")
+            seg.mpe, seg.mpe_rule, seg.mpe_source = float(exposure.mpe_w_m2(wl, t)), "cw", "built-in"
+        _finite_mpe(seg)
+        if seg.power_w is None:
+            seg.problem = "its power is not known"
+        return seg.power_w
+    energy = seg.pulse_energy_j
+    if energy is None and seg.power_w is not None and seg.rep_hz:
+        energy = seg.power_w / seg.rep_hz
+    seg.pulse_energy_j = energy
+    if over is not None and over.j_cm2 is not None:
+        seg.mpe, seg.mpe_rule, seg.mpe_source = over.j_cm2 * M2_TO_CM2, "configured", "configuration"
+    elif seg.pulse_s is None:
+        seg.problem = "it is pulsed (rep_hz) but its pulse length is not known: give pulse_s"
+        return None
+    else:
+        if over is not None:
+            seg.notes.append(f"the configured MPE at {over.wavelength_nm:g} nm gives no j_cm2: the built-in "
+                             "per-pulse limit is used")
+        if seg.rep_hz:
+            mpe, rule = exposure.pulse_train_mpe_j_m2(wl, seg.pulse_s, seg.rep_hz, t)
+            seg.mpe, seg.mpe_rule = float(mpe), str(np.asarray(rule).item())
+        else:
+            seg.mpe, seg.mpe_rule = float(exposure.mpe_j_m2(wl, seg.pulse_s)), "single-pulse"
+            seg.notes.append("no rep_hz: judged as a single pulse; a pulse train has a lower limit per pulse, so "
+                             "give rep_hz if the source repeats")
+        seg.mpe_source = "built-in"
+    _finite_mpe(seg)
+    if energy is None:
+        seg.problem = "its pulse energy is not known: give pulse_energy_j, or power_w with rep_hz"
+    return energy
+
+
+def _finite_mpe(seg: Segment) -> None:
+    if seg.mpe is None or not math.isfinite(seg.mpe) or seg.mpe <= 0:
+        seg.mpe = None
 
 
 def _hazard_distance(seg: Segment, amount: float, keepouts: dict) -> None:
@@ -535,14 +577,14 @@ _CLASS_ORDER = ("1", "1M", "2", "2M", "3R", "3B", "4")
 
 
 def _wavelengths(segs: list[Segment], sources: list[Source], policy: Policy) -> list[Wavelength]:
-    groups: dict[float, list[Segment]] = {}
-    for s in segs:
-        key = next((k for k in groups if abs(k - s.wavelength_nm) <= WAVELENGTH_MATCH * k), s.wavelength_nm)
+    groups: dict[tuple, list[Segment]] = {}
+    for s in segs:        # one row per wavelength and kind of emission (CW or pulsed)
+        key = next((k for k in groups if k[1] == s.pulsed and abs(k[0] - s.wavelength_nm) <= WAVELENGTH_MATCH * k[0]),
+                   (s.wavelength_nm, s.pulsed))
         groups.setdefault(key, []).append(s)
     out = []
-    for wl in sorted(groups):
-        group = groups[wl]
-        pulsed = any(s.pulsed for s in group)
+    for wl, pulsed in sorted(groups):
+        group = groups[(wl, pulsed)]
         judged = [s for s in group if s.ratio is not None]
         worst = max(judged, key=lambda s: s.ratio) if judged else None
         powers = [s.power_w for s in group if s.power_w is not None]

@@ -12,6 +12,8 @@ import io
 import json
 import math
 
+import numpy as np
+
 from .hazards import CAUTION, Assessment, Segment
 
 JSON_FORMAT = 1
@@ -77,8 +79,8 @@ def _plain(x):
         return {str(k): _plain(v) for k, v in x.items()}
     if isinstance(x, (list, tuple)):
         return [_plain(v) for v in x]
-    if isinstance(x, bool) or x is None or isinstance(x, str):
-        return x
+    if isinstance(x, (bool, np.bool_)) or x is None or isinstance(x, str):
+        return x if not isinstance(x, np.bool_) else bool(x)
     try:
         return _num(float(x))
     except (TypeError, ValueError):
@@ -156,8 +158,8 @@ CSV_COLUMNS = ("layout", "kind", "id", "parent", "wavelength_nm", "power_w", "pu
 
 def assessment_csv(docs: list[dict]) -> str:
     buf = io.StringIO()
+    buf.write(f"# {CAUTION}\n")      # a comment line above the header, for readers that skip them
     writer = csv.writer(buf, lineterminator="\n")
-    writer.writerow([f"# {CAUTION}"])
     writer.writerow(CSV_COLUMNS)
     for doc in docs:
         for s in doc["segments"]:

@@ -69,6 +69,9 @@ MAX_EXTENT_MM = 1.0e6
 MAX_MAGNITUDE = 1.0e15
 #: A quantity that must be positive or non-zero is at least this large in its unit.
 MIN_MAGNITUDE = 1.0e-12
+#: femtosecond lasers: pulse lengths go below the general bound (the exposure limits are
+#: tabulated down to 1e-13 s)
+MIN_PULSE_S = 1.0e-16
 #: Smallest waist radius (mm): far below it the paraxial Gaussian beam does not apply.
 MIN_WAIST_MM = 1.0e-4
 #: Smallest radius of curvature or focal length (mm) taken seriously.
@@ -602,7 +605,8 @@ class _Reader:
         f["wavelength_nm"] = self.wavelength(self.require(t, "wavelength_nm", path, what), p("wavelength_nm"))
         for key, unit in (("power_w", "W"), ("pulse_energy_j", "J"), ("pulse_s", "s"), ("rep_hz", "Hz")):
             if key in t:
-                f[key] = self.number(t[key], p(key), unit, low=0.0, low_open=key != "power_w")
+                f[key] = self.number(t[key], p(key), unit, low=0.0, low_open=key != "power_w",
+                                     tiny=MIN_PULSE_S if key == "pulse_s" else MIN_MAGNITUDE)
         if "pulse_energy_j" in f and "pulse_s" not in f:
             raise self.fail(p("pulse_energy_j"), f"{what}: a pulsed source needs pulse_s as well")
         if "pulse_energy_j" in f and "power_w" in f and "rep_hz" in f:
@@ -704,7 +708,8 @@ class _Reader:
             f["loss"] = self.number(t["loss"], p("loss"), "", low=0.0, high=0.999999)
         for key, unit in (("rep_hz", "Hz"), ("pulse_s", "s")):
             if key in t:
-                f[key] = self.number(t[key], p(key), unit, low=0.0, low_open=True)
+                f[key] = self.number(t[key], p(key), unit, low=0.0, low_open=True,
+                                     tiny=MIN_PULSE_S if key == "pulse_s" else MIN_MAGNITUDE)
         if "note" in t:
             f["note"] = self.string(t["note"], p("note"))
         active = "output_power_w" in f

@@ -222,7 +222,10 @@ class Report:
                 f'<p class="small">{escape(a.caution)}</p>')
 
     def _safety(self) -> str:
+        from .reporters import NOT_AN_APPROVAL
+
         sol = self.solution
+        clean = "" if any(not f.waived for f in self.findings) else f" {escape(NOT_AN_APPROVAL)}"
         limits = self.bench.limits
         rows = []
         for c in sol.cavities.values():
@@ -253,7 +256,7 @@ class Report:
         stray_table = _table(["kind", "beam", "power", "where it goes", "status"], stray_rows)
         return (f'<section id="safety"><h2>Safety summary</h2>'
                 f'<p class="caution"><strong>{escape(SAFETY_CAUTION)}</strong> The figures below come from the '
-                f'plan, not from measurement.</p>'
+                f'plan, not from measurement.{clean}</p>'
                 f'{self._exposure_tables()}'
                 f'<h3>Circulating power</h3>{cav_table}'
                 f'<h3>Beams</h3>{beam_table}'

@@ -79,7 +79,7 @@ def text_report(results: list[FileResult], rules: dict) -> str:
     summary = ", ".join(parts) + (f"; {waived} waived" if waived else "")
     files = len(results)
     lines.append(f"{summary} in {files} layout{'s' if files != 1 else ''}")
-    if not any(not f.waived for f in findings):
+    if not any(not f.waived for f in findings) and not any(r.errors for r in results):
         lines.append(NOT_AN_APPROVAL)
     lines.append(SAFETY_CAUTION)
     return "\n".join(lines) + "\n"
@@ -208,7 +208,7 @@ def github_report(results: list[FileResult], rules: dict, root: Path | None = No
                      f"{_escape_data(f.message + hint)}")
     for e in dict.fromkeys(e for r in results for e in r.errors):
         lines.append(f"::error::{_escape_data(e)}")
-    if not any(not f.waived for f in all_findings(results)):
+    if not any(not f.waived for f in all_findings(results)) and not any(r.errors for r in results):
         lines.append(f"::notice title=benchcheck::{_escape_data(NOT_AN_APPROVAL)}")
     lines.append(f"::notice title=benchcheck::{_escape_data(SAFETY_CAUTION)}")
     return "\n".join(lines) + ("\n" if lines else "")

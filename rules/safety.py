@@ -19,6 +19,10 @@ from benchcheck.findings import ERROR, WARNING, Finding, Rule
 from benchcheck.hazards import BEAM, CAVITY_LEG, EXTENSION, LEAK, SECONDARY
 
 
+#: a power exactly at a limit (up to rounding) is not above it
+_TOL = 1e-9
+
+
 def _w(p):
     return "unknown power" if p is None else f"{p:.3g} W"
 
@@ -34,12 +38,12 @@ def check_intracavity(bench, options):
             legs.setdefault(seg.parent, []).append(seg)
     for cav in bench.solution.cavities.values():
         p = cav.circulating_w
-        if p is None or p <= limit:
+        if p is None or p <= limit * (1 + _TOL):
             continue
         if legs.get(cav.id) and all(seg.inside_enclosure for seg in legs[cav.id]):
             continue   # not an open bench: the whole cavity is inside an enclosure
         both = " in each direction (a linear cavity holds both)" if cav.kind == "linear" else ""
-        if p > hard:
+        if p > hard * (1 + _TOL):
             yield Finding(
                 f"cavity \"{cav.id}\" circulates {p:.3g} W one-way{both} on open bench, above the limit of "
                 f"{hard:g} W for an open bench",
@@ -99,9 +103,13 @@ def _figures(seg) -> str:
     """Exposure against the MPE, eyewear OD and hazard distance, in words."""
     if seg.ratio is None:
         return ""
-    unit = "J/cm^2" if seg.pulsed else "W/cm^2"
-    out = (f"; {seg.ratio:.3g} x the MPE ({seg.mpe / 1e4:.3g} {unit}, {seg.exposure_s:g} s, "
-           f"{seg.aperture_mm:g} mm aperture)")
+    if seg.pulsed:
+        rule = {"single-pulse": "single pulse", "average-power": "average-power rule",
+                "pulse-train": "pulse-train rule"}.get(seg.mpe_rule, seg.mpe_rule)
+        basis = f"{seg.mpe / 1e4:.3g} J/cm^2 per {seg.pulse_s:.3g} s pulse, {rule}"
+    else:
+        basis = f"{seg.mpe / 1e4:.3g} W/cm^2 for {seg.exposure_s:g} s"
+    out = f"; {seg.ratio:.3g} x the MPE ({basis}, {seg.aperture_mm:g} mm aperture)"
     if seg.od:
         out += f", eyewear OD {seg.od} needed"
     if seg.nohd_mm is not None and seg.nohd_mm > 0:
@@ -119,7 +127,16 @@ def _stray_segments(bench):
     return {seg.id: seg for seg in bench.hazards.segments if seg.kind in (LEAK, SECONDARY)}
 
 
+def _main_output(bench, st) -> bool:
+    """The output of a laser that no [[beam]] declares: undeclared-output reports it."""
+    cav = bench.layout.cavities.get(st.parent)
+    return (st.kind == "leak" and cav is not None and cav.output_coupler == st.optic
+            and not st.id.endswith("/back") and not any(b.origin == cav.id for b in bench.layout.beams.values()))
+
+
 def check_leaks(bench, options):
+    """Every leak and secondary beam that crosses open bench: judged against the stray
+    limit (it must end on a dump), the MPE and the Class 4 level, wherever it ends."""
     limit = bench.limits["stray_power_w"]
     segs = _stray_segments(bench)
     for r in bench.solution.strays:
@@ -129,46 +146,51 @@ def check_leaks(bench, options):
         rating = _rating(bench, st.end, r.power_w, what, (st.optic, st.parent))
         if rating:
             yield rating
+        if (seg is not None and seg.inside_enclosure) or _main_output(bench, st):
+            continue   # inside an enclosure all the way; a laser's own output has its own rule
         stopped, where = _ends_safely(bench, st.end)
-        if stopped or (seg is not None and seg.inside_enclosure):
-            continue   # on a dump or detector, or inside an enclosure all the way
         leaves = st.end.kind == "table-edge" or (st.end.kind == "zone" and st.end.zone_kind == "keepout")
         at = tuple(st.end.point)
-        if r.power_w is None:
-            # never skipped: judged by its pulse energy against the pulsed limits, or reported
-            if seg is None or seg.ratio is None:
-                why = seg.problem if seg is not None and seg.problem else "its power is not known"
-                yield Finding(
-                    f"{what} leaves \"{st.optic}\" and goes {st.end.length:.0f} mm to {where}, but its hazard "
-                    f"cannot be judged: {why}",
-                    (st.optic, st.parent), severity=ERROR, at=at,
-                    hint="give the source's rep_hz (or power_w) and pulse_s, so the beam's power is known")
-                continue
-            if seg.ratio <= 1.0 and not _class4(bench, seg):
-                continue
-            severity = ERROR if leaves or _class4(bench, seg) else WARNING
-            yield Finding(
-                f"{what} leaves \"{st.optic}\" with {_amount(seg)} and goes {st.end.length:.0f} mm to {where} at "
-                f"({at[0]:.0f}, {at[1]:.0f}) mm{_figures(seg)}",
-                (st.optic, st.parent), value=seg.ratio, limit=1.0, unit="exposure/MPE", severity=severity,
-                hint="put a beam dump or block in its way, or enclose that part of the bench", at=at)
+        goes = f"{what} leaves \"{st.optic}\" with {{amount}} and goes {st.end.length:.0f} mm to {where} at " \
+               f"({at[0]:.0f}, {at[1]:.0f}) mm"
+        judged = seg is not None and seg.ratio is not None
+        if r.power_w is None and not judged:
+            # never skipped: what cannot be judged is reported
+            why = seg.problem if seg is not None and seg.problem else "its power is not known"
+            feed = ("give the cavity's output_power_w (or input_power_w)" if st.parent in bench.layout.cavities
+                    else "give the source's power_w, or pulse_energy_j with rep_hz and pulse_s")
+            yield Finding(f"{goes.format(amount='unknown power')}, and its hazard cannot be judged: {why}",
+                          (st.optic, st.parent), severity=ERROR, at=at, hint=feed + ", so its hazard can be judged")
             continue
-        if r.power_w <= limit:
-            continue
-        bound = "up to " if r.at_most else ""
-        severity = WARNING
-        why = ""
-        if seg is not None and _class4(bench, seg):
-            severity, why = ERROR, f" (above the open-beam limit of {bench.limits.get('open_beam_power_w', 0.5):g} W)"
-        elif leaves:
-            severity = ERROR
-            why = " (it leaves the table)" if st.end.kind == "table-edge" else " (it enters a keep-out zone)"
+        class4 = seg is not None and _class4(bench, seg)
+        above_mpe = judged and seg.ratio > 1.0
+        over_stray = r.power_w is not None and r.power_w > limit
         figures = _figures(seg) if seg is not None else ""
-        yield Finding(
-            f"{what} leaves \"{st.optic}\" with {bound}{r.power_w:.3g} W and goes {st.end.length:.0f} mm to "
-            f"{where} at ({at[0]:.0f}, {at[1]:.0f}) mm{why}; limit {limit:g} W{figures}",
-            (st.optic, st.parent), value=r.power_w, limit=limit, unit="W", severity=severity,
-            hint="put a beam dump or block in its way, or enclose that part of the bench", at=at)
+        amount = (("up to " if r.at_most else "") + f"{r.power_w:.3g} W") if seg is None else \
+            ("up to " if r.at_most else "") + _amount(seg)
+        open_note = "" if not stopped else " (open bench before it)"
+        if class4:
+            lim_w = bench.limits.get("open_beam_power_w", 0.5)
+            yield Finding(
+                f"{goes.format(amount=amount)}{open_note}, above the open-beam limit (Class 4 level){figures}",
+                (st.optic, st.parent), value=r.power_w if r.power_w is not None else seg.ratio,
+                limit=lim_w if r.power_w is not None else 1.0, unit="W" if r.power_w is not None else "exposure/MPE",
+                severity=ERROR, at=at,
+                hint="enclose its whole path, or stop it on a rated dump right where it leaves the optic")
+        elif over_stray and not stopped:
+            why = "" if not leaves else " (it leaves the table)" if st.end.kind == "table-edge" else \
+                " (it enters a keep-out zone)"
+            yield Finding(
+                f"{goes.format(amount=amount)}{why}; limit {limit:g} W{figures}",
+                (st.optic, st.parent), value=r.power_w, limit=limit, unit="W",
+                severity=ERROR if leaves else WARNING, at=at,
+                hint="put a beam dump or block in its way, or enclose that part of the bench")
+        elif above_mpe:
+            yield Finding(
+                f"{goes.format(amount=amount)}{open_note}{' (it runs off the bench)' if leaves else ''}{figures}",
+                (st.optic, st.parent), value=seg.ratio, limit=1.0, unit="exposure/MPE",
+                severity=ERROR if leaves else WARNING, at=at,
+                hint="dump it where it leaves the optic, or enclose its path; the laser safety officer decides")
 
 
 # --- open-beam ---------------------------------------------------------------------------
@@ -211,7 +233,7 @@ def check_open_beams(bench, options):
     for segs in groups.values():
         first = segs[0]
         where = _group(segs)
-        length = f"{sum(s.length_mm for s in segs):.0f} mm"
+        length = f"{sum(s.length_mm if s.open_mm is None else s.open_mm for s in segs):.0f} mm"
         both = " (both directions)" if first.directions == 2 else ""
         unknown = [s for s in segs if s.problem]
         if unknown:
@@ -261,9 +283,16 @@ def check_undeclared_output(bench, options):
         res = bench.solution.cavities[cav.id]
         p = None if res.circulating_w is None else res.circulating_w * transmission(
             bench.layout.optics[cav.output_coupler], cav.wavelength_nm)
+        goes = ""
+        for seg in bench.hazards.segments:
+            if seg.kind == LEAK and seg.parent == cav.id and seg.id.split("/")[1] == cav.output_coupler \
+                    and not seg.id.endswith("/back"):
+                end = "the table edge" if seg.end_kind == "table-edge" else (seg.end_id or "something")
+                goes = f"; traced on, it goes {seg.length_mm:.0f} mm to {end}{_figures(seg)}"
+                break
         yield Finding(
             f"cavity \"{cav.id}\" sends {_w(p)} out through its output coupler \"{cav.output_coupler}\", but no "
-            f"[[beam]] declares where that output goes",
+            f"[[beam]] declares where that output goes{goes}",
             (cav.id, cav.output_coupler), value=p, unit="W", severity=ERROR,
             hint=f"add a [[beam]] with from = \"{cav.id}\" whose path ends on a dump, a detector or the next "
                  "experiment")

@@ -121,7 +121,10 @@ def test_fail_on_warning(tmp_path, capsys):
 def test_limits_come_from_the_configuration(tmp_path, capsys):
     cfg = OPEN_LAB.replace("[limits]\n", "[limits]\nstray_power_w = 0.05\n")
     _, doc = json_findings(capsys, write(tmp_path, config=cfg))
-    assert not [f for f in doc["findings"] if f["rule"] == "leak-beam"]
+    # 20 mW is below this lab's stray limit: no longer a stray-limit finding (in W), but the
+    # leak is still ten times the MPE on open bench, which a stray limit cannot waive
+    leaks = [f for f in doc["findings"] if f["rule"] == "leak-beam"]
+    assert [f["unit"] for f in leaks] == ["exposure/MPE"] and leaks[0]["severity"] == "warning"
 
 
 def test_default_limits_without_configuration(tmp_path, capsys):
@@ -147,7 +150,9 @@ def test_pyproject_tool_table_is_found_walking_up(tmp_path, capsys):
            '[tool.benchcheck.rules.open-beam]\nenabled = false\n')
     path = write(tmp_path, config=cfg, config_name="pyproject.toml")
     _, doc = json_findings(capsys, path)
-    assert doc["findings"] == []
+    # its limits apply: no intracavity finding, and the leak is judged against 1 W, not 1 mW
+    assert {f["rule"] for f in doc["findings"]} == {"leak-beam"}
+    assert [f["unit"] for f in doc["findings"]] == ["exposure/MPE"]
 
 
 def test_nearest_configuration_wins(tmp_path, capsys):
