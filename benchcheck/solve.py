@@ -144,7 +144,7 @@ def solve_layout(layout: Layout) -> Solution:
 def stray_power(layout: Layout, st: Stray, cavities: dict, beams: dict) -> StrayResult:
     """Leak: circulating power times T; what leaves a passive cavity's input coupler is the
     cavity's reflection, at most the input power.  Secondary: the beam's power at the hit
-    times the fraction of the branch it does not follow (DESIGN section 4)."""
+    times the fraction of the branch it does not follow (docs/design.md §4)."""
     if st.kind == "leak":
         cav = layout.cavities[st.parent]
         if st.input_reflection:
@@ -305,7 +305,7 @@ def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan 
         scale = max(_reduced_length(trains[plane]), 1e-9)
         edge = np.abs(m) >= 1.0 - resonator.BOUNDARY_TOL
         # touching |m| = 1 with a round trip of +-I (as at the confocal point) retraces every
-        # ray and is stable on both sides: not a break in the range (DESIGN section 4)
+        # ray and is stable on both sides: not a break in the range (docs/design.md §4)
         stable[plane] = all(resonator.classify(mats[i], scale) == resonator.MARGINAL_RETRACE
                             for i in np.flatnonzero(edge))
         m_range[plane] = (float(np.min(m)), float(np.max(m)))
@@ -366,7 +366,7 @@ def _peak(power, w_t, w_s):
 
 
 def check_wavelengths(layout: Layout, path: PathTrace) -> None:
-    """Every optic on a path must give its coating data at the path's wavelength (DESIGN §3)."""
+    """Every optic on a path must give its coating data at the path's wavelength (docs/design.md §3)."""
     for hit in path.hits:
         optic = layout.optics[hit.optic]
         reflectivity_at(optic, path.wavelength_nm, 0.0)

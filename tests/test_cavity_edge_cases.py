@@ -185,7 +185,7 @@ def test_beam_along_a_mirror_face_is_reported_and_stays_finite():
 
 def test_thermal_range_through_a_retracing_point_stays_stable():
     """Flat - lens - flat with 100 mm each side: at f = 100 mm the round trip is -I (every
-    ray retraces: the confocal-like point, DESIGN section 4), stable on both sides, so a range
+    ray retraces: the confocal-like point, docs/design.md §4), stable on both sides, so a range
     through it is stable: g1 g2 = (1 - 100 P)^2 in [0, 1) for P up to 1/60 except the
     touching point P = 1/100 (Kogelnik & Li 1966, equivalent g-parameters)."""
     c = cavity_entry(solved(flat_lens_flat(100.0, 100.0, (60.0, 1e4))))

@@ -223,7 +223,7 @@ BREWSTER_CAVITIES = [
 def test_brewster_crystal_in_a_cavity(r1, r2, d, a, length, n):
     """A Brewster-cut crystal of length L acts as L/n sagittal and L/n^3 tangential
     (Kogelnik et al. 1972); inside it the physical tangential radius is the model radius
-    times cos t2/cos t1 = n at Brewster, the sagittal unchanged (same source; DESIGN s. 6).
+    times cos t2/cos t1 = n at Brewster, the sagittal unchanged (same source; docs/design.md §4).
     Expected: Kogelnik & Li closed forms with the equivalent length, and an independent
     matrix round trip; FSR = c / (2 (d - L + n L))."""
     xtal = optic("X1", "crystal", length=length, index=n, faces="brewster")
@@ -301,7 +301,7 @@ def test_tilted_plate_in_a_cavity(fields, d_t, d_s):
     (dict(thermal_lens_t=250.0, thermal_lens_s=400.0), 250.0, 400.0),
 ])
 def test_thermal_lens_makes_a_flat_flat_cavity_stable(lens_fields, f_t, f_s):
-    """A thermal lens is a thin lens at the crystal centre (DESIGN s. 4).  Flat - lens -
+    """A thermal lens is a thin lens at the crystal centre (docs/design.md §4).  Flat - lens -
     flat is then stable for 0 < (1 - d1/f)(1 - d2/f) < 1 with d1, d2 the air-equivalent
     distances to the lens (ray matrices of Kogelnik & Li 1966); mirror spots and Gouy
     phase from an independent matrix round trip.  Normal-cut crystal: L/n in both planes."""

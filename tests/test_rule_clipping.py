@@ -331,7 +331,7 @@ def test_a_fold_mirror_of_a_linear_cavity_is_met_twice_per_round_trip():
                output_coupler="M2", output_power_w=1.0),
     )
     (f,) = run(text)
-    aoi = math.radians(5.0)                           # a fold of 10 deg is twice the aoi (DESIGN §3)
+    aoi = math.radians(5.0)                           # a fold of 10 deg is twice the aoi (docs/design.md §3)
     per_pass = 1.0 - scipy_transmission(ref_mode["w0"], ref_mode["w0"], 0.4 * math.cos(aoi), 0.4)
     assert f.value == pytest.approx(per_pass, rel=1e-6)
     assert f"twice per round trip: {1.0 - (1.0 - per_pass) ** 2:.3g}" in f.message

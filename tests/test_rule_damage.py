@@ -174,7 +174,8 @@ def test_a_linear_cavity_loads_inner_optics_from_both_directions_and_end_mirrors
     """P_circ = P_out / T_oc = 1 W / 0.01 = 100 W one-way; the mode of the symmetric
     two-mirror cavity (Kogelnik & Li 1966: w1 = 312.68 um on the mirrors, w0 = 270.79 um at
     the centre; a flat fold mirror there leaves it unchanged).  The fold mirror at 5 deg
-    incidence carries both directions, 2P cos(5 deg)/(pi w0^2) (REFERENCES: tilted footprint);
+    incidence carries both directions, 2P cos(5 deg)/(pi w0^2) (derived: the footprint of a
+    beam at incidence theta is w/cos(theta) wide in the plane of incidence, computed here);
     an end mirror's rating already covers its own reflection, so it sees the one-way power."""
     mode = ref.two_mirror(500.0, 500.0, 250.0, WL)
     text = layout(
@@ -307,9 +308,10 @@ def test_optics_without_a_rating_are_not_checked():
 
 def test_a_single_pulse_is_checked_by_its_fluence():
     """A source with pulse energy but no repetition rate has no average power; its fluence
-    is still known: 2E/(pi w^2) = 2.546 J/cm^2 for 10 mJ on w = 0.5 mm (REFERENCES §5
-    scaled from 1 mJ -> 0.2546479), above a 1 J/cm^2 rating at the same pulse length."""
+    is still known: 2E/(pi w^2) = 2.546 J/cm^2 for 10 mJ on w = 0.5 mm (derived from the
+    peak of a Gaussian profile, E = F0 pi w^2 / 2, computed here), above a 1 J/cm^2 rating
+    at the same pulse length."""
     found = run(line(lens({"j_cm2": 1.0, "pulse_s": 10e-9}), waist=0.5, power_w=None, pulse_energy_j=0.01,
                      pulse_s=10e-9))
     (f,) = [x for x in found if x.unit == "J/cm^2"]
-    assert f.value == pytest.approx(2.546479, rel=1e-6) and f.severity == ERROR
+    assert f.value == pytest.approx(2 * 0.01 / (math.pi * 0.05**2), rel=1e-6) and f.severity == ERROR

@@ -1,4 +1,5 @@
-"""Beams that end on no dump or detector are traced on across the table (DESIGN section 3)
+"""Beams that end on no dump or detector are traced on across the table (docs/design.md §4;
+the README's "The JSON beam table", `ends`)
 until they meet a footprint, a zone or the table edge; a seed that ends on a passive
 cavity's input coupler is coupled into it, with its mode match."""
 
