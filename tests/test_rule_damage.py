@@ -5,8 +5,9 @@ Outside references, each worked out here independently of benchcheck:
 
 - peak intensity of an elliptical Gaussian I0 = 2P/(pi w_x w_y), peak fluence
   F0 = 2E/(pi w^2), twice the "flat-top" average (Siegman, "Lasers" (1986), ch. 17, from
-  memory): P = 1 W, w = 1 mm gives 63.661977 W/cm^2; w_x = 1, w_y = 0.5 mm gives
-  127.32395 W/cm^2; E = 1 mJ, w = 0.5 mm gives 0.2546479 J/cm^2;
+  memory); derived from it and computed in the tests: P = 1 W, w = 1 mm gives
+  63.661977 W/cm^2; w_x = 1, w_y = 0.5 mm gives 127.32395 W/cm^2; E = 1 mJ, w = 0.5 mm
+  gives 0.2546479 J/cm^2;
 - on a surface tilted by theta the footprint grows by 1/cos(theta) in the plane of
   incidence (geometry of projection: 1.082392, 1.414214, 2 at 22.5, 45, 60 degrees);
 - CW linear power density is the power over the 1/e^2 beam diameter (vendor practice,
@@ -66,6 +67,8 @@ def peak(amount: float, w_x: float, w_y: float) -> float:
 # --- the formulas against the check values ------------------------------------------------
 
 def test_peak_intensity_and_fluence_check_values():
+    assert (peak(1.0, 1.0, 1.0), peak(1.0, 1.0, 0.5)) == (printed("63.661977"), printed("127.32395"))
+    assert peak(1e-3, 0.5, 0.5) == printed("0.2546479")
     assert surface_peak(1.0, 1.0, 1.0) == printed("63.661977")
     assert surface_peak(1.0, 1.0, 0.5) == printed("127.32395")
     assert surface_peak(1e-3, 0.5, 0.5) == printed("0.2546479")
@@ -89,6 +92,7 @@ def test_linear_power_density_check_value_and_the_conservative_diameter():
 
 def test_pulse_length_and_wavelength_scaling_check_values():
     value, why = scaled_fluence_threshold(10.0, 10e-9, 20e-9)
+    assert 10.0 * math.sqrt(20e-9 / 10e-9) == printed("14.142")          # the sqrt(tau) law, computed here
     assert value == printed("14.142") and why == []
     value, why = scaled_fluence_threshold(10.0, 10e-9, 10e-9, 1064.0, 532.0)
     assert value == pytest.approx(5.0, rel=1e-12)
