@@ -12,6 +12,7 @@ from __future__ import annotations
 import datetime as _dt
 import math
 from html import escape
+from pathlib import Path
 
 from . import __version__
 from .beamtable import fmt, fmt_si
@@ -99,6 +100,25 @@ def _ratio_text(optic, hit) -> str:
     return f"<strong>{text}</strong>" if worst > 0.5 else text
 
 
+def shown_root(layout_file: str) -> Path:
+    """Paths in the report are relative to the layout's repository (the nearest folder
+    holding .git), else to the current folder: never a machine's absolute path when the
+    files lie inside either."""
+    here = Path(layout_file).resolve().parent
+    for folder in (here, *here.parents):
+        if (folder / ".git").exists():
+            return folder
+    return Path.cwd().resolve()
+
+
+def shown_path(file: str, root: Path) -> str:
+    """``file`` relative to ``root`` where it lies inside it, else as given."""
+    try:
+        return Path(file).resolve().relative_to(root).as_posix()
+    except (ValueError, OSError):
+        return file
+
+
 class Report:
     def __init__(self, bench: Bench, findings: list, config_path: str | None, rules: dict):
         self.bench = bench
@@ -107,6 +127,7 @@ class Report:
         self.findings = sorted(findings, key=lambda f: (SEVERITY_ORDER.get(f.severity, 3), f.waived,
                                                           f.loc.line if f.loc else 0, f.rule))
         self.numbered = list(enumerate(self.findings, start=1))
+        self.root = shown_root(self.layout.file)
         self.config_path = config_path
         self.rules = rules
 
@@ -130,8 +151,9 @@ class Report:
             f"<title>Bench review: {name}</title>",
             f"<style>{CSS}</style></head><body>",
             f'<header><h1>Bench review: {name}</h1>'
-            f'<p class="meta">Layout <code>{escape(self.layout.file)}</code> · configuration '
-            f'<code>{escape(self.config_path or "defaults")}</code> · benchcheck {escape(__version__)} · '
+            f'<p class="meta">Layout <code>{escape(shown_path(self.layout.file, self.root))}</code> · configuration '
+            f'<code>{escape(shown_path(self.config_path, self.root) if self.config_path else "defaults")}</code> · '
+            f'benchcheck {escape(__version__)} · '
             f'{generated.isoformat(sep=" ")}</p>'
             f'<p class="summary">{summary}</p></header>',
             '<nav><a href="#safety">Safety</a> · <a href="#plan">Plan view</a> · <a href="#findings">Findings</a>'
@@ -268,7 +290,7 @@ class Report:
     def _findings(self) -> str:
         rows = []
         for n, f in self.numbered:
-            loc = f"{escape(f.loc.file)}:{f.loc.line}:{f.loc.column}" if f.loc else "–"
+            loc = f"{escape(shown_path(f.loc.file, self.root))}:{f.loc.line}:{f.loc.column}" if f.loc else "–"
             sev = f'<span class="sev {escape(f.severity)}">{escape(f.severity)}</span>'
             if f.waived:
                 sev += ' <span class="waived">waived</span>'

@@ -117,3 +117,20 @@ def test_renders_in_headless_chromium(tmp_path, capsys):
     target = ROOT / "docs" / "report-screenshot.png"
     if target.parent.is_dir() and not target.exists():
         shutil.copyfile(png, target)   # the README's picture comes from this check
+
+
+def test_paths_in_the_report_are_relative_to_the_repository(tmp_path, capsys):
+    """A layout given by its absolute path inside a repository is shown, with its
+    configuration and every finding's location, relative to the repository root: the
+    report names no folder of the machine it was made on."""
+    repo = tmp_path / "lab-repo"
+    (repo / ".git").mkdir(parents=True)
+    (repo / "benchmarks" / "b2").mkdir(parents=True)
+    layout = repo / "benchmarks" / "b2" / "bench.toml"
+    shutil.copyfile(ROOT / "layouts" / "flawed" / "every-rule-fires.toml", layout)
+    shutil.copyfile(ROOT / "benchcheck.toml", repo / "benchcheck.toml")
+    html = make(layout.resolve(), tmp_path / "r.html", capsys)
+    assert str(tmp_path) not in html and str(tmp_path.resolve()) not in html
+    assert "Layout <code>benchmarks/b2/bench.toml</code>" in html
+    assert "configuration <code>benchcheck.toml</code>" in html
+    assert re.search(r"<code>benchmarks/b2/bench\.toml:\d+:\d+</code>", html)
