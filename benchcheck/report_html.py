@@ -334,16 +334,19 @@ class Report:
         table = _table(["cavity", "plane", "m = (A+D)/2", "status", "Gouy (deg)", "mode spacing", "FSR",
                         "circulating"], rows)
         figs = []
-        diagram = plots.stability_svg(sol)
-        if diagram:
-            figs.append(f'<figure class="narrow">{diagram}<figcaption>Half-traces of each cavity; a bar shows the '
-                        f'thermal-lens range.</figcaption></figure>')
         for c in sol.cavities.values():
-            prof = plots.beam_size_svg(sol, c.id, "cavity")
-            if prof:
-                figs.append(f'<figure class="wide">{prof}<figcaption>Cavity {escape(c.id)}: mode radius along '
-                            f'the path (a linear cavity once, end to end; a ring once round).</figcaption></figure>')
             windows = self._windows(c)
+            scan = plots.stability_scan_svg(sol, c.id, windows)
+            if scan:
+                figs.append(f'<figure class="wide">{scan}<figcaption>Cavity {escape(c.id)}: half-trace of both '
+                            f'planes against what brings it nearest to an edge (the thermal lens over its range, or '
+                            f'the spacing with the narrowest window, named on the axis); stable where both curves '
+                            f'stay in the shaded band; the plan dotted.</figcaption></figure>')
+            prof = plots.caustic_svg(sol, c.id, "cavity")
+            if prof:
+                figs.append(f'<figure class="wide">{prof}<figcaption>Cavity {escape(c.id)}: the mode along the path '
+                            f'(a linear cavity once, end to end; a ring once round), tangential radius above the axis, '
+                            f'sagittal below, to scale; the crystal and the tightest aperture in red.</figcaption></figure>')
             if windows:
                 svg = plots.windows_svg(windows)
                 figs.append(f'<figure class="wide">{svg}<figcaption>Cavity {escape(c.id)}: how far each air '
@@ -368,10 +371,11 @@ class Report:
         sol = self.solution
         figs = []
         for b in sol.beams.values():
-            prof = plots.beam_size_svg(sol, b.id, "beam")
+            prof = plots.caustic_svg(sol, b.id, "beam")
             if prof:
                 figs.append(f'<figure class="wide">{prof}<figcaption>Beam {escape(b.id)} from '
-                            f'{escape(b.origin)}: radius along the path.</figcaption></figure>')
+                            f'{escape(b.origin)}: tangential radius above the axis, sagittal below, to scale, '
+                            f'with each optic at its place.</figcaption></figure>')
         body = "".join(figs) or '<p class="none">None.</p>'
         return f'<section id="beams"><h2>Beams</h2>{body}</section>'
 
