@@ -279,39 +279,39 @@ class _Placer:
             self.blocked.append((px - 5, py - 5, px + 5, py + 5))
         self.placed: list[tuple] = []      # (kind, text, box)
 
-    @staticmethod
-    def _overlap(a, b) -> float:
-        w = min(a[2], b[2]) - max(a[0], b[0])
-        h = min(a[3], b[3]) - max(a[1], b[1])
-        return w * h if w > 0 and h > 0 else 0.0
+    #: candidate distances (px) beyond the anchor's own radius, and directions per ring
+    RINGS = (2.0, 8.0, 16.0, 26.0, 38.0, 54.0, 74.0, 100.0, 130.0)
+    TURNS = 16
 
     def place(self, kind: str, text: str, anchor, size, start: float = 90.0, near: float = 0.0):
         """Box (x0, y0, x1, y1) for a label of ``size`` (w, h) px near ``anchor`` (px);
         ``start`` is the preferred direction (degrees, 90 = above), ``near`` the radius of
-        the anchor's own footprint."""
+        the anchor's own footprint.  All candidates are scored in one numpy pass."""
         ax, ay = anchor
         w, h = size
+        # ring by ring, directions alternating either side of the preferred one
+        steps = np.arange(self.TURNS)
+        turns = ((steps + 1) // 2) * (360.0 / self.TURNS) * np.where(steps % 2, 1.0, -1.0)
+        ang = np.radians(start + turns)[None, :]
+        r = (near + np.asarray(self.RINGS))[:, None]
+        cx = (ax + np.cos(ang) * (r + w / 2)).ravel()
+        cy = (ay - np.sin(ang) * (r + h / 2)).ravel()
+        boxes = np.stack([cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2], axis=1)
         x0, y0, x1, y1 = self.area
-        best, best_cost = None, math.inf
-        for r in (near + 2, near + 8, near + 16, near + 26, near + 38, near + 54, near + 74, near + 100, near + 130):
-            for step in range(16):
-                # alternate either side of the preferred direction
-                turn = ((step + 1) // 2) * 22.5 * (1 if step % 2 else -1)
-                a = math.radians(start + turn)
-                cx = ax + math.cos(a) * (r + w / 2)
-                cy = ay - math.sin(a) * (r + h / 2)
-                box = (cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2)
-                if box[0] < x0 or box[1] < y0 or box[2] > x1 or box[3] > y1:
-                    continue
-                cost = sum(self._overlap(box, b) for b in self.blocked) + sum(
-                    self._overlap(box, p[2]) for p in self.placed)
-                if cost == 0.0:
-                    self.placed.append((kind, text, box))
-                    return box
-                if cost < best_cost:
-                    best, best_cost = box, cost
-        if best is None:    # nothing fits inside the drawing: beside the anchor
+        inside = (boxes[:, 0] >= x0) & (boxes[:, 1] >= y0) & (boxes[:, 2] <= x1) & (boxes[:, 3] <= y1)
+        others = np.array(self.blocked + [p[2] for p in self.placed], dtype=float).reshape(-1, 4)
+        ow = np.minimum(boxes[:, None, 2], others[None, :, 2]) - np.maximum(boxes[:, None, 0], others[None, :, 0])
+        oh = np.minimum(boxes[:, None, 3], others[None, :, 3]) - np.maximum(boxes[:, None, 1], others[None, :, 1])
+        cost = (np.clip(ow, 0.0, None) * np.clip(oh, 0.0, None)).sum(axis=1)
+        cost = np.where(inside, cost, np.inf)
+        free = np.flatnonzero(cost == 0.0)
+        if free.size:
+            best = tuple(boxes[free[0]])
+        elif np.isfinite(cost).any():
+            best = tuple(boxes[int(np.argmin(cost))])
+        else:    # nothing fits inside the drawing: beside the anchor
             best = (ax - w / 2, ay - h - 4, ax + w / 2, ay - 4)
+        best = tuple(float(v) for v in best)
         self.placed.append((kind, text, best))
         return best
 
