@@ -239,13 +239,14 @@ def caustic_svg(solution, ident: str, role: str) -> str | None:
         if not ws:
             continue
         texts = [f"{plane} {w.w * 1e3:.0f} µm" for w in ws]
-        xs = [(w.s + 0.01 * length) / (1.02 * length) for w in ws]
+        xs = [(min(max(w.s, 0.06 * length), 0.94 * length) + 0.01 * length) / (1.02 * length) for w in ws]
         rows = _rows(xs, [_text_width(t, 6.5, axes_pt) for t in texts])
         for w, text, row in zip(ws, texts, rows):
             y = sign * w.w * 1e3
             ax.plot([w.s], [y], marker="v" if plane == "t" else "^", color=colour, markersize=4, zorder=6)
             ly = sign * top * (0.80 - 0.11 * row)
-            ax.annotate(text, (w.s, y), xytext=(w.s, ly), fontsize=6.5, color=colour, ha="center",
+            lx = min(max(w.s, 0.06 * length), 0.94 * length)      # clear of the axis and its ticks
+            ax.annotate(text, (w.s, y), xytext=(lx, ly), fontsize=6.5, color=colour, ha="center",
                         va="center", zorder=6, bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.8),
                         arrowprops=dict(arrowstyle="-", color=colour, linewidth=0.5))
     ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{abs(v):g}"))
