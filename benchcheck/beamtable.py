@@ -1,4 +1,4 @@
-"""The solved bench as the versioned JSON beam table (DESIGN section 6) and as text.
+"""The solved bench as the versioned JSON beam table (docs/design.md §6) and as text.
 
 The JSON is a contract other programs read: keys and units are fixed here and
 documented in the README.  Radii are micrometres, positions millimetres, powers watts.
@@ -129,7 +129,7 @@ def _end_json(b: BeamResult) -> dict:
 
 
 def solution_json(sol: Solution) -> dict:
-    """The beam table of DESIGN section 6, with a few extra keys (documented in the README)."""
+    """The beam table of docs/design.md §6, with a few extra keys (documented in the README)."""
     issues = [
         {"kind": i.kind, "message": i.message, "targets": list(i.targets), "line": i.loc.line,
          "value": _num(i.value), "limit": _num(i.limit), "unit": i.unit}

@@ -246,6 +246,13 @@ def cmd_hazards(args) -> int:
     return status
 
 
+def cmd_schema(args) -> int:
+    from .schema import schema_text
+
+    sys.stdout.write(schema_text())
+    return EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="benchcheck",
@@ -319,6 +326,11 @@ def build_parser() -> argparse.ArgumentParser:
     rules.add_argument("--format", choices=("text", "json"), default="text")
     rules.add_argument("--config", metavar="FILE", help="configuration whose plugins to load")
     rules.set_defaults(func=cmd_rules)
+
+    schema = sub.add_parser("schema", help="print the JSON Schema of the layout format (for editors)",
+                            description="Print the JSON Schema (draft-07) of layout format 1, for TOML "
+                                        "language servers that validate and complete against a schema.")
+    schema.set_defaults(func=cmd_schema)
     return parser
 
 

@@ -1,6 +1,6 @@
 """Coating and material data at a wavelength: reflectivity, absorption, what passes.
 
-DESIGN section 3: a value is one number for every wavelength or a table keyed by
+docs/design.md §3: a value is one number for every wavelength or a table keyed by
 wavelength; a path uses the entry within 2 % of its wavelength, and a missing entry is an
 error naming the wavelengths given.
 """

@@ -1,6 +1,6 @@
 """Gaussian beams as the reduced complex beam parameter q^ = q/n.
 
-1/q^ = n/R - i*lambda0*M^2/(pi*w^2) (DESIGN section 4; Kogelnik & Li 1966 with Siegman's
+1/q^ = n/R - i*lambda0*M^2/(pi*w^2) (docs/design.md §4; Kogelnik & Li 1966 with Siegman's
 reduced slope), so the ABCD law q2 = (A q1 + B)/(C q1 + D) holds with the reduced
 matrices of ``abcd`` and the radius needs only the vacuum wavelength.  An M^2 beam is
 the embedded Gaussian: it propagates as a Gaussian of wavelength M^2 * lambda0.

@@ -39,7 +39,7 @@ class LayoutError(Exception):
         return f"error: {self.message}"
 
 
-#: A beam uses a wavelength-keyed entry within this fraction of its wavelength (DESIGN §3).
+#: A beam uses a wavelength-keyed entry within this fraction of its wavelength (docs/design.md §3).
 WAVELENGTH_MATCH = 0.02
 
 

@@ -44,7 +44,7 @@ def wrap180(angle: float) -> float:
 
 
 def turn_for_fold(fold: float) -> float:
-    """Heading change at a mirror of signed full fold angle ``fold`` (DESIGN section 3).
+    """Heading change at a mirror of signed full fold angle ``fold`` (docs/design.md §3).
 
     new heading = old + sign(fold) * (180 - |fold|); a fold of 0 is a retro-reflection
     (a turn of 180 degrees either way).
@@ -334,7 +334,7 @@ def _rect(center, along, width, depth) -> Polygon:
 
 def footprint(optic: Optic, point: np.ndarray, direction: np.ndarray) -> Polygon:
     """Mount outline on the table: a mirror's spans its face and reaches ``depth`` behind it;
-    a transmissive optic's is centred on it (DESIGN section 3)."""
+    a transmissive optic's is centred on it (docs/design.md §3)."""
     width, depth = mount_size(optic)
     if optic.kind in FOLDING_KINDS:
         return _rect(point - direction * depth / 2.0, direction, width, depth)

@@ -47,12 +47,27 @@ class _Frame:
         self.margin = margin
         self.width = width_px
         self.height = self.h_mm * self.scale + 2 * margin + 30
+        #: (x0, y0, x1, y1) in pixels: where labels and markers may go
+        self.area = (margin, margin, margin + self.w_mm * self.scale, margin + self.h_mm * self.scale)
 
     def xy(self, x, y):
         return self.margin + x * self.scale, self.margin + (self.h_mm - y) * self.scale
 
     def pts(self, coords) -> str:
         return " ".join(f"{px:.1f},{py:.1f}" for px, py in (self.xy(x, y) for x, y in coords))
+
+
+class _Inset(_Frame):
+    """A region of the table (mm box) drawn enlarged into a pixel box below the plan."""
+
+    def __init__(self, region, box):
+        (self.x0, self.y0, self.x1, self.y1), (bx, by, bw, bh) = region, box
+        self.scale = min(bw / (self.x1 - self.x0), bh / (self.y1 - self.y0))
+        self.left, self.top = bx, by
+        self.area = (bx, by, bx + (self.x1 - self.x0) * self.scale, by + (self.y1 - self.y0) * self.scale)
+
+    def xy(self, x, y):
+        return self.left + (x - self.x0) * self.scale, self.top + (self.y1 - y) * self.scale
 
 
 def _nice(value: float) -> float:
@@ -127,10 +142,27 @@ def _envelope(frame, leg, srange, pieces, k) -> str | None:
 def plan_svg(solution, findings=(), hazards=None, width_px: float = 960.0) -> str:
     """The plan view.  ``findings`` are (number, Finding) pairs to mark on the drawing;
     ``hazards`` (a ``hazards.Assessment``) adds the hazard zones of open beams."""
+    return plan_drawing(solution, findings, width_px, hazards)[0]
+
+
+def plan_drawing(solution, findings=(), width_px: float = 960.0, hazards=None):
+    """The plan view's SVG text and, per panel (the plan, then the inset where there is
+    one), the pixel boxes the placement pass worked with: (svg, [{"labels": [(kind, text,
+    box)], "optics": [box]}]), labels and markers in "labels", mount footprints and sources
+    in "optics"."""
     layout = solution.layout
     frame = _Frame(layout.bench.size, width_px, margin=46.0)
     k = exaggeration_for(solution, frame)
-    out = [f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {frame.width:.0f} {frame.height:.0f}" '
+    region = densest_region(solution, frame)
+    inset = None
+    height = frame.height
+    if region is not None:
+        rw, rh = region[2] - region[0], region[3] - region[1]
+        box_w = min(width_px - 2 * frame.margin, 620.0)
+        box_h = min(box_w * rh / rw, 420.0)
+        inset = _Inset(region, (frame.margin, frame.height + 24.0, box_w, box_h))
+        height = inset.area[3] + 40.0
+    out = [f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {frame.width:.0f} {height:.0f}" '
            f'class="plan" role="img" aria-label="Plan view of the bench">',
            '<defs><pattern id="hatch" width="8" height="8" patternUnits="userSpaceOnUse" '
            'patternTransform="rotate(45)"><line x1="0" y1="0" x2="0" y2="8" '
@@ -138,22 +170,168 @@ def plan_svg(solution, findings=(), hazards=None, width_px: float = 960.0) -> st
            '<marker id="arrow" viewBox="0 0 10 10" refX="9" refY="5" markerWidth="7" markerHeight="7" '
            f'orient="auto-start-reverse"><path d="M0,0 L10,5 L0,10 z" fill="{STYLE["stray"]}"/></marker></defs>']
     out += _table(frame)
+    body, placer = _panel(frame, solution, findings, k, hazards)
+    out += body
+    panels = [placer]
+    out.append(f'<text x="{frame.width - 10:.0f}" y="{frame.height - 10:.0f}" text-anchor="end" class="small">'
+               f'beam envelopes drawn at {k:g} x their 1/e&#178; radius (in-plane); '
+               f'cavities solid, beams solid thin, leaks dashed</text>')
+    if inset is not None:
+        (ax0, ay0), (ax1, ay1) = frame.xy(region[0], region[3]), frame.xy(region[2], region[1])
+        out.append(f'<rect x="{ax0:.1f}" y="{ay0:.1f}" width="{ax1 - ax0:.1f}" height="{ay1 - ay0:.1f}" '
+                   f'fill="none" stroke="{STYLE["ink"]}" stroke-width="1" stroke-dasharray="3 3"/>')
+        text = "A: enlarged below"
+        box = placer.place("inset", text, (ax0, ay1), _text_box(text, 9.0), start=-45.0)
+        out.append(_leader((ax0, ay1), box, STYLE["ink"], 8.0))
+        out.append(f'<text x="{box[0] + 1:.1f}" y="{box[3] - 2.5:.1f}" class="tiny" {HALO}>{text}</text>')
+        ki = exaggeration_for(solution, inset, 9.0)
+        x0, y0, x1, y1 = inset.area
+        out.append(f'<clipPath id="inset-clip"><rect x="{x0:.1f}" y="{y0:.1f}" width="{x1 - x0:.1f}" '
+                   f'height="{y1 - y0:.1f}"/></clipPath>')
+        out.append(f'<rect x="{x0:.1f}" y="{y0:.1f}" width="{x1 - x0:.1f}" height="{y1 - y0:.1f}" '
+                   f'fill="{STYLE["table"]}" stroke="{STYLE["ink"]}" stroke-width="1.2"/>')
+        body, placer = _panel(inset, solution, findings, ki, hazards)
+        out.append('<g clip-path="url(#inset-clip)">')
+        out += body
+        out.append("</g>")
+        panels.append(placer)
+        out.append(f'<text x="{x0:.1f}" y="{y0 - 6:.1f}" class="small">A: x {region[0]:.0f} to {region[2]:.0f} mm, '
+                   f'y {region[1]:.0f} to {region[3]:.0f} mm, {inset.scale / frame.scale:.1f} times larger; '
+                   f'envelopes at {ki:g} x</text>')
+    out.append("</svg>")
+    return "\n".join(out), [{"labels": list(p.placed), "optics": list(p.blocked)} for p in panels]
+
+
+#: The bench is crowded, and gets an enlarged inset, when optics of the densest region lie
+#: closer than this on the drawing (px, centre to centre, on average to their nearest).
+CROWDED_PX = 48.0
+
+
+def densest_region(solution, frame):
+    """(x0, y0, x1, y1) mm of the most crowded part of the bench, or None when no part is.
+
+    Every optic is a centre candidate; its neighbourhood is the optics within an eighth of
+    the table's larger side.  The one with most neighbours wins if their mean distance to
+    their nearest neighbour is below CROWDED_PX on the drawing; the region is their
+    bounding box with a margin."""
+    points = {oid: np.asarray(p.point, float) for oid, p in solution.placement.optics.items()
+              if p.optic.kind != "obstacle"}
+    if len(points) < 3:
+        return None
+    xy = np.array(list(points.values()))
+    reach = max(frame.w_mm, frame.h_mm) / 8.0
+    best = None
+    for c in xy:
+        near = xy[np.hypot(*(xy - c).T) <= reach]
+        if len(near) >= 3 and (best is None or len(near) > len(best)):
+            best = near
+    if best is None:
+        return None
+    d = np.hypot(best[:, None, 0] - best[None, :, 0], best[:, None, 1] - best[None, :, 1])
+    np.fill_diagonal(d, np.inf)
+    if float(np.mean(d.min(axis=1))) * frame.scale >= CROWDED_PX:
+        return None
+    pad = max(float(np.ptp(best[:, 0])), float(np.ptp(best[:, 1])), 40.0) * 0.15 + 15.0
+    x0, y0 = best.min(axis=0) - pad
+    x1, y1 = best.max(axis=0) + pad
+    return (max(0.0, x0), max(0.0, y0), min(frame.w_mm, x1), min(frame.h_mm, y1))
+
+
+def _panel(frame, solution, findings, k, hazards=None):
+    """Everything drawn on the table, in one frame: zones, mounts, paths, strays, then the
+    labels and markers placed by one pass so that none covers an optic or another."""
+    layout = solution.layout
+    out = []
     out += _zones(frame, layout)
-    if hazards is not None:
-        out += _hazard_zones(frame, hazards)
+    bands, hazard_labels = _hazard_zones(frame, hazards) if hazards is not None else ([], [])
+    out += bands
     out += _mounts(frame, solution)
     for cid in solution.cavities:
         out += _path(frame, solution, cid, "cavity", k)
     for bid in solution.beams:
         out += _path(frame, solution, bid, "beam", k)
     out += _strays(frame, solution)
-    out += _labels(frame, solution)
-    out += _markers(frame, solution, findings)
-    out.append(f'<text x="{frame.width - 10:.0f}" y="{frame.height - 10:.0f}" text-anchor="end" class="small">'
-               f'beam envelopes drawn at {k:g} x their 1/e&#178; radius (in-plane); '
-               f'cavities solid, beams solid thin, leaks dashed</text>')
-    out.append("</svg>")
-    return "\n".join(out)
+    placer = _Placer(frame, solution)
+    out += _labels(frame, solution, placer)
+    out += _markers(frame, solution, findings, placer)
+    out += _stray_labels(frame, solution, placer)
+    out += _zone_labels(frame, layout, placer)
+    for text, anchor in hazard_labels:
+        box = placer.place("hazard", text, anchor, _text_box(text, 9.0))
+        out.append(_leader(anchor, box, STYLE["ink"], 8.0))
+        out.append(f'<text x="{box[0] + 1:.1f}" y="{box[3] - 2.5:.1f}" class="tiny" {HALO}>{escape(text)}</text>')
+    return out, placer
+
+
+def _text_box(text: str, size: float, bold: bool = False) -> tuple[float, float]:
+    """Rough (width, height) in px of a label (0.62 em a character, bold 0.68)."""
+    return (0.68 if bold else 0.62) * size * len(text) + 2.0, size + 2.0
+
+
+class _Placer:
+    """A simple label-placement pass: each label or marker takes the first free spot of a
+    ring of candidates around its anchor (nearest first), free meaning inside the drawing,
+    clear of every mount footprint and source and of everything placed before; where no
+    spot is free, the one with least overlap.  A spot away from the anchor gets a leader."""
+
+    def __init__(self, frame, solution):
+        self.frame = frame
+        self.area = frame.area
+        self.blocked: list[tuple] = []
+        for placed in solution.placement.optics.values():
+            pts = [frame.xy(x, y) for x, y in placed.footprint.exterior.coords]
+            xs, ys = [p[0] for p in pts], [p[1] for p in pts]
+            self.blocked.append((min(xs) - 1.5, min(ys) - 1.5, max(xs) + 1.5, max(ys) + 1.5))
+        for point in solution.placement.sources.values():
+            px, py = frame.xy(*point)
+            self.blocked.append((px - 5, py - 5, px + 5, py + 5))
+        self.placed: list[tuple] = []      # (kind, text, box)
+
+    #: candidate distances (px) beyond the anchor's own radius, and directions per ring
+    RINGS = (2.0, 8.0, 16.0, 26.0, 38.0, 54.0, 74.0, 100.0, 130.0)
+    TURNS = 16
+
+    def place(self, kind: str, text: str, anchor, size, start: float = 90.0, near: float = 0.0):
+        """Box (x0, y0, x1, y1) for a label of ``size`` (w, h) px near ``anchor`` (px);
+        ``start`` is the preferred direction (degrees, 90 = above), ``near`` the radius of
+        the anchor's own footprint.  All candidates are scored in one numpy pass."""
+        ax, ay = anchor
+        w, h = size
+        # ring by ring, directions alternating either side of the preferred one
+        steps = np.arange(self.TURNS)
+        turns = ((steps + 1) // 2) * (360.0 / self.TURNS) * np.where(steps % 2, 1.0, -1.0)
+        ang = np.radians(start + turns)[None, :]
+        r = (near + np.asarray(self.RINGS))[:, None]
+        cx = (ax + np.cos(ang) * (r + w / 2)).ravel()
+        cy = (ay - np.sin(ang) * (r + h / 2)).ravel()
+        boxes = np.stack([cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2], axis=1)
+        x0, y0, x1, y1 = self.area
+        inside = (boxes[:, 0] >= x0) & (boxes[:, 1] >= y0) & (boxes[:, 2] <= x1) & (boxes[:, 3] <= y1)
+        others = np.array(self.blocked + [p[2] for p in self.placed], dtype=float).reshape(-1, 4)
+        ow = np.minimum(boxes[:, None, 2], others[None, :, 2]) - np.maximum(boxes[:, None, 0], others[None, :, 0])
+        oh = np.minimum(boxes[:, None, 3], others[None, :, 3]) - np.maximum(boxes[:, None, 1], others[None, :, 1])
+        cost = (np.clip(ow, 0.0, None) * np.clip(oh, 0.0, None)).sum(axis=1)
+        cost = np.where(inside, cost, np.inf)
+        free = np.flatnonzero(cost == 0.0)
+        if free.size:
+            best = tuple(boxes[free[0]])
+        elif np.isfinite(cost).any():
+            best = tuple(boxes[int(np.argmin(cost))])
+        else:    # nothing fits inside the drawing: beside the anchor
+            best = (ax - w / 2, ay - h - 4, ax + w / 2, ay - 4)
+        best = tuple(float(v) for v in best)
+        self.placed.append((kind, text, best))
+        return best
+
+
+def _leader(anchor, box, colour: str, min_gap: float = 6.0) -> str:
+    """A thin line from the anchor to the nearest point of the box, where they are apart."""
+    ax, ay = anchor
+    nx, ny = min(max(ax, box[0]), box[2]), min(max(ay, box[1]), box[3])
+    if math.hypot(nx - ax, ny - ay) < min_gap:
+        return ""
+    return (f'<line x1="{ax:.1f}" y1="{ay:.1f}" x2="{nx:.1f}" y2="{ny:.1f}" stroke="{colour}" '
+            f'stroke-width="0.8"/><circle cx="{ax:.1f}" cy="{ay:.1f}" r="1.8" fill="{colour}"/>')
 
 
 def _table(frame) -> list[str]:
@@ -197,12 +375,22 @@ def _zones(frame, layout) -> list[str]:
             style = f'fill="none" stroke="{STYLE["enclosure"]}" stroke-width="2" stroke-dasharray="8 4"'
         out.append(f'<polygon points="{frame.pts(z.polygon)}" {style}><title>{escape(z.kind)} zone '
                    f'{escape(z.id)}</title></polygon>')
+    return out
+
+
+HALO = 'style="paint-order:stroke;stroke:#ffffff;stroke-width:3px;stroke-linejoin:round"'
+
+
+def _zone_labels(frame, layout, placer) -> list[str]:
+    out = []
+    for z in layout.zones:
         cx = sum(p[0] for p in z.polygon) / len(z.polygon)
         top = max(p[1] for p in z.polygon)
-        px, py = frame.xy(cx, top)
+        text = f"{z.id} ({z.kind})"
+        box = placer.place("zone", text, frame.xy(cx, top), _text_box(text, 10.0), start=-90.0)
         colour = STYLE["keepout"] if z.kind == "keepout" else STYLE["enclosure"]
-        out.append(f'<text x="{px:.1f}" y="{py + 12:.1f}" text-anchor="middle" class="small" fill="{colour}">'
-                   f'{escape(z.id)} ({escape(z.kind)})</text>')
+        out.append(f'<text x="{(box[0] + box[2]) / 2:.1f}" y="{box[3] - 3:.1f}" text-anchor="middle" class="small" '
+                   f'fill="{colour}" {HALO}>{escape(text)}</text>')
     return out
 
 
@@ -233,11 +421,12 @@ def _path(frame, solution, ident: str, role: str, k: float) -> list[str]:
     return out
 
 
-def _hazard_zones(frame, assessment) -> list[str]:
+def _hazard_zones(frame, assessment):
     """A wide translucent band along every stretch outside the enclosures where the
     exposure exceeds the MPE, cut at the hazard distance; where the hazard runs on past the
-    drawing, a double arrow at the end with the distance."""
-    out = []
+    drawing, a label at its end with the distance (placed by the label pass).  Returns the
+    bands and the (text, anchor px) of the labels."""
+    out, labels = [], []
     colour = STYLE["hazard"]
     for seg in assessment.segments:
         if seg.inside_enclosure or seg.ratio is None or seg.ratio <= 1.0:
@@ -256,11 +445,8 @@ def _hazard_zones(frame, assessment) -> list[str]:
         if seg.nohd_mm is not None and seg.nohd_mm > length:
             far = "unbounded" if seg.nohd_mm == float("inf") else (
                 f"{seg.nohd_mm / 1000:.3g} m" if seg.nohd_mm >= 1000 else f"{seg.nohd_mm:.0f} mm")
-            # the label stays inside the drawing: it ends at the arrow on the side it came from
-            anchor = "end" if dx >= 0 else "start"
-            out.append(f'<text x="{x2:.1f}" y="{y2 - 8:.1f}" class="tiny" text-anchor="{anchor}" '
-                       f'fill="{STYLE["ink"]}">{"hazard to " + escape(far) + " &#187;&#187;" if dx >= 0 else "&#171;&#171; hazard to " + escape(far)}</text>')
-    return out
+            labels.append((f"hazard to {far}", (x2, y2)))
+    return out, labels
 
 
 def _strays(frame, solution) -> list[str]:
@@ -272,22 +458,77 @@ def _strays(frame, solution) -> list[str]:
         out.append(f'<line x1="{x1:.1f}" y1="{y1:.1f}" x2="{x2:.1f}" y2="{y2:.1f}" stroke="{STYLE["stray"]}" '
                    f'stroke-width="1" stroke-dasharray="5 3" marker-end="url(#arrow)">'
                    f'<title>{escape(st.kind)} {escape(st.id)}: {escape(power)}</title></line>')
-        if power:
-            out.append(f'<text x="{(x1 + x2) / 2:.1f}" y="{(y1 + y2) / 2 - 3:.1f}" class="tiny" '
-                       f'fill="{STYLE["stray"]}">{escape(power)}</text>')
     return out
 
 
-def _labels(frame, solution) -> list[str]:
+def _stray_labels(frame, solution, placer) -> list[str]:
+    """Each leak's power beside the middle of its line (the part in view, for an inset)."""
+    out = []
+    for r in solution.strays:
+        if r.power_w is None:
+            continue
+        st = r.stray
+        (x1, y1), (x2, y2) = frame.xy(*st.origin), frame.xy(*st.end.point)
+        a = _clip_segment((x1, y1), (x2, y2), frame.area)
+        if a is None:
+            continue
+        (x1, y1), (x2, y2) = a
+        text = f"{'up to ' if r.at_most else ''}{r.power_w:.3g} W"
+        mid = ((x1 + x2) / 2, (y1 + y2) / 2)
+        box = placer.place("power", text, mid, _text_box(text, 9.0))
+        out.append(_leader(mid, box, STYLE["stray"], 10.0))
+        out.append(f'<text x="{box[0] + 1:.1f}" y="{box[3] - 2.5:.1f}" class="tiny" fill="{STYLE["stray"]}" '
+                   f'{HALO}>{escape(text)}</text>')
+    return out
+
+
+def _clip_segment(a, b, area):
+    """The part of segment a-b inside the box ``area`` (Liang-Barsky), or None."""
+    (x1, y1), (x2, y2) = a, b
+    dx, dy = x2 - x1, y2 - y1
+    t0, t1 = 0.0, 1.0
+    for p, q in ((-dx, x1 - area[0]), (dx, area[2] - x1), (-dy, y1 - area[1]), (dy, area[3] - y1)):
+        if p == 0:
+            if q < 0:
+                return None
+            continue
+        r = q / p
+        if p < 0:
+            t0 = max(t0, r)
+        else:
+            t1 = min(t1, r)
+        if t0 > t1:
+            return None
+    return (x1 + t0 * dx, y1 + t0 * dy), (x1 + t1 * dx, y1 + t1 * dy)
+
+
+def _in_view(frame, x, y) -> bool:
+    px, py = frame.xy(x, y)
+    x0, y0, x1, y1 = frame.area
+    return x0 <= px <= x1 and y0 <= py <= y1
+
+
+def _labels(frame, solution, placer) -> list[str]:
     out = []
     for oid, placed in solution.placement.optics.items():
         minx, miny, maxx, maxy = placed.footprint.bounds
-        px, py = frame.xy((minx + maxx) / 2, maxy)
-        out.append(f'<text x="{px:.1f}" y="{py - 3:.1f}" text-anchor="middle" class="label">{escape(oid)}</text>')
+        if not _in_view(frame, (minx + maxx) / 2, (miny + maxy) / 2):
+            continue
+        (l, t), (r, b) = frame.xy(minx, maxy), frame.xy(maxx, miny)
+        anchor = ((l + r) / 2, (t + b) / 2)
+        box = placer.place("optic", oid, anchor, _text_box(oid, 10.0, bold=True), near=max(r - l, b - t) / 2)
+        out.append(_leader(anchor, box, STYLE["ink"], max(r - l, b - t) / 2 + 10))
+        out.append(f'<text x="{(box[0] + box[2]) / 2:.1f}" y="{box[3] - 2.5:.1f}" text-anchor="middle" '
+                   f'class="label" {HALO}>{escape(oid)}</text>')
     for sid, point in solution.placement.sources.items():
+        if not _in_view(frame, *point):
+            continue
         px, py = frame.xy(*point)
         out.append(f'<rect x="{px - 4:.1f}" y="{py - 4:.1f}" width="8" height="8" fill="{STYLE["beam"]}"/>')
-        out.append(f'<text x="{px:.1f}" y="{py - 7:.1f}" text-anchor="middle" class="label">{escape(sid)}</text>')
+        box = placer.place("source", sid, (px, py), _text_box(sid, 10.0, bold=True), near=4.0)
+        out.append(_leader((px, py), box, STYLE["ink"], 14.0))
+        out.append(f'<text x="{(box[0] + box[2]) / 2:.1f}" y="{box[3] - 2.5:.1f}" text-anchor="middle" '
+                   f'class="label" {HALO}>{escape(sid)}</text>')
     return out
 
 
@@ -324,14 +565,15 @@ def _marker_shape(severity: str, x: float, y: float, colour: str, hollow: bool) 
     return f'<circle cx="{x:.1f}" cy="{y:.1f}" r="7.5" {style}/>'
 
 
-def _markers(frame, solution, findings) -> list[str]:
+def _markers(frame, solution, findings, placer) -> list[str]:
     """One badge per place: findings at the same spot share it ("3,15,19"), drawn in the
-    shape of the worst severity there and linked to the first of them."""
+    shape of the worst severity there and linked to the first of them.  The badge sits
+    beside the place, where it covers no optic and no other label, with a leader to it."""
     groups: dict[tuple, list] = {}
     order = []
     for number, f in findings:
         point = finding_point(solution, f)
-        if point is None:
+        if point is None or not _in_view(frame, *point):
             continue
         px, py = frame.xy(*point)
         key = (round(px / 8), round(py / 8))
@@ -341,19 +583,24 @@ def _markers(frame, solution, findings) -> list[str]:
         groups[key].append((number, f))
     rank = {"error": 0, "warning": 1, "note": 2}
     out = []
-    for key, px, py in order:
+    for key, ax, ay in order:
         items = groups[key]
         worst = min(items, key=lambda nf: (nf[1].waived, rank.get(nf[1].severity, 3)))[1]
         numbers = [str(n) for n, _ in items]
         label = ",".join(numbers) if len(numbers) <= 3 else ",".join(numbers[:2]) + f",+{len(numbers) - 2}"
         colour = STYLE.get(worst.severity, STYLE["note"])
+        tag_w = 5.6 * len(label) + 6 if len(label) > 2 else 0.0
+        box = placer.place("marker", label, (ax, ay), (20.0 + tag_w + (2.0 if tag_w else 0.0), 20.0), start=45.0,
+                           near=6.0)
+        px, py = box[0] + 10.0, (box[1] + box[3]) / 2
+        leader = _leader((ax, ay), box, colour, 3.0)
         hollow = all(f.waived for _, f in items)
         titles = " | ".join(f"{n} {f.severity}: {f.message}" for n, f in items)
         shape = _marker_shape(worst.severity, px, py, colour, hollow)
         text_fill = colour if hollow else "#ffffff"
-        if len(label) > 2:   # a wider tag beside the mark for several numbers
-            tag = (f'<rect x="{px + 9:.1f}" y="{py - 7:.1f}" width="{5.6 * len(label) + 6:.1f}" height="14" rx="3" '
-                   f'fill="#ffffff" stroke="{colour}" stroke-width="1"/><text x="{px + 12:.1f}" y="{py + 3.5:.1f}" '
+        if tag_w:   # a wider tag beside the mark for several numbers
+            tag = (f'<rect x="{px + 11:.1f}" y="{py - 7:.1f}" width="{tag_w:.1f}" height="14" rx="3" '
+                   f'fill="#ffffff" stroke="{colour}" stroke-width="1"/><text x="{px + 14:.1f}" y="{py + 3.5:.1f}" '
                    f'class="mark" fill="{colour}" style="fill:{colour}">{escape(label)}</text>')
             inner = ""
         else:
@@ -361,5 +608,5 @@ def _markers(frame, solution, findings) -> list[str]:
             inner = (f'<text x="{px:.1f}" y="{py + 3.5:.1f}" text-anchor="middle" class="mark" '
                      f'style="fill:{text_fill}">{escape(label)}</text>')
         out.append(f'<a href="#finding-{items[0][0]}"><g class="marker"><title>{escape(titles)}</title>'
-                   f'{shape}{inner}{tag}</g></a>')
+                   f'{leader}{shape}{inner}{tag}</g></a>')
     return out

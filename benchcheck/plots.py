@@ -2,8 +2,9 @@
 
 matplotlib is imported here only, and only the report command imports this module, so
 ``check`` and ``beams`` stay fast and need no plotting library (it is the ``report``
-extra).  Planes are told apart by line style (tangential solid, sagittal dashed) as well
-as colour, so the plots read in greyscale.
+extra).  Planes are told apart by place, tone, texture and line style as well as colour
+(tangential above the axis, dark and solid; sagittal below, light, hatched and dashed), so
+the plots read in greyscale.
 """
 
 from __future__ import annotations
@@ -18,8 +19,6 @@ import numpy as np
 from .planview import STYLE
 from .solve import radius_along
 
-T_STYLE = dict(color="#0b5fa5", linestyle="-", linewidth=1.6)
-S_STYLE = dict(color="#c2571a", linestyle="--", linewidth=1.6)
 
 
 def _pyplot():
@@ -69,65 +68,333 @@ def path_length(solution, ident: str, role: str) -> float:
     return end + (path.tail.length if path.tail is not None else 0.0)
 
 
-def beam_size_svg(solution, ident: str, role: str) -> str | None:
-    """w_t and w_s against the distance along one cavity or beam, optics and waists marked."""
+#: Tangential above the axis (dark, solid edge), sagittal below (light, hatched, dashed edge):
+#: the planes differ in tone, texture and line, so the caustic reads in greyscale.
+T_FILL = dict(facecolor="#2f5d8a", alpha=0.45, edgecolor="none")
+S_FILL = dict(facecolor="#e0a35b", alpha=0.40, edgecolor="#b06a1c", hatch="////", linewidth=0.0)
+GLYPH = "#3d3a35"
+EMPHASIS = "#b3261e"
+#: An aperture is emphasised as the tightest only when it is this tight (clear radius over
+#: the larger beam radius); a/w = pi/2 passes about 99 % (common practice).
+TIGHT_A_OVER_W = 3.0
+
+
+def _rows(xs, widths, gap: float = 0.004) -> list[int]:
+    """A simple label-placement pass along one axis: each label (centre ``xs``, width
+    ``widths``, both in axes fractions), taken from left to right, goes into the lowest row
+    where it overlaps no label already placed."""
+    placed: list[list[tuple[float, float]]] = []
+    rows = [0] * len(xs)
+    for i in sorted(range(len(xs)), key=lambda j: xs[j]):
+        lo, hi = xs[i] - widths[i] / 2 - gap, xs[i] + widths[i] / 2 + gap
+        for row, spans in enumerate(placed):
+            if all(hi <= a or lo >= b for a, b in spans):
+                spans.append((lo, hi))
+                rows[i] = row
+                break
+        else:
+            rows[i] = len(placed)
+            placed.append([(lo, hi)])
+    return rows
+
+
+def _text_width(text: str, size_pt: float, axes_pt: float) -> float:
+    """Rough width of a label as a fraction of the axes width (0.6 em a character)."""
+    return 0.6 * size_pt * len(text) / axes_pt
+
+
+def _tightest(layout, hits) -> set:
+    """Hits whose clear aperture is tightest for the beam: the smallest a/w along the path
+    (a = clear radius, w the larger plane's radius), when it is below TIGHT_A_OVER_W."""
+    ratios = {}
+    for i, h in enumerate(hits):
+        optic = layout.optics[h.optic]
+        w = max((v for v in h.w.values() if v), default=None)
+        if optic.diameter is None or w is None or optic.kind in ("dump", "detector", "obstacle"):
+            continue
+        ratios[i] = optic.diameter / 2.0 / w
+    if not ratios:
+        return set()
+    best = min(ratios, key=ratios.get)
+    return {best} if ratios[best] < TIGHT_A_OVER_W else set()
+
+
+def _glyph(ax, optic, hit, size: float, length: float, emphasise: bool, ratio: float | None) -> None:
+    """One optic drawn as its own small symbol on the axis at its position: a mirror a bar
+    with its back hatched (bowed by its curvature), a lens a lens outline, a crystal or plate
+    a block of its length, an aperture a pair of jaws at its clear radius, a dump or
+    detector a filled stop."""
+    from matplotlib.patches import Ellipse, Polygon, Rectangle
+
+    s = hit.s
+    colour = EMPHASIS if emphasise else GLYPH
+    lw = 2.4 if emphasise else 1.3
+    kind = optic.kind
+    dx = 0.006 * length
+    if kind in ("mirror", "splitter"):
+        y = np.linspace(-size, size, 21)
+        bow = 0.0 if optic.roc is None else math.copysign(dx * 1.5, optic.roc)
+        x = s + bow * (y / size) ** 2
+        ax.plot(x, y, color=colour, linewidth=lw, solid_capstyle="butt", zorder=4)
+        back = 1.0 if hit.action != "end" or hit.s > 0 else -1.0
+        for yy in np.linspace(-size * 0.9, size * 0.9, 7):
+            xx = s + bow * (yy / size) ** 2
+            ax.plot([xx, xx + back * dx], [yy, yy - 0.18 * size], color=colour, linewidth=0.7, zorder=4)
+        if kind == "splitter":
+            ax.plot([s - dx, s + dx], [-size, size], color=colour, linewidth=0.8, zorder=4)
+    elif kind == "lens":
+        if (optic.focal_length or 1.0) > 0:
+            ax.add_patch(Ellipse((s, 0.0), 2.2 * dx, 2 * size, facecolor="white", edgecolor=colour, linewidth=lw,
+                                 zorder=4))
+        else:
+            pts = [(s - 1.4 * dx, size), (s + 1.4 * dx, size), (s + 0.4 * dx, 0.0), (s + 1.4 * dx, -size),
+                   (s - 1.4 * dx, -size), (s - 0.4 * dx, 0.0)]
+            ax.add_patch(Polygon(pts, closed=True, facecolor="white", edgecolor=colour, linewidth=lw, zorder=4))
+    elif kind in ("crystal", "plate"):
+        inside = optic.length if kind == "crystal" else (optic.thickness or 0.0)
+        half = max(inside / 2.0, dx)
+        ax.add_patch(Rectangle((s - half, -0.8 * size), 2 * half, 1.6 * size, facecolor="#d9d4c7",
+                               edgecolor=EMPHASIS if kind == "crystal" else colour,
+                               linewidth=2.4 if kind == "crystal" else lw, hatch="xx" if kind == "crystal" else "",
+                               alpha=0.9, zorder=3))
+    elif kind == "aperture":
+        pass
+    else:   # dump, detector
+        ax.add_patch(Rectangle((s, -0.6 * size), 1.6 * dx, 1.2 * size, facecolor=colour, edgecolor=colour, zorder=4))
+    if optic.diameter is not None and kind not in ("dump", "detector"):
+        a = optic.diameter / 2.0 * 1e3                       # um, on the same scale as the beam
+        top = ax.get_ylim()[1]
+        if (kind == "aperture" or emphasise) and a < top:
+            for sign in (1.0, -1.0):
+                ax.plot([s, s], [sign * a, sign * min(top, a + 0.15 * top)], color=colour,
+                        linewidth=3.2 if emphasise else 2.2, solid_capstyle="butt", zorder=5)
+        elif kind == "aperture":      # clear radius beyond the drawing: jaws at its edge, open
+            for sign in (1.0, -1.0):
+                ax.plot([s, s], [sign * 0.93 * top, sign * top], color=colour, linewidth=2.2, zorder=5)
+        if emphasise and ratio is not None:
+            ax.annotate(f"tightest: a/w = {ratio:.2g}", (s, -min(a, top) * 0.5), textcoords="offset points",
+                        xytext=(5, 0), fontsize=6.5, color=EMPHASIS, fontweight="bold", zorder=6,
+                        bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.85))
+
+
+def _profile(result, plane: str, s: np.ndarray):
+    pieces = result.profile.get(plane) or []
+    if not pieces:
+        return None
+    w = radius_along(pieces, s) * 1e3
+    good = ~np.isnan(w)
+    if not good.any():
+        return None
+    idx = np.arange(len(w))
+    return np.interp(idx, idx[good], w[good])        # inside thin elements: from the neighbours
+
+
+def caustic_svg(solution, ident: str, role: str) -> str | None:
+    """The beam along one cavity or beam path as a caustic about its axis: the tangential
+    1/e^2 radius above, the sagittal below, both to the same scale and filled; each optic
+    as its own glyph at its position, the crystal and the tightest aperture emphasised;
+    waists marked and labelled (labels placed so they do not overlap)."""
     result = solution.cavities[ident] if role == "cavity" else solution.beams[ident]
-    if not any(result.profile.get(p) for p in ("t", "s")):
+    length = path_length(solution, ident, role)
+    s = np.linspace(0.0, length, 1200)
+    w_t, w_s = _profile(result, "t", s), _profile(result, "s", s)
+    if w_t is None and w_s is None:
         return None
     plt = _pyplot()
-    fig, ax = plt.subplots(figsize=(7.2, 2.6))
-    s = np.linspace(0.0, path_length(solution, ident, role), 900)
-    top = 0.0
-    for plane, style, name in (("t", T_STYLE, "tangential $w_t$"), ("s", S_STYLE, "sagittal $w_s$")):
-        pieces = result.profile.get(plane) or []
-        if not pieces:
+    from matplotlib.ticker import FuncFormatter
+
+    fig, ax = plt.subplots(figsize=(7.2, 2.9))
+    top = max(float(np.max(w)) for w in (w_t, w_s) if w is not None) * 1.3
+    ax.set_xlim(-0.01 * length, length * 1.01)
+    ax.set_ylim(-top, top)
+    if w_t is not None:
+        ax.fill_between(s, 0.0, w_t, zorder=1, **T_FILL)
+        ax.plot(s, w_t, color="#1d3f63", linewidth=1.2, linestyle="-", zorder=2)
+    if w_s is not None:
+        ax.fill_between(s, -w_s, 0.0, zorder=1, **S_FILL)
+        ax.plot(s, -w_s, color="#8a4f12", linewidth=1.2, linestyle="--", zorder=2)
+    ax.axhline(0.0, color=GLYPH, linewidth=0.6, linestyle="-.", zorder=2)
+    layout = solution.layout
+    tight = _tightest(layout, result.hits)
+    glyph = 0.55 * top
+    for i, h in enumerate(result.hits):
+        optic = layout.optics[h.optic]
+        w = max((v for v in h.w.values() if v), default=None)
+        ratio = optic.diameter / 2.0 / w if (optic.diameter and w) else None
+        _glyph(ax, optic, h, glyph, length, i in tight, ratio)
+    axes_pt = 0.86 * 7.2 * 72
+    # optic ids above the plot, in as many rows as close optics need
+    names = [h.optic for h in result.hits]
+    xs = [(h.s + 0.01 * length) / (1.02 * length) for h in result.hits]
+    rows = _rows(xs, [_text_width(n, 7, axes_pt) for n in names])
+    for h, row, i in zip(result.hits, rows, range(len(names))):
+        bold = i in tight or layout.optics[h.optic].kind == "crystal"
+        ax.annotate(h.optic, (h.s, 1.0), xycoords=("data", "axes fraction"), textcoords="offset points",
+                    xytext=(0, 3 + 9 * row), ha="center", va="bottom", fontsize=7,
+                    fontweight="bold" if bold else "normal", color=EMPHASIS if bold else "#333333",
+                    annotation_clip=False)
+    # waists: a tick on the envelope, labels in rows inside the plot (t near the top, s near the bottom)
+    for plane, sign, colour in (("t", 1.0, "#1d3f63"), ("s", -1.0, "#8a4f12")):
+        ws = [w for w in result.waists if w.plane == plane]
+        if not ws:
             continue
-        w = radius_along(pieces, s) * 1e3
-        ax.plot(s, w, label=name, **style)
-        top = max(top, float(np.nanmax(w)))
-    for h in result.hits:
-        ax.axvline(h.s, color="#8c8880", linewidth=0.7, linestyle=":")
-        ax.annotate(h.optic, (h.s, 1.0), xycoords=("data", "axes fraction"), rotation=90, fontsize=7,
-                    ha="right", va="top", color="#444444")
-    for wst in result.waists:
-        marker = "o" if wst.plane == "t" else "s"
-        colour = T_STYLE["color"] if wst.plane == "t" else S_STYLE["color"]
-        ax.plot([wst.s], [wst.w * 1e3], marker=marker, color=colour, markersize=4, linestyle="none")
-        ax.annotate(f"{wst.plane} {wst.w * 1e3:.0f} µm", (wst.s, wst.w * 1e3), textcoords="offset points",
-                    xytext=(3, -10 if wst.plane == "t" else 4), fontsize=7, color=colour, annotation_clip=False)
+        texts = [f"{plane} {w.w * 1e3:.0f} µm" for w in ws]
+        xs = [(min(max(w.s, 0.06 * length), 0.94 * length) + 0.01 * length) / (1.02 * length) for w in ws]
+        rows = _rows(xs, [_text_width(t, 6.5, axes_pt) for t in texts])
+        for w, text, row in zip(ws, texts, rows):
+            y = sign * w.w * 1e3
+            ax.plot([w.s], [y], marker="v" if plane == "t" else "^", color=colour, markersize=4, zorder=6)
+            ly = sign * top * (0.80 - 0.11 * row)
+            lx = min(max(w.s, 0.06 * length), 0.94 * length)      # clear of the axis and its ticks
+            ax.annotate(text, (w.s, y), xytext=(lx, ly), fontsize=6.5, color=colour, ha="center",
+                        va="center", zorder=6, bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.8),
+                        arrowprops=dict(arrowstyle="-", color=colour, linewidth=0.5))
+    ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{abs(v):g}"))
     ax.set_xlabel("distance along the path s (mm)")
-    ax.set_ylabel("1/e$^2$ radius (µm)")
-    ax.set_ylim(0, top * 1.15 if top > 0 else 1)
-    ax.set_xlim(s[0], s[-1])
-    ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.08), ncol=2, fontsize=7, frameon=False)
+    ax.text(-0.075, 0.75, "tangential $w_t$ (µm)", transform=ax.transAxes, rotation=90, ha="center", va="center",
+            fontsize=8, color="#1d3f63")
+    ax.text(-0.075, 0.25, "sagittal $w_s$ (µm)", transform=ax.transAxes, rotation=90, ha="center", va="center",
+            fontsize=8, color="#8a4f12")
+    ax.grid(axis="x", visible=False)
     return _svg(fig)
 
 
-def stability_svg(solution) -> str | None:
-    """Every cavity's half-traces (m_t, m_s): stable inside the square |m| < 1 in both."""
-    cavities = list(solution.cavities.values())
-    if not cavities:
-        return None
+def _steps_half_trace(steps) -> np.ndarray:
+    from .unfold import Marker
+
+    m = None
+    for st in steps:
+        if isinstance(st, Marker):
+            continue
+        mat = st.matrix()
+        m = mat if m is None else np.matmul(mat, m)
+    return (m[..., 0, 0] + m[..., 1, 1]) / 2.0
+
+
+def _thermal_curve(solution, cav):
+    """m per plane against the first crystal's thermal-lens power (1/m), from no lens to
+    past the range; a crystal whose planes differ keeps their ratio.  Returns (crystal id,
+    powers, {plane: m}, (range lo, hi), design power), powers in 1/m."""
+    from .unfold import cavity_train
+
+    layout = solution.layout
+    path = solution.trace.cavities[cav.id]
+    cid = next(iter(cav.thermal.lenses))
+    design = {pl: (1.0 / f if math.isfinite(f) and f else 0.0) for pl, f in cav.thermal.design_f[cid].items()}
+    ranges = [1.0 / f for f in (cav.thermal.lenses[cid]["t"] or ())] or [design["t"]]
+    lo, hi = min(ranges), max(ranges)
+
+    def half_traces(p):
+        out = {}
+        for plane in ("t", "s"):
+            ratio = design[plane] / design["t"] if design["t"] else 1.0
+            train = cavity_train(layout, path, plane, {(cid, plane): p * ratio})
+            out[plane] = np.broadcast_to(_steps_half_trace(train.steps), p.shape)
+        return out
+
+    # show the range and, where one lies within 50 times its reach, the first edge beyond it
+    reach = max(abs(lo), abs(hi), 1e-4)
+    far = np.linspace(hi, hi + 50.0 * reach, 2001)
+    out = np.flatnonzero((np.abs(half_traces(far)["t"]) >= 1.0) | (np.abs(half_traces(far)["s"]) >= 1.0))
+    end = far[out[0]] + 0.25 * (far[out[0]] - lo) if out.size else hi + 0.6 * reach
+    p = np.linspace(min(0.0, lo) - 0.05 * (end - lo), end, 500)
+    curves = half_traces(p)
+    return cid, p * 1e3, curves, (lo * 1e3, hi * 1e3), design["t"] * 1e3
+
+
+def _gap_curve(solution, cav, windows):
+    """m per plane against the air spacing whose stability window is narrowest."""
+    try:
+        from benchcheck.rules.margin import GapScan, air_gaps
+    except ImportError:   # a source checkout: the rule pack is loaded by the plugin manager
+        from .plugins import _builtin_module
+        _builtin_module()
+        from benchcheck.rules.margin import GapScan, air_gaps
+    path = solution.trace.cavities[cav.id]
+    if windows:
+        win = min(windows, key=lambda w: w.distance)
+        gap = win.gap
+    else:
+        gaps = [g for g in air_gaps(solution.layout, path) if g.length > 0]
+        if not gaps:
+            return None
+        gap, win = max(gaps, key=lambda g: g.length), None
+    edges = [e for e in ((win.lo, win.hi) if win else ()) if e is not None]
+    span = max([abs(e - gap.length) for e in edges] + [0.25 * gap.length, 1.0])
+    x = np.linspace(max(0.0, gap.length - 1.6 * span), gap.length + 1.6 * span, 600)
+    curves = {}
+    for plane in ("t", "s"):
+        trips = GapScan(cav.trains[plane], gap, path.role).round_trips(x)
+        curves[plane] = (trips[..., 0, 0] + trips[..., 1, 1]) / 2.0
+    return gap, x, curves, win
+
+
+#: A spacing is compared with the thermal lens as it can be set on a bench: to about this (mm).
+SPACING_TOLERANCE_MM = 1.0
+
+
+def _thermal_matters_more(cav, found) -> bool:
+    """Whether the thermal-lens range brings |m| nearer to 1 than the narrowest spacing
+    does when it moves by SPACING_TOLERANCE_MM either way (or the range is not stable)."""
+    if not all(cav.thermal.stable.values()):
+        return True
+    thermal = max(abs(v) for rng in cav.thermal.m_range.values() for v in rng)
+    gap, x, curves, _ = found
+    near = np.abs(x - gap.length) <= SPACING_TOLERANCE_MM
+    spacing = max(float(np.max(np.abs(curves[p][near]))) for p in ("t", "s")) if near.any() else 0.0
+    return thermal >= spacing
+
+
+def stability_scan_svg(solution, cavity_id: str, windows=()) -> str | None:
+    """For one cavity, the half-trace m = (A+D)/2 of both planes against what matters most
+    for its stability: the thermal-lens power, or the air spacing with the narrowest
+    stability window, whichever brings |m| nearer to 1 (the spacing moved by a millimetre
+    either way, the lens over its whole range).  The stable band |m| < 1 and the stable
+    stretch of the parameter are shaded, the plan (and a thermal-lens range) marked."""
+    cav = solution.cavities[cavity_id]
     plt = _pyplot()
-    fig, ax = plt.subplots(figsize=(3.6, 3.4))
-    ax.add_patch(plt.Rectangle((-1, -1), 2, 2, facecolor="#dcebf5", edgecolor="#0b5fa5", linewidth=1.0,
-                               hatch="..", zorder=0))
-    lim = 1.25
-    for c in cavities:
-        mt, ms = c.modes["t"].m, c.modes["s"].m
-        lim = max(lim, min(abs(mt), 5.0) + 0.25, min(abs(ms), 5.0) + 0.25)
-        shown = (max(-5.0, min(5.0, mt)), max(-5.0, min(5.0, ms)))
-        ax.plot(*shown, marker="o", color=STYLE["ink"], markersize=5)
-        ax.annotate(c.id, shown, textcoords="offset points", xytext=(5, 4), fontsize=8)
-        if c.thermal is not None:
-            (t0, t1), (s0, s1) = c.thermal.m_range["t"], c.thermal.m_range["s"]
-            ax.plot([t0, t1], [s0, s1], color=STYLE["ink"], linewidth=2.0, alpha=0.5)
-    ax.set_xlim(-lim, lim)
-    ax.set_ylim(-lim, lim)
-    ax.set_aspect("equal")
-    ax.set_xlabel("tangential half-trace $m_t$")
-    ax.set_ylabel("sagittal half-trace $m_s$")
-    ax.set_title("stable inside the square", fontsize=8)
+    found = _gap_curve(solution, cav, windows)
+    if cav.thermal is not None and cav.thermal.lenses and (found is None or _thermal_matters_more(cav, found)):
+        cid, x, curves, (lo, hi), plan = _thermal_curve(solution, cav)
+        xlabel = f"thermal-lens power of {cid} (1/m, dioptres)"
+        span = (lo, hi)
+        span_label = "thermal-lens range"
+    else:
+        if found is None:
+            return None
+        gap, x, curves, win = found
+        plan = gap.length
+        xlabel = f"air spacing {gap.first} → {gap.second} (mm)"
+        span = None if win is None else (win.lo if win.lo is not None else x[0],
+                                         win.hi if win.hi is not None else x[-1])
+        span_label = "stable in both planes"
+    fig, ax = plt.subplots(figsize=(7.2, 2.6))
+    ax.axhspan(-1.0, 1.0, facecolor="#e4efe4", edgecolor="none", zorder=0)
+    ax.text(0.995, 0.5, "stable band |m| < 1", transform=ax.get_yaxis_transform(), ha="right", va="center",
+            fontsize=6.5, color="#2d5a2d")
+    if span is not None:
+        ax.axvspan(*span, facecolor="none", edgecolor="#6b6b6b", hatch="\\\\", linewidth=0.0, zorder=0)
+        ax.text((span[0] + span[1]) / 2, 1.0, span_label, transform=ax.get_xaxis_transform(), ha="center",
+                va="bottom", fontsize=6.5, color="#444444")
+    styles = {"t": dict(color="#1d3f63", linestyle="-", linewidth=1.6, label="tangential $m_t$"),
+              "s": dict(color="#b06a1c", linestyle="--", linewidth=1.6, label="sagittal $m_s$")}
+    for plane in ("t", "s"):
+        ax.plot(x, np.clip(curves[plane], -2.9, 2.9), **styles[plane])
+    ax.axvline(plan, color=STYLE["ink"], linewidth=1.0, linestyle=":")
+    for plane, marker in (("t", "o"), ("s", "s")):
+        m = cav.modes[plane].m
+        ax.plot([plan], [max(-2.9, min(2.9, m))], marker=marker, color=styles[plane]["color"], markersize=5,
+                linestyle="none", zorder=5)
+    ax.annotate("plan", (plan, 0.0), xycoords=("data", "axes fraction"), textcoords="offset points",
+                xytext=(3, 2), fontsize=7)
+    for edge in (-1.0, 1.0):
+        ax.axhline(edge, color="#2d5a2d", linewidth=0.7)
+    big = max(float(np.nanmax(np.abs(np.clip(curves[p], -2.9, 2.9)))) for p in ("t", "s"))
+    ax.set_ylim(-max(1.25, big * 1.1), max(1.25, big * 1.1))
+    ax.set_xlim(x[0], x[-1])
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel("half-trace m")
+    ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.06), ncol=2, fontsize=7, frameon=False)
     return _svg(fig)
 
 

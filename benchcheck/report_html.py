@@ -87,6 +87,25 @@ def _ratio_text(loads, factor: float) -> str:
     return f"<strong>{text}</strong>" if worst > 1.0 / (factor or 1.0) else text
 
 
+def shown_root(layout_file: str) -> Path:
+    """Paths in the report are relative to the layout's repository (the nearest folder
+    holding .git), else to the current folder: never a machine's absolute path when the
+    files lie inside either."""
+    here = Path(layout_file).resolve().parent
+    for folder in (here, *here.parents):
+        if (folder / ".git").exists():
+            return folder
+    return Path.cwd().resolve()
+
+
+def shown_path(file: str, root: Path) -> str:
+    """``file`` relative to ``root`` where it lies inside it, else as given."""
+    try:
+        return Path(file).resolve().relative_to(root).as_posix()
+    except (ValueError, OSError):
+        return file
+
+
 class Report:
     def __init__(self, bench: Bench, findings: list, config_path: str | None, rules: dict):
         self.bench = bench
@@ -95,6 +114,7 @@ class Report:
         self.findings = sorted(findings, key=lambda f: (SEVERITY_ORDER.get(f.severity, 3), f.waived,
                                                           f.loc.line if f.loc else 0, f.rule))
         self.numbered = list(enumerate(self.findings, start=1))
+        self.root = shown_root(self.layout.file)
         self.config_path = config_path
         self.rules = rules
 
@@ -130,8 +150,9 @@ class Report:
             f"<title>Bench review: {name}</title>",
             f"<style>{CSS}</style></head><body>",
             f'<header><h1>Bench review: {name}</h1>'
-            f'<p class="meta">Layout <code>{escape(self.layout.file)}</code> · configuration '
-            f'<code>{escape(self.config_path or "defaults")}</code> · benchcheck {escape(__version__)} · '
+            f'<p class="meta">Layout <code>{escape(shown_path(self.layout.file, self.root))}</code> · configuration '
+            f'<code>{escape(shown_path(self.config_path, self.root) if self.config_path else "defaults")}</code> · '
+            f'benchcheck {escape(__version__)} · '
             f'{generated.isoformat(sep=" ")}</p>'
             f'<p class="summary">{summary}</p></header>',
             '<nav><a href="#safety">Safety</a> · <a href="#plan">Plan view</a> · <a href="#findings">Findings</a>'
@@ -160,8 +181,8 @@ class Report:
             (f'<span class="swatch" style="border:2px dashed {STYLE["enclosure"]}"></span>', "enclosures"),
             ('<span class="swatch hatch"></span>', "keep-out zones"),
             (f'<span class="swatch" style="background:{STYLE["hazard"]};opacity:0.45"></span>',
-             "hazard zone of an open beam above the MPE (wide band; a double arrow where it runs on past the "
-             "drawing, with its hazard distance)"),
+             "hazard zone of an open beam above the MPE (wide band; labelled with its hazard distance where it runs on past the "
+             "drawing)"),
             ('<span class="dot">n</span>', "finding n: circle error, diamond warning, square note, hollow waived "
                                             "(links to its row)"),
         ]
@@ -321,7 +342,7 @@ class Report:
     def _findings(self) -> str:
         rows = []
         for n, f in self.numbered:
-            loc = f"{escape(f.loc.file)}:{f.loc.line}:{f.loc.column}" if f.loc else "–"
+            loc = f"{escape(shown_path(f.loc.file, self.root))}:{f.loc.line}:{f.loc.column}" if f.loc else "–"
             sev = f'<span class="sev {escape(f.severity)}">{escape(f.severity)}</span>'
             if f.waived:
                 sev += ' <span class="waived">waived</span>'
@@ -365,16 +386,19 @@ class Report:
         table = _table(["cavity", "plane", "m = (A+D)/2", "status", "Gouy (deg)", "mode spacing", "FSR",
                         "circulating"], rows)
         figs = []
-        diagram = plots.stability_svg(sol)
-        if diagram:
-            figs.append(f'<figure class="narrow">{diagram}<figcaption>Half-traces of each cavity; a bar shows the '
-                        f'thermal-lens range.</figcaption></figure>')
         for c in sol.cavities.values():
-            prof = plots.beam_size_svg(sol, c.id, "cavity")
-            if prof:
-                figs.append(f'<figure class="wide">{prof}<figcaption>Cavity {escape(c.id)}: mode radius along '
-                            f'the path (a linear cavity once, end to end; a ring once round).</figcaption></figure>')
             windows = self._windows(c)
+            scan = plots.stability_scan_svg(sol, c.id, windows)
+            if scan:
+                figs.append(f'<figure class="wide">{scan}<figcaption>Cavity {escape(c.id)}: half-trace of both '
+                            f'planes against what brings it nearest to an edge (the thermal lens over its range, or '
+                            f'the spacing with the narrowest window, named on the axis); stable where both curves '
+                            f'stay in the shaded band; the plan dotted.</figcaption></figure>')
+            prof = plots.caustic_svg(sol, c.id, "cavity")
+            if prof:
+                figs.append(f'<figure class="wide">{prof}<figcaption>Cavity {escape(c.id)}: the mode along the path '
+                            f'(a linear cavity once, end to end; a ring once round), tangential radius above the axis, '
+                            f'sagittal below, to scale; the crystal and the tightest aperture in red.</figcaption></figure>')
             if windows:
                 svg = plots.windows_svg(windows)
                 figs.append(f'<figure class="wide">{svg}<figcaption>Cavity {escape(c.id)}: how far each air '
@@ -394,10 +418,11 @@ class Report:
         sol = self.solution
         figs = []
         for b in sol.beams.values():
-            prof = plots.beam_size_svg(sol, b.id, "beam")
+            prof = plots.caustic_svg(sol, b.id, "beam")
             if prof:
                 figs.append(f'<figure class="wide">{prof}<figcaption>Beam {escape(b.id)} from '
-                            f'{escape(b.origin)}: radius along the path.</figcaption></figure>')
+                            f'{escape(b.origin)}: tangential radius above the axis, sagittal below, to scale, '
+                            f'with each optic at its place.</figcaption></figure>')
         body = "".join(figs) or '<p class="none">None.</p>'
         return f'<section id="beams"><h2>Beams</h2>{body}</section>'
 

@@ -1,6 +1,6 @@
 """Findings as text (compiler style), JSON, SARIF 2.1.0 and GitHub workflow annotations.
 
-The JSON and SARIF shapes are contracts (DESIGN section 6): keys are documented in the
+The JSON and SARIF shapes are contracts (docs/design.md §6): keys are documented in the
 README and only added to within a format version.
 """
 

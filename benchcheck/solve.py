@@ -145,7 +145,7 @@ def solve_layout(layout: Layout) -> Solution:
 def stray_power(layout: Layout, st: Stray, cavities: dict, beams: dict) -> StrayResult:
     """Leak: circulating power times T; what leaves a passive cavity's input coupler is the
     cavity's reflection, at most the input power.  Secondary: the beam's power at the hit
-    times the fraction of the branch it does not follow (DESIGN section 4)."""
+    times the fraction of the branch it does not follow (docs/design.md §4)."""
     if st.kind == "leak":
         cav = layout.cavities[st.parent]
         if st.input_reflection:
@@ -359,7 +359,7 @@ def _peak(power, w_t, w_s):
 
 
 def check_wavelengths(layout: Layout, path: PathTrace) -> None:
-    """Every optic on a path must give its coating data at the path's wavelength (DESIGN §3)."""
+    """Every optic on a path must give its coating data at the path's wavelength (docs/design.md §3)."""
     for hit in path.hits:
         optic = layout.optics[hit.optic]
         reflectivity_at(optic, path.wavelength_nm, 0.0)

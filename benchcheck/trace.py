@@ -139,7 +139,7 @@ def trace(placement: Placement, fold_tolerance: float = FOLD_TOLERANCE_DEG) -> T
 def _leaks(layout: Layout, out: Trace) -> list[Stray]:
     """Every mirror with T > 0 inside a cavity passes light out of its back face along the
     arriving direction: once per arrival, so twice at a fold mirror of a linear cavity
-    (DESIGN section 4)."""
+    (docs/design.md §4)."""
     strays = []
     sent_out = {b.origin for b in layout.beams.values()}
     for cav in layout.cavities.values():

@@ -25,7 +25,7 @@ SPEED_OF_LIGHT_MM_S = 299_792_458_000.0
 #: spread from about 0.3 to 0.6, so a long extrapolation is uncertain).
 SCALING_TAU_RANGE_S = (10e-12, 100e-9)
 SCALING_TAU_RATIO = 10.0
-#: Wavelengths closer than this are the same coating design point (the 2 % of DESIGN §3).
+#: Wavelengths closer than this are the same coating design point (the 2 % of docs/design.md §3).
 SCALING_WAVELENGTH = 0.02
 
 

@@ -1,5 +1,5 @@
 """Tiny helpers for the reference tests: write a layout as TOML text, solve it through the
-public API and pick values out of the JSON beam table (DESIGN section 6).
+public API and pick values out of the JSON beam table (docs/design.md §6).
 
 Nothing here computes optics; the reference values live in the test files, each beside
 its source.

@@ -1,6 +1,7 @@
 """Reference optics for the tests, written here independently of benchcheck.
 
-Each function names its published source.  Everything is in millimetres (wavelengths
+Each function names the published source of its formula (the numbers the tests get from
+these functions are derived values, computed here).  Everything is in millimetres (wavelengths
 too: pass ``nm * 1e-6``) and radians.  Matrices here are ordinary (non-reduced) 2x2 ray
 matrices in air, multiplied right to left in the order the light meets the elements;
 inside a medium only the air-equivalent ("reduced") length L/n of Kogelnik, Ippen,
@@ -21,7 +22,7 @@ NM = 1e-6  # mm per nm
 
 def rayleigh(w0: float, wl: float, m2: float = 1.0, n: float = 1.0) -> float:
     """z_R = pi n w0^2 / (M^2 lambda0) (Kogelnik & Li 1966; the M^2 embedded-Gaussian form
-    of ISO 11146-1, from memory)."""
+    of ISO 11146-1:2005, from memory)."""
     return math.pi * n * w0 * w0 / (m2 * wl)
 
 
@@ -94,6 +95,18 @@ def steps_matrix(steps) -> np.ndarray:
     return chain(*[free(v) if k == "space" else lens(v) for k, v in steps])
 
 
+# --- tilted plates and Brewster elements ---
+
+def plate_lengths(t: float, n: float, aoi: float) -> tuple[float, float]:
+    """Air-equivalent lengths (d_t, d_s) of a plate of thickness t, index n at incidence
+    ``aoi`` (rad): with sin(theta') = sin(aoi)/n (Snell's law) and the path t/cos(theta')
+    inside, d_s = t/(n cos(theta')) and d_t = t cos^2(aoi)/(n cos^3(theta')) (the Coddington
+    equations at two flat faces, common practice; the equivalent lengths of Kogelnik,
+    Ippen, Dienes & Shank, IEEE JQE 8, 373 (1972), from memory)."""
+    inside = math.asin(math.sin(aoi) / n)
+    return (t * math.cos(aoi) ** 2 / (n * math.cos(inside) ** 3), t / (n * math.cos(inside)))
+
+
 # --- two-mirror resonator: Kogelnik & Li 1966, section "Resonators with two mirrors" ---
 
 def g(r: float | None, d: float) -> float:
@@ -126,7 +139,7 @@ def two_mirror(r1: float | None, r2: float | None, d: float, wl: float) -> dict:
 # --- thin-lens focusing: S. A. Self, Applied Optics 22, 658 (1983) ---
 
 def self_focus(s: float, z_r: float, f: float) -> tuple[float, float]:
-    """Self 1983, eqs. (9)-(10) in normalised form: an input waist a distance ``s`` before a
+    """Self 1983, eqs. (9)-(10) (equation numbers from memory) in normalised form: an input waist a distance ``s`` before a
     thin lens of focal length ``f`` (Rayleigh range ``z_r``) is imaged to a waist ``s'``
     after the lens, magnified by m = w0'/w0:
         s'/f = 1 + (s/f - 1) / ((s/f - 1)^2 + (z_r/f)^2)
@@ -137,6 +150,26 @@ def self_focus(s: float, z_r: float, f: float) -> tuple[float, float]:
     s_out = f * (1.0 + u / (u * u + r * r))
     mag = 1.0 / math.sqrt(u * u + r * r)
     return s_out, mag
+
+
+# --- mode matching: the overlap integral of two Gaussian modes ---
+
+def overlap_1d(w1: float, w2: float, tilt: float = 0.0, wl: float = 1.0) -> float:
+    """Power coupling |integral u1 u2* dx|^2 of two 1-D fundamental Gaussians with coincident
+    plane waists w1, w2, the second tilted by ``tilt`` rad (a linear phase k tilt x), by
+    scipy's numerical quadrature: the overlap integral of mode matching (H. Kogelnik,
+    "Coupling and conversion coefficients for optical modes", Proc. Symposium on
+    Quasi-Optics, Polytechnic Institute of Brooklyn, 1964; from memory)."""
+    from scipy.integrate import quad
+
+    def u(x, w):
+        return (2.0 / math.pi) ** 0.25 / math.sqrt(w) * math.exp(-x * x / (w * w))
+
+    k = 2.0 * math.pi / wl
+    span = 8.0 * max(w1, w2)
+    re = quad(lambda x: u(x, w1) * u(x, w2) * math.cos(k * tilt * x), -span, span, limit=200)[0]
+    im = quad(lambda x: u(x, w1) * u(x, w2) * math.sin(k * tilt * x), -span, span, limit=200)[0]
+    return re * re + im * im
 
 
 # --- power build-up (Siegman, Lasers, ch. 11, from memory; field sum of a Fabry-Perot) ---

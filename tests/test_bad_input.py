@@ -1,4 +1,4 @@
-"""The bad-input contract of ``benchcheck beams`` (DESIGN.md section 3, format 1).
+"""The bad-input contract of ``benchcheck beams`` (docs/design.md §3, format 1).
 
 Any malformed layout must end with exit status 2 and ONE error line on stderr of the form
 ``FILE:LINE:COL: error: MESSAGE`` that names the offending key or table and says what was

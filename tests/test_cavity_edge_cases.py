@@ -7,6 +7,7 @@ import math
 
 import pytest
 
+import refphysics as ref
 from benchcheck import LayoutError, solve_text
 from layouts_util import (
     beam, beam_entry, cavity, cavity_entry, layout, mirror, optic, rel, solved, source,
@@ -115,8 +116,12 @@ def seeded_tilted(tilt_deg: float) -> str:
 @pytest.mark.parametrize("tilt_deg", [0.0, 0.01, 0.02, 0.04])
 def test_tilted_seed_loses_coupling(tilt_deg):
     """Matched waists tilted by theta overlap by exp(-(theta/theta0)^2), theta0 = lambda/(pi w0)
-    (Gaussian overlap integral with a linear phase; Kogelnik 1964, from memory)."""
+    (derived from the Gaussian overlap integral with a linear phase of H. Kogelnik, "Coupling
+    and conversion coefficients for optical modes", Quasi-Optics symposium, 1964, from
+    memory; the integral is also computed here by quadrature, refphysics.overlap_1d)."""
     text, w0 = seeded_tilted(tilt_deg)
+    theta = math.radians(tilt_deg)
+    assert ref.overlap_1d(w0, w0, theta, WL) == pytest.approx(math.exp(-(theta * math.pi * w0 / WL) ** 2), rel=1e-8)
     end = beam_entry(solved(text))["ends"]
     theta0 = WL / (math.pi * w0)
     assert end["kind"] == "cavity"
@@ -185,7 +190,7 @@ def test_beam_along_a_mirror_face_is_reported_and_stays_finite():
 
 def test_thermal_range_through_a_retracing_point_stays_stable():
     """Flat - lens - flat with 100 mm each side: at f = 100 mm the round trip is -I (every
-    ray retraces: the confocal-like point, DESIGN section 4), stable on both sides, so a range
+    ray retraces: the confocal-like point, docs/design.md §4), stable on both sides, so a range
     through it is stable: g1 g2 = (1 - 100 P)^2 in [0, 1) for P up to 1/60 except the
     touching point P = 1/100 (Kogelnik & Li 1966, equivalent g-parameters)."""
     c = cavity_entry(solved(flat_lens_flat(100.0, 100.0, (60.0, 1e4))))

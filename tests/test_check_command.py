@@ -11,11 +11,13 @@ import pytest
 
 from benchcheck.cli import main
 
-SCHEMA = Path(__file__).resolve().parent.parent.parent / "shared" / "data" / "sarif-schema-2.1.0.json"
+# the SARIF 2.1.0 JSON Schema (draft-07) as OASIS publishes it with the standard
+# ("Static Analysis Results Interchange Format (SARIF) Version 2.1.0", OASIS Standard, 2020)
+SCHEMA = Path(__file__).resolve().parent / "data" / "sarif-schema-2.1.0.json"
 
 # A plano-concave laser whose output goes to a dump; the HR leaks 0.05 % of 40 W = 20 mW
 # out of the back onto a card (an obstacle, not a dump) behind it (P_circ = P_out / T_oc,
-# README "Physics conventions").
+# docs/design.md §4).
 LAYOUT = """format = 1
 [bench]
 name = "check test"
@@ -101,7 +103,7 @@ def test_leak_found_with_numbers(tmp_path, capsys):
     leaks = [f for f in doc["findings"] if f["rule"] == "leak-beam"]
     assert len(leaks) == 1
     f = leaks[0]
-    # 2 W / 0.05 = 40 W circulating; 0.0005 of it leaks: 0.02 W (DESIGN section 4)
+    # 2 W / 0.05 = 40 W circulating; 0.0005 of it leaks: 0.02 W (docs/design.md §4)
     assert f["value"] == pytest.approx(0.02, rel=1e-9)
     assert f["limit"] == pytest.approx(0.001)
     assert f["unit"] == "W" and f["targets"][0] == "HR"
@@ -255,7 +257,6 @@ def test_parallel_run_matches_serial(tmp_path, capsys):
     assert serial == parallel and out1 == out2
 
 
-@pytest.mark.skipif(not SCHEMA.is_file(), reason="the OASIS SARIF schema is in ../shared/data, absent in this clone")
 def test_sarif_validates_against_the_oasis_schema(tmp_path, capsys, monkeypatch):
     jsonschema = pytest.importorskip("jsonschema")
     monkeypatch.chdir(tmp_path)
@@ -284,7 +285,6 @@ def test_rules_command_lists_every_builtin_rule(capsys):
         assert r["plugin"] and r["summary"] and r["explanation"] and r["severity"] in ("error", "warning", "note")
 
 
-@pytest.mark.skipif(not SCHEMA.is_file(), reason="the OASIS SARIF schema is in ../shared/data, absent in this clone")
 def test_sarif_fingerprints_tell_findings_apart(capsys):
     """GitHub code scanning merges results with equal fingerprints: the flawed demo's two
     planes of one cavity, and two leaks of one fold mirror, must stay apart."""

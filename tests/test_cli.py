@@ -1,5 +1,5 @@
 """The beams command on the demo layouts: exit status, the text table, and the JSON beam
-table's keys exactly as DESIGN section 6 names them."""
+table's keys exactly as the README's "The JSON beam table" names them."""
 
 from __future__ import annotations
 

@@ -1,6 +1,6 @@
 """Placement and tracing against hand geometry (plane trigonometry).
 
-The fold convention is DESIGN section 3: fold is the full angle between the arriving and
+The fold convention is docs/design.md §3: fold is the full angle between the arriving and
 leaving beam (twice the angle of incidence), positive when the beam turns left, and the new
 heading is old + sign(fold) * (180 - |fold|).
 """
@@ -33,7 +33,7 @@ def kinds(sol):
 @pytest.mark.parametrize("fold, turn", [(90, 90), (-90, -90), (20, 160), (-20, -160), (0, 180), (170, 10)])
 def test_fold_to_heading_change(fold, turn):
     # a 45-degree steering mirror turns the beam by 90 degrees (fold = +-90); a small
-    # fold is almost a retro-reflection (DESIGN section 3)
+    # fold is almost a retro-reflection (docs/design.md §3)
     assert turn_for_fold(fold) % 360 == pytest.approx(turn % 360)
     assert fold_for_turn(turn) == pytest.approx(fold)
 

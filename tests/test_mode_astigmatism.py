@@ -7,9 +7,13 @@ of length L is L/n sagittal and L/n^3 tangential, N t = L (n^2-1)/n^3; a Brewste
 thickness t has N t = t sqrt(n^2+1) (n^2-1)/n^4; compensation 2 N t = R sin(theta) tan(theta)
 with one curved fold (three-mirror cavity) and N t = (R1/2) sin tan + (R2/2) sin tan with
 two (four-mirror); with equal angles cos(theta) = (-k + sqrt(k^2+4))/2, k = 2 N t/(m R).
-Check values computed for the project's reference list from these formulas (quoted beside
-each check).  The exact tilted-plate astigmatism: W. J. Smith, "Modern Optical
-Engineering" (Fig. 7.14 formulas).  Mode radii: an independent round trip by the ABCD law
+Every check value is derived from these formulas and computed in the test; the digits
+written beside a check are what that computation gives (no paper prints them).  The
+tilted plate at any angle: air-equivalent lengths t/(n cos(theta')) sagittal and
+t cos^2(theta)/(n cos^3(theta')) tangential (derived from Snell's law and the Coddington
+equations at a flat face, common practice; W. J. Smith, "Modern
+Optical Engineering", McGraw-Hill, gives the same exact plate astigmatism: from memory,
+edition and page not checked).  Mode radii: an independent round trip by the ABCD law
 (Kogelnik & Li, Applied Optics 5, 1550 (1966)) in ``refphysics``.
 """
 
@@ -97,10 +101,19 @@ def three_mirror(theta_deg: float, element: str | None = None) -> str:
 # --- the element's astigmatism and the compensating angle -----------------------------------
 
 def test_element_astigmatism_check_values():
-    """N t = d_s - d_t: Brewster crystal L = 10, n = 1.76: L (n^2-1)/n^3 = 3.847554 mm;
-    Brewster plates t = 1, n = 1.45: 0.439301 mm and t = 3, n = 1.76: 1.327572 mm
-    (t sqrt(n^2+1)(n^2-1)/n^4, Kogelnik et al. 1972); plate t = 5, n = 1.5 at 45 deg:
-    3.779645 - 2.429772 mm (Smith, exact plate astigmatism)."""
+    """N t = d_s - d_t, derived from the formulas of Kogelnik et al. 1972 (from memory) and
+    computed here: Brewster crystal L = 10, n = 1.76: L (n^2-1)/n^3 = 3.847554 mm; Brewster
+    plates t = 1, n = 1.45: 0.439301 mm and t = 3, n = 1.76: 1.327572 mm
+    (t sqrt(n^2+1)(n^2-1)/n^4); plate t = 5, n = 1.5 at 45 deg: d_s - d_t =
+    t/(n cos(theta')) - t cos^2(theta)/(n cos^3(theta')) = 3.779645 - 2.429772 mm."""
+    def brewster_nt(t, n):
+        return t * math.sqrt(n * n + 1) * (n * n - 1) / n**4
+    assert brewster_nt(1.0, 1.45) == printed("0.439301")
+    assert brewster_nt(3.0, 1.76) == printed("1.327572")
+    inside = math.asin(math.sin(math.radians(45.0)) / 1.5)        # Snell's law
+    d_s = 5.0 / (1.5 * math.cos(inside))
+    d_t = 5.0 * math.cos(math.radians(45.0)) ** 2 / (1.5 * math.cos(inside) ** 3)
+    assert (d_s, d_t) == (printed("3.779645"), printed("2.429772"))
     cases = [
         (crystal(), "3.847554"),
         (brewster_plate(), "0.439301"),
@@ -113,8 +126,7 @@ def test_element_astigmatism_check_values():
         assert element_astigmatism(sol.layout.optics["X1"], h.aoi) == printed(expected)
     assert L_XTAL * (N_XTAL**2 - 1) / N_XTAL**3 == printed("3.847554")
     sol = solve_text(four_mirror(11.0, optic("X1", "plate", thickness=5.0, index=1.5, aoi=45.0)))
-    assert element_astigmatism(sol.layout.optics["X1"], math.radians(45.0)) == pytest.approx(
-        3.779645 - 2.429772, abs=1e-6)
+    assert element_astigmatism(sol.layout.optics["X1"], math.radians(45.0)) == pytest.approx(d_s - d_t, abs=1e-9)
 
 
 @pytest.mark.parametrize("nt, mirrors, expected", [
@@ -124,7 +136,11 @@ def test_element_astigmatism_check_values():
     (0.439301, 2, "3.7962"),       # same, four-mirror
 ])
 def test_equal_angle_check_values(nt, mirrors, expected):
-    """cos(theta) = (-k + sqrt(k^2+4))/2, k = 2 N t/(m R), R = 100 (Kogelnik et al. 1972)."""
+    """cos(theta) = (-k + sqrt(k^2+4))/2, k = 2 N t/(m R), R = 100: derived from the
+    compensation condition of Kogelnik et al. 1972 (from memory); the angle is recomputed
+    here from that closed form and the balance checked below."""
+    k = 2.0 * nt / (mirrors * 100.0)
+    assert math.degrees(math.acos((-k + math.sqrt(k * k + 4.0)) / 2.0)) == printed(expected)
     theta = equal_angle(nt, mirrors * 100.0)
     assert math.degrees(theta) == printed(expected)
     # and it balances: m (R/2) sin(theta) tan(theta) = N t
@@ -160,7 +176,7 @@ def test_no_note_within_tolerance():
 
 def test_unequal_angles_that_balance_are_not_noted():
     """M2 at 9 deg, M3 at the angle that makes (R/2)(sin t2 tan t2 + sin t3 tan t3) = N t
-    (Kogelnik et al. 1972, two-mirror form): compensated, no note; the same two angles
+    (Kogelnik et al. 1972, two-mirror form, from memory; solved here): compensated, no note; the same two angles
     swapped by 3 deg are not."""
     nt = L_XTAL * (N_XTAL**2 - 1) / N_XTAL**3
     s = 2 * nt / 100.0 - math.sin(math.radians(9.0)) * math.tan(math.radians(9.0))

@@ -368,7 +368,7 @@ def edge_clearance(points, size):
                for d, edge in ((x, "left"), (size[0] - x, "right"), (y, "bottom"), (size[1] - y, "top")))
 
 
-# footprints written out from the layout format (DESIGN section 3): a transmissive optic's
+# footprints written out from the layout format (docs/design.md §3): a transmissive optic's
 # mount is centred on it, width across the beam and depth along it; a mirror's spans its
 # face and reaches depth behind it, along -normal
 M1_FACE = (580.0, 150.0)

@@ -2,12 +2,15 @@
 
 References: S. A. Self, "Focusing of spherical Gaussian beams", Applied Optics 22, 658
 (1983) (thin-lens waist position and magnification); H. Kogelnik and T. Li, Applied
-Optics 5, 1550 (1966) (w(z), z_R, the ABCD law); ISO 11146-1 (M^2 beams as embedded
-Gaussians, W(z)^2 = W0^2 + (M^2 lambda/(pi W0))^2 z^2; from memory);
+Optics 5, 1550 (1966) (w(z), z_R, the ABCD law); ISO 11146-1:2005, the standard's first
+edition (M^2 beams as embedded Gaussians, W(z)^2 = W0^2 + (M^2 lambda/(pi W0))^2 z^2; from
+memory);
 `sympy.physics.optics.gaussopt` (`FreeSpace`, `ThinLens`, `BeamParameter` with n = 1 and
 a float z_r) as an independent numeric reference; A. E. Siegman, "Lasers" (1986), ch. 11
-(build-up of a passive cavity on resonance; from memory).  Expected values are computed
-here or printed in the sources, never taken from benchcheck.
+(build-up of a passive cavity on resonance; from memory).  Expected values are derived
+from these formulas and computed here (the digits written beside a check are what the
+computation gives; no source prints them) or are sympy's result, never taken from
+benchcheck.
 """
 
 from __future__ import annotations
@@ -53,10 +56,13 @@ def later_waist(entry: dict, plane: str, after: float) -> dict:
 
 def test_free_propagation_check_values():
     """w0 = 100 um at 1064 nm: z_R = 29.526247 mm; w(z_R) = 141.4214 um; w(100 mm) = 353.13639
-    um (Kogelnik & Li 1966, w(z) = w0 sqrt(1 + (z/z_R)^2); sympy `BeamParameter` agrees)."""
+    um (derived from Kogelnik & Li 1966, w(z) = w0 sqrt(1 + (z/z_R)^2), computed here;
+    sympy `BeamParameter`'s result agrees)."""
     w0 = 0.1
     z_r = ref.rayleigh(w0, WL)
     assert z_r == printed("29.526247")
+    assert ref.w_at(w0, z_r, z_r) * 1e3 == printed("141.4214")
+    assert ref.w_at(w0, 100.0, z_r) * 1e3 == printed("353.13639")
     bp = BeamParameter(WL, 100.0, z_r=z_r)
     assert float(bp.w) * 1e3 == printed("353.13639")
     text = straight_beam([("A1", z_r), ("A2", 100.0 - z_r), ("D1", 50.0)],
@@ -74,8 +80,8 @@ def test_free_propagation_check_values():
 
 def test_m2_beam_rayleigh_range_and_divergence():
     """w0 = 100 um, M^2 = 1.5 at 1064 nm: z_R = pi w0^2/(M^2 lambda) = 19.684164 mm and the
-    far-field half-angle M^2 lambda/(pi w0) = 5.080226 mrad (ISO 11146-1 embedded Gaussian,
-    from memory; Kogelnik & Li 1966): w(z_R) = sqrt(2) w0 and w(z)^2 = w0^2 + (theta z)^2."""
+    far-field half-angle M^2 lambda/(pi w0) = 5.080226 mrad (derived from the ISO 11146-1:2005
+    embedded Gaussian, from memory, and Kogelnik & Li 1966; computed here): w(z_R) = sqrt(2) w0 and w(z)^2 = w0^2 + (theta z)^2."""
     w0, m2 = 0.1, 1.5
     z_r = ref.rayleigh(w0, WL, m2)
     theta = m2 * WL / (math.pi * w0)
@@ -93,7 +99,7 @@ def test_m2_beam_rayleigh_range_and_divergence():
 
 def test_rayleigh_range_inside_a_medium():
     """Inside index n the Rayleigh range is n times the air value, z_R = pi n w0^2/lambda0
-    (Kogelnik & Li 1966): 51.966194 mm for w0 = 100 um, n = 1.76.  A source focuses to a
+    (Kogelnik & Li 1966): 51.966194 mm for w0 = 100 um, n = 1.76 (computed here).  A source focuses to a
     waist on the entrance face of a long normal-cut crystal; at the crystal's centre,
     z_R(n) inside, the radius is sqrt(2) w0."""
     w0, n = 0.1, 1.76
@@ -168,7 +174,8 @@ def test_self_1983_s_equals_f_images_to_f():
 
 def test_collimated_beam_into_a_lens_check_values():
     """A collimated beam, w = 1 mm at the lens (1064 nm), into f = 100 mm: the waist lies
-    99.885426 mm after the lens with w0' = 33.848764 um (Self 1983 with s = 0).  The
+    99.885426 mm after the lens with w0' = 33.848764 um (derived from Self 1983 with s = 0,
+    computed here by refphysics.self_focus).  The
     far-field estimate lambda f/(pi w) = 33.868 um is 0.06 % off, so the exact law is in use."""
     s_out, mag = ref.self_focus(0.0, ref.rayleigh(1.0, WL), 100.0)
     assert s_out == printed("99.885426")
@@ -223,7 +230,7 @@ def sympy_chain(w0: float, waist_at: float, wl: float, elements, tail: float):
 def test_lens_chain_against_sympy(w0, waist_at, m2, wavelength_nm):
     """Four thin lenses (f = 100, -50, 200, 75 mm) after a source: the radius at every lens
     and the waists between them agree with sympy gaussopt.  For M^2 > 1 the embedded
-    Gaussian is a Gaussian of wavelength M^2 lambda (ISO 11146-1, from memory)."""
+    Gaussian is a Gaussian of wavelength M^2 lambda (ISO 11146-1:2005, from memory)."""
     wl = wavelength_nm * ref.NM
     tail = 400.0
     optics = [optic(i, "lens", focal_length=f) for i, _, f in CHAIN] + [optic("D1", "dump")]
@@ -292,8 +299,9 @@ def test_power_through_mirrors_splitters_and_a_lens():
 
 def test_peak_intensity_on_the_beam():
     """Peak intensity of a Gaussian, I0 = 2P/(pi w^2), from integrating the profile
-    I0 exp(-2 r^2/w^2) of Kogelnik & Li 1966: 1 W in w = 1 mm is 63.661977 W/cm^2.  A round
-    1 mm waist on a detector."""
+    I0 exp(-2 r^2/w^2) of Kogelnik & Li 1966: 1 W in w = 1 mm is 63.661977 W/cm^2 (computed
+    here).  A round 1 mm waist on a detector."""
+    assert 2 * 1.0 / (math.pi * 0.1**2) == printed("63.661977")
     text = straight_beam([("PM", 1e-3)], [optic("PM", "detector")], waist=1.0, waist_at=1e-3)
     b = beam_entry(solved(text))
     assert hit(b, "PM")["peak_w_cm2"] == printed("63.661977")
@@ -308,8 +316,9 @@ def test_peak_intensity_on_the_beam():
 ])
 def test_passive_linear_cavity_buildup(r_in, r_end, loss, expected):
     """On resonance P_circ/P_in = T_in/(1 - sqrt(R_in R_rest (1 - loss)))^2 (Siegman, Lasers,
-    ch. 11, from memory; the field sum E_c = t1 E_in/(1 - r1 r_rest)); check values T1 = 1 %,
-    R2 = 1, loss 1 % -> 100; R2 = 0.999 -> 329.35803."""
+    ch. 11, from memory; the field sum E_c = t1 E_in/(1 - r1 r_rest)); check values derived
+    from it and computed here by refphysics.buildup: T1 = 1 %, R2 = 1, loss 1 % -> 100;
+    R2 = 0.999 -> 329.35803."""
     p_in = 2.0
     gain = ref.buildup(1 - r_in, r_in, r_end, loss)
     assert gain == printed(expected)
@@ -344,7 +353,7 @@ def test_impedance_matched_cavity_transmits_everything():
 
 
 def test_fold_mirror_loss_counts_twice_in_a_linear_cavity():
-    """A fold mirror of a linear cavity is met twice per round trip (DESIGN s. 4; Siegman
+    """A fold mirror of a linear cavity is met twice per round trip (docs/design.md §4; Siegman
     ch. 11): R_rest = R_fold^2 R_end in the build-up formula."""
     text = layout(
         mirror("IC", 1000.0, at=START, reflectivity=0.99),
@@ -359,7 +368,8 @@ def test_fold_mirror_loss_counts_twice_in_a_linear_cavity():
 
 def test_bow_tie_buildup_check_value():
     """Ring: T1 = 0.5 %, three mirrors R = 0.9999 and a crystal with 0.2 % single-pass loss give
-    a build-up of 375.18157 (Siegman ch. 11 formula, from memory; each element met once)."""
+    a build-up of 375.18157 (Siegman ch. 11 formula, from memory, computed here; each element
+    met once)."""
     gain = ref.buildup(0.005, 0.995, 0.9999**3 * 0.998)
     assert gain == printed("375.18157")
     text = layout(
@@ -432,9 +442,9 @@ def test_output_beam_when_the_output_coupler_starts_the_path():
 
 
 def test_single_shot_source_reports_peak_fluence():
-    """A pulse with energy but no repetition rate: peak fluence 2E/(pi w^2) (REFERENCES §5,
-    from the Gaussian profile: E = F0 pi w^2 / 2), here E = 1 mJ, w = 0.5 mm -> 0.2546479
-    J/cm^2 at the source waist, and half of it after a 50 % splitter passed in transmission."""
+    """A pulse with energy but no repetition rate: peak fluence 2E/(pi w^2) (derived
+    from the Gaussian profile, E = F0 pi w^2 / 2, computed here), here E = 1 mJ,
+    w = 0.5 mm -> 0.2546479 J/cm^2 at the source waist, and half of it after a 50 % splitter passed in transmission."""
     text = layout(
         optic("BS", "splitter", at=[200.0, 500.0], reflectivity=0.5, fold=90.0),
         optic("D", "dump", at=[300.0, 500.0]),
@@ -444,7 +454,7 @@ def test_single_shot_source_reports_peak_fluence():
         size=(1000.0, 1000.0),
     )
     b = beam_entry(solved(text))
-    assert hit(b, "BS")["peak_j_cm2"] == pytest.approx(0.2546479, rel=1e-6)
+    assert hit(b, "BS")["peak_j_cm2"] == pytest.approx(2 * 1e-3 / (math.pi * 0.05**2), rel=1e-6)   # 0.2546479
     assert hit(b, "BS")["power_w"] is None
     z_r = ref.rayleigh(0.5, 1064e-6)
     w_d = ref.w_at(0.5, 100.0, z_r)

@@ -4,11 +4,14 @@ off-axis mirrors, refracting interfaces, thermal lenses and mirror substrates.
 References: H. Kogelnik, E. P. Ippen, A. Dienes and C. V. Shank, "Astigmatically
 compensated cavities for CW dye lasers", IEEE J. Quantum Electron. 8, 373 (1972)
 (equivalent lengths of a tilted plate and a Brewster-cut crystal, off-axis mirror focal
-lengths; from memory), checked by the exact plate astigmatism in W. J. Smith, "Modern
-Optical Engineering" (Fig. 7.14 formulas); H. Kogelnik and T. Li, Applied Optics 5, 1550
+lengths; from memory; the same exact plate astigmatism is in W. J. Smith, "Modern
+Optical Engineering", McGraw-Hill, from memory, edition and page not checked); H. Kogelnik
+and T. Li, Applied Optics 5, 1550
 (1966) (ray matrices, two-mirror closed forms); A. E. Siegman, "Lasers" (1986), ch. 15
 (reduced slope, det = 1; from memory); `sympy.physics.optics.gaussopt` as an independent
-numeric reference (non-reduced matrices, used with n = 1 in air only).
+numeric reference (non-reduced matrices, used with n = 1 in air only).  Check values are
+derived from these formulas and computed in each test (``refphysics.plate_lengths`` for
+plates); the digits written beside a check are what that computation gives.
 """
 
 from __future__ import annotations
@@ -47,8 +50,8 @@ def refraction(n: float, aoi: float) -> float:
 # --- benchcheck.abcd directly -----------------------------------------------------------
 
 @pytest.mark.parametrize("t, n, aoi_deg, d_t, d_s", [
-    # Kogelnik et al. 1972 plate formulas; check values from the exact plate astigmatism
-    # (Smith, Modern Optical Engineering): t = 5, n = 1.5, 45 deg
+    # derived from the plate formulas (refphysics.plate_lengths), computed in the test:
+    # t = 5, n = 1.5, 45 deg
     (5.0, 1.5, 45.0, "2.429772", "3.779645"),
     # at Brewster's angle, tan(theta) = n: t sqrt(n^2+1)/n^4 and t sqrt(n^2+1)/n^2
     (3.0, 1.76, None, "0.632900", "1.960472"),
@@ -57,8 +60,10 @@ def refraction(n: float, aoi: float) -> float:
 def test_plate_reduced_lengths(t, n, aoi_deg, d_t, d_s):
     aoi = math.atan(n) if aoi_deg is None else math.radians(aoi_deg)
     got_t, got_s = abcd.plate_reduced_lengths(t, n, aoi)
-    assert float(got_t) == printed(d_t)
-    assert float(got_s) == printed(d_s)
+    want_t, want_s = ref.plate_lengths(t, n, aoi)
+    assert (want_t, want_s) == (printed(d_t), printed(d_s))
+    assert float(got_t) == pytest.approx(want_t, rel=1e-12)
+    assert float(got_s) == pytest.approx(want_s, rel=1e-12)
     if aoi_deg is None:
         root = math.sqrt(n * n + 1)
         assert float(got_s) == pytest.approx(t * root / n**2, rel=1e-12)
@@ -68,12 +73,16 @@ def test_plate_reduced_lengths(t, n, aoi_deg, d_t, d_s):
 
 
 def test_brewster_plate_astigmatism_check_values():
-    """Kogelnik et al. 1972: N t for t = 3 mm, n = 1.76 is 1.327572 mm; for t = 1 mm, n = 1.45,
-    N = 0.439301; theta_B = arctan(1.76) = 60.3955 deg."""
+    """N t = t sqrt(n^2+1)(n^2-1)/n^4 (Kogelnik et al. 1972, from memory), computed here:
+    1.327572 mm for t = 3 mm, n = 1.76; N = 0.439301 for t = 1 mm, n = 1.45;
+    theta_B = arctan(1.76) = 60.3955 deg (Brewster's angle, common practice)."""
+    def nt(t, n):
+        return t * math.sqrt(n * n + 1) * (n * n - 1) / n**4
+    assert (nt(3.0, 1.76), nt(1.0, 1.45)) == (printed("1.327572"), printed("0.439301"))
     d_t, d_s = abcd.plate_reduced_lengths(3.0, 1.76, math.atan(1.76))
-    assert float(d_s - d_t) == printed("1.327572")
+    assert float(d_s - d_t) == pytest.approx(nt(3.0, 1.76), rel=1e-12)
     d_t, d_s = abcd.plate_reduced_lengths(1.0, 1.45, math.atan(1.45))
-    assert float(d_s - d_t) == printed("0.439301")
+    assert float(d_s - d_t) == pytest.approx(nt(1.0, 1.45), rel=1e-12)
     assert math.degrees(float(abcd.brewster_angle(1.76))) == printed("60.3955")
 
 
@@ -83,9 +92,12 @@ def test_brewster_plate_astigmatism_check_values():
     (0.0, "50.0000", "50.0000"),
 ])
 def test_mirror_focal_length(aoi_deg, f_t, f_s):
-    """Kogelnik et al. 1972: f_t = (R/2) cos(theta), f_s = (R/2)/cos(theta); R = 100 mm.
-    The mirror matrix has C = -1/f in each plane."""
+    """f_t = (R/2) cos(theta), f_s = (R/2)/cos(theta) (Kogelnik et al. 1972, from memory),
+    R = 100 mm, computed here.  The mirror matrix has C = -1/f in each plane."""
     aoi = math.radians(aoi_deg)
+    assert (50.0 * math.cos(aoi), 50.0 / math.cos(aoi)) == (printed(f_t), printed(f_s))
+    assert float(abcd.mirror_focal_length(100.0, aoi, "t")) == pytest.approx(50.0 * math.cos(aoi), rel=1e-12)
+    assert float(abcd.mirror_focal_length(100.0, aoi, "s")) == pytest.approx(50.0 / math.cos(aoi), rel=1e-12)
     assert float(abcd.mirror_focal_length(100.0, aoi, "t")) == printed(f_t)
     assert float(abcd.mirror_focal_length(100.0, aoi, "s")) == printed(f_s)
     for plane, f in (("t", f_t), ("s", f_s)):
@@ -116,7 +128,7 @@ def test_flat_interface_tilted():
 def test_plate_from_interfaces_gives_the_reduced_length(plane):
     """Entering face, the glass (reduced length L/n, L = t/cos t2) and the leaving face make a
     plain free space of the plate's reduced length: d_t = 2.429772, d_s = 3.779645 mm for
-    t = 5, n = 1.5 at 45 deg (Kogelnik et al. 1972; Smith, Modern Optical Engineering)."""
+    t = 5, n = 1.5 at 45 deg (refphysics.plate_lengths, computed here)."""
     t, n, aoi = 5.0, 1.5, math.radians(45.0)
     t2 = refraction(n, aoi)
     m = abcd.compose([abcd.interface(1.0, n, aoi, plane=plane),
@@ -126,6 +138,7 @@ def test_plate_from_interfaces_gives_the_reduced_length(plane):
     assert m[1, 1] == pytest.approx(1.0, abs=1e-12)
     assert m[1, 0] == pytest.approx(0.0, abs=1e-12)
     assert m[0, 1] == printed("2.429772" if plane == "t" else "3.779645")
+    assert m[0, 1] == pytest.approx(ref.plate_lengths(t, n, aoi)[0 if plane == "t" else 1], rel=1e-12)
 
 
 @pytest.mark.parametrize("roc, n1, n2", [(100.0, 1.0, 1.5), (-80.0, 1.0, 1.45), (60.0, 1.76, 1.0), (-40.0, 1.5, 1.2)])
@@ -223,7 +236,7 @@ BREWSTER_CAVITIES = [
 def test_brewster_crystal_in_a_cavity(r1, r2, d, a, length, n):
     """A Brewster-cut crystal of length L acts as L/n sagittal and L/n^3 tangential
     (Kogelnik et al. 1972); inside it the physical tangential radius is the model radius
-    times cos t2/cos t1 = n at Brewster, the sagittal unchanged (same source; DESIGN s. 6).
+    times cos t2/cos t1 = n at Brewster, the sagittal unchanged (same source; docs/design.md §4).
     Expected: Kogelnik & Li closed forms with the equivalent length, and an independent
     matrix round trip; FSR = c / (2 (d - L + n L))."""
     xtal = optic("X1", "crystal", length=length, index=n, faces="brewster")
@@ -253,8 +266,8 @@ def test_brewster_crystal_in_a_cavity(r1, r2, d, a, length, n):
 
 
 def test_brewster_crystal_check_values():
-    """Kogelnik et al. 1972 check values: L = 10 mm, n = 1.76 gives d_t = L/n^3 = 1.834265 mm
-    and d_s = L/n = 5.681818 mm; equal to the Brewster plate of thickness
+    """L/n^3 and L/n (Kogelnik et al. 1972, from memory), computed here: L = 10 mm, n = 1.76
+    gives d_t = 1.834265 mm and d_s = 5.681818 mm; equal to the Brewster plate of thickness
     t = L n/sqrt(n^2+1) (the crystal's path L = t sqrt(n^2+1)/n)."""
     L, n = 10.0, 1.76
     assert L / n**3 == printed("1.834265")
@@ -272,8 +285,9 @@ def test_brewster_crystal_check_values():
 ])
 def test_tilted_plate_in_a_cavity(fields, d_t, d_s):
     """A plate of thickness t at incidence theta1 takes the beam over L = t/cos(theta2) and
-    acts as the reduced lengths d_t, d_s of Kogelnik et al. 1972 (check values from the exact
-    plate astigmatism, Smith, Modern Optical Engineering); the tangential radius inside is
+    acts as the reduced lengths d_t, d_s of Kogelnik et al. 1972 (from memory; computed here
+    by refphysics.plate_lengths, the digits beside the cases are what it gives); the
+    tangential radius inside is
     the model radius times cos t2/cos t1.  Expected from the Kogelnik & Li 1966 closed
     forms with d - L + d_t (or d_s)."""
     r1, r2, d, a = 120.0, 200.0, 110.0, 55.0
@@ -283,9 +297,11 @@ def test_tilted_plate_in_a_cavity(fields, d_t, d_s):
     length = t / math.cos(t2)
     c = cavity_entry(solved(cavity_with(optic("P1", "plate", **fields), r1, r2, d, a, "P1")))
     assert hit(c, "P1")["aoi_deg"] == pytest.approx(math.degrees(aoi), rel=1e-8)
-    for p, reduced, scale in (("t", d_t, math.cos(t2) / math.cos(aoi)), ("s", d_s, 1.0)):
-        r = medium_cavity_reference(r1, r2, d, a, length, float(reduced), scale)
-        tol = 1e-5  # the reduced lengths are given to 7 digits
+    want_t, want_s = ref.plate_lengths(t, n, aoi)
+    assert (want_t, want_s) == (printed(d_t), printed(d_s))
+    for p, reduced, scale in (("t", want_t, math.cos(t2) / math.cos(aoi)), ("s", want_s, 1.0)):
+        r = medium_cavity_reference(r1, r2, d, a, length, reduced, scale)
+        tol = REL
         assert hit(c, "M1")["w_um"][p] == pytest.approx(r["w1"] * 1e3, rel=tol)
         assert hit(c, "M2")["w_um"][p] == pytest.approx(r["w2"] * 1e3, rel=tol)
         assert hit(c, "P1")["w_um"][p] == pytest.approx(r["w_centre"] * 1e3, rel=tol)
@@ -301,7 +317,7 @@ def test_tilted_plate_in_a_cavity(fields, d_t, d_s):
     (dict(thermal_lens_t=250.0, thermal_lens_s=400.0), 250.0, 400.0),
 ])
 def test_thermal_lens_makes_a_flat_flat_cavity_stable(lens_fields, f_t, f_s):
-    """A thermal lens is a thin lens at the crystal centre (DESIGN s. 4).  Flat - lens -
+    """A thermal lens is a thin lens at the crystal centre (docs/design.md §4).  Flat - lens -
     flat is then stable for 0 < (1 - d1/f)(1 - d2/f) < 1 with d1, d2 the air-equivalent
     distances to the lens (ray matrices of Kogelnik & Li 1966); mirror spots and Gouy
     phase from an independent matrix round trip.  Normal-cut crystal: L/n in both planes."""
@@ -464,9 +480,10 @@ def test_cavity_output_through_a_curved_output_coupler():
 
 def test_splitter_substrate_astigmatism():
     """A beam focused through the flat substrate of a 45 deg splitter (t = 5 mm, n = 1.5)
-    gets the plate's reduced lengths d_t = 2.429772 and d_s = 3.779645 mm (Kogelnik et al.
-    1972; Smith): wherever the glass sits, the tangential waist lies d_s - d_t = 1.349873 mm
-    further downstream than the sagittal one, and both have the size the lens gives
+    gets the plate's reduced lengths d_t = 2.429772 and d_s = 3.779645 mm
+    (refphysics.plate_lengths, computed here): wherever the glass sits, the tangential
+    waist lies d_s - d_t = 1.349873 mm further downstream than the sagittal one, and both
+    have the size the lens gives
     (Self 1983; a flat plate does not change the waist size)."""
     f, s_lens, w0 = 100.0, 50.0, 1.0
     text = layout(
@@ -480,7 +497,8 @@ def test_splitter_substrate_astigmatism():
     assert hit(bm, "BS")["aoi_deg"] == pytest.approx(45.0, abs=1e-9)
     (wt,) = [w for w in waists(bm, "t") if w["s_mm"] > s_lens]
     (ws,) = [w for w in waists(bm, "s") if w["s_mm"] > s_lens]
-    assert wt["s_mm"] - ws["s_mm"] == pytest.approx(3.779645 - 2.429772, abs=2e-6)
+    d_t, d_s = ref.plate_lengths(5.0, 1.5, math.radians(45.0))
+    assert wt["s_mm"] - ws["s_mm"] == pytest.approx(d_s - d_t, abs=2e-6)
     _, mag = ref.self_focus(s_lens, ref.rayleigh(w0, WL), f)
     assert wt["w_um"] == pytest.approx(mag * w0 * 1e3, rel=REL)
     assert ws["w_um"] == pytest.approx(mag * w0 * 1e3, rel=REL)

@@ -5,7 +5,8 @@ References: H. Kogelnik and T. Li, "Laser beams and resonators", Applied Optics 
 phase arccos(+-sqrt(g1 g2))); A. E. Siegman, "Lasers" (1986), ch. 19 (same, from
 memory); mode spacing FSR x Gouy/2pi (Siegman p. 762, eq. 23, from memory);
 H. Kogelnik, E. P. Ippen, A. Dienes and C. V. Shank, IEEE J. Quantum Electron. 8, 373
-(1972) for the off-axis curved mirror, f_t = (R/2) cos(theta), f_s = (R/2)/cos(theta).
+(1972) for the off-axis curved mirror, f_t = (R/2) cos(theta), f_s = (R/2)/cos(theta)
+(from memory).
 The expected values are computed here from those formulas (tests/refphysics.py), never
 taken from benchcheck.
 """
@@ -26,10 +27,12 @@ WL = WL_NM * ref.NM
 REL = 1e-6          # closed forms; the JSON keeps 9 significant digits
 PLANES = ("t", "s")
 
-# Cases A-H: (R1, R2, d) in mm, and the published check row for the same cavity at
-# 1064 nm as printed (w in um, t1 and z_R in mm, theta_rt in rad, FSR and mode spacing
-# in MHz).  The row is compared with the closed forms to the printed digits, so a typo
-# in either shows up; benchcheck is compared with the closed forms.
+# Cases A-H: (R1, R2, d) in mm, and a check row for the same cavity at 1064 nm (w in um,
+# t1 and z_R in mm, theta_rt in rad, FSR and mode spacing in MHz).  The rows are derived
+# from the Kogelnik & Li 1966 closed forms (no paper prints them) and written out so a
+# reader sees the numbers; the first test recomputes each row here from the closed forms
+# in refphysics, to the digits shown, so a typo in either shows up.  benchcheck is
+# compared with the closed forms.
 CASES = {
     "A-symmetric": ((500.0, 500.0, 250.0),
                     dict(w1="312.6803", w2="312.6803", w0="270.7891", t1="125.000", z_r="216.50635",
@@ -71,8 +74,9 @@ def fsr_hz(round_trip_mm: float) -> float:
 # --- the reference values themselves -----------------------------------------------------
 
 @pytest.mark.parametrize("case", list(CASES))
-def test_closed_forms_reproduce_the_published_rows(case):
-    """Kogelnik & Li 1966 closed forms, as coded in refphysics, give the check rows."""
+def test_closed_forms_reproduce_the_check_rows(case):
+    """Kogelnik & Li 1966 closed forms, as coded in refphysics, give the check rows
+    (derived, computed here)."""
     (r1, r2, d), row = CASES[case]
     k = ref.two_mirror(r1, r2, d, WL)
     assert k["w1"] * 1e3 == printed(row["w1"])
@@ -384,12 +388,18 @@ def test_curved_fold_mirror_stable_in_one_plane_only():
 
 
 def test_off_axis_focal_lengths_check_values():
-    """Kogelnik et al. 1972: R = 100 mm at 10 deg gives f_t = 49.2404, f_s = 50.7713 mm;
-    at 45 deg 35.3553 and 70.7107 mm (the published check values, to their digits)."""
+    """R = 100 mm at 10 deg: f_t = 49.2404, f_s = 50.7713 mm; at 45 deg 35.3553 and
+    70.7107 mm (derived from f_t = (R/2) cos(theta), f_s = (R/2)/cos(theta) of Kogelnik et
+    al. 1972, from memory; computed here and compared to the digits shown).  The same
+    numbers by an independent route: the Coddington equations for a spherical mirror at
+    incidence theta, 1/s' + 1/s = 2/(R cos) tangentially and 2 cos/R sagittally (common
+    practice, from memory), give the image of an object at infinity at those distances."""
     for deg, ft, fs in ((10.0, "49.2404", "50.7713"), (45.0, "35.3553", "70.7107")):
         th = math.radians(deg)
         assert 50.0 * math.cos(th) == printed(ft)
         assert 50.0 / math.cos(th) == printed(fs)
+        assert 1.0 / (2.0 / (100.0 * math.cos(th))) == printed(ft)     # Coddington, tangential
+        assert 1.0 / (2.0 * math.cos(th) / 100.0) == printed(fs)       # Coddington, sagittal
 
 
 def test_matrix_reference_agrees_with_two_mirror_closed_form():

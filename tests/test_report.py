@@ -10,6 +10,7 @@ import subprocess
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 pytest.importorskip("matplotlib", reason="the report needs the 'report' extra (matplotlib)")
@@ -135,3 +136,94 @@ def test_safety_summary_has_eyewear_by_wavelength_and_hazard_zones(tmp_path, cap
     titles = [t.text for t in plan.iter(SVG + "title") if t.text and "x MPE" in t.text]
     assert any(t.startswith("osc:") for t in titles)
     assert any("hazard to" in (t.text or "") for t in plan.iter(SVG + "text"))
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="Chromium is not installed (Debian package 'chromium'); .ci/run "
+                                             "installs it so this check runs in CI")
+def test_the_figures_render_in_headless_chromium(tmp_path, capsys):
+    """The whole report of the folded demo, page down to its last figure: the plan with its
+    inset, the half-trace scan, the caustics of the cavity and the pump beam.  The caustics'
+    and scan's dark tangential line colour must show on the page, well below the plan."""
+    from PIL import Image
+
+    html = tmp_path / "report.html"
+    text = make(ROOT / "layouts" / "folded-brewster.toml", html, capsys)
+    assert text.count("<svg") >= 5 and "A: enlarged below" in text
+    png = tmp_path / "report.png"
+    render(html, png, height=7000)
+    image = Image.open(png).convert("RGB")
+    pixels = np.asarray(image, dtype=int)
+    ink = np.flatnonzero((pixels < 235).any(axis=2).any(axis=1))
+    assert ink.size and ink[-1] > 3000, "the page ends before its figures"
+    tangential = (np.abs(pixels - np.array([0x1d, 0x3f, 0x63])).sum(axis=2) < 40)
+    rows = np.flatnonzero(tangential.any(axis=1))
+    assert tangential.sum() > 500 and rows.size and rows[-1] > 2000
+
+
+def test_paths_in_the_report_are_relative_to_the_repository(tmp_path, capsys):
+    """A layout given by its absolute path inside a repository is shown, with its
+    configuration and every finding's location, relative to the repository root: the
+    report names no folder of the machine it was made on."""
+    repo = tmp_path / "lab-repo"
+    (repo / ".git").mkdir(parents=True)
+    (repo / "benchmarks" / "b2").mkdir(parents=True)
+    layout = repo / "benchmarks" / "b2" / "bench.toml"
+    shutil.copyfile(ROOT / "layouts" / "flawed" / "every-rule-fires.toml", layout)
+    shutil.copyfile(ROOT / "benchcheck.toml", repo / "benchcheck.toml")
+    html = make(layout.resolve(), tmp_path / "r.html", capsys)
+    assert str(tmp_path) not in html and str(tmp_path.resolve()) not in html
+    assert "Layout <code>benchmarks/b2/bench.toml</code>" in html
+    assert "configuration <code>benchcheck.toml</code>" in html
+    assert re.search(r"<code>benchmarks/b2/bench\.toml:\d+:\d+</code>", html)
+
+
+def _reviewed(layout: Path):
+    """The solved bench and its numbered findings, as the report command makes them."""
+    from benchcheck.config import find_config, load_config
+    from benchcheck.engine import check_file, config_folder
+    from benchcheck.plugins import load_rules
+
+    config = load_config(find_config(layout))
+    result = check_file(layout, config, load_rules(config.plugins, search_path=config_folder(config)))
+    findings = sorted(result.findings, key=lambda f: (f.severity, f.loc.line if f.loc else 0, f.rule))
+    return result.bench.solution, list(enumerate(findings, start=1))
+
+
+def _overlap(a, b) -> float:
+    w = min(a[2], b[2]) - max(a[0], b[0])
+    h = min(a[3], b[3]) - max(a[1], b[1])
+    return w * h if w > 0 and h > 0 else 0.0
+
+
+@pytest.mark.parametrize("layout", LAYOUTS, ids=lambda p: p.name)
+def test_plan_view_labels_and_markers_overlap_nothing(layout):
+    """On every demo bench, in the plan and in its enlarged inset, no two labels or finding
+    markers overlap each other and none covers an optic's mount or a source."""
+    from benchcheck.planview import plan_drawing
+
+    solution, numbered = _reviewed(layout)
+    svg, panels = plan_drawing(solution, numbered)
+    assert svg.count("<svg") == 1
+    for panel in panels:
+        labels = panel["labels"]
+        assert labels, "every demo has optics to label"
+        for i, (kind_a, text_a, box_a) in enumerate(labels):
+            for kind_b, text_b, box_b in labels[i + 1:]:
+                assert _overlap(box_a, box_b) == 0.0, f"{kind_a} {text_a!r} overlaps {kind_b} {text_b!r}"
+            for optic in panel["optics"]:
+                assert _overlap(box_a, optic) == 0.0, f"{kind_a} {text_a!r} covers an optic at {optic}"
+    markers = [text for kind, text, _ in panels[0]["labels"] if kind == "marker"]
+    if numbered:
+        assert markers, "the findings are marked"
+
+
+def test_a_crowded_bench_gets_an_enlarged_inset():
+    """The folded demo's fold mirrors, crystal, pump lens and dump sit within a few
+    centimetres: the plan view adds an enlarged inset of that region, marked on the plan."""
+    from benchcheck.planview import plan_drawing
+
+    solution, numbered = _reviewed(ROOT / "layouts" / "folded-brewster.toml")
+    svg, panels = plan_drawing(solution, numbered)
+    assert len(panels) == 2 and "A: enlarged below" in svg and "times larger" in svg
+    inset_optics = {text for kind, text, _ in panels[1]["labels"] if kind == "optic"}
+    assert {"M2", "X1", "M3"} <= inset_optics

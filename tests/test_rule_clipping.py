@@ -57,8 +57,8 @@ def printed(value: str):
 
 def scipy_transmission(w_x, w_y, a_x, a_y) -> float:
     """T by 2-D quadrature of (2 / (pi w_x w_y)) exp(-2 x^2/w_x^2 - 2 y^2/w_y^2) over the
-    ellipse x^2/a_x^2 + y^2/a_y^2 <= 1 (the 1/e^2 radius definition; ISO 11146 for a
-    Gaussian)."""
+    ellipse x^2/a_x^2 + y^2/a_y^2 <= 1 (the 1/e^2 radius definition; ISO 11146-1:2005 for a
+    Gaussian, from memory)."""
     def density(x, y):
         return 2.0 / (math.pi * w_x * w_y) * math.exp(-2.0 * x * x / (w_x * w_x) - 2.0 * y * y / (w_y * w_y))
 
@@ -76,7 +76,9 @@ def scipy_transmission(w_x, w_y, a_x, a_y) -> float:
     (1.0, "0.864665"), (1.5, "0.988891"), (math.pi / 2.0, "0.992808"), (2.0, "0.999665"),
 ])
 def test_round_beam_through_a_circle_matches_the_closed_form_check_values(a, expected):
-    # Siegman 1986 ch. 17 (from memory): T = 1 - exp(-2 a^2 / w^2), w = 1
+    # derived from Siegman 1986 ch. 17 (from memory): T = 1 - exp(-2 a^2 / w^2), w = 1,
+    # computed here
+    assert 1.0 - math.exp(-2.0 * a * a) == printed(expected)
     assert float(round_transmission(1.0, a)) == printed(expected)
     assert elliptical_transmission(1.0, 1.0, a, a) == printed(expected)
     # the quadrature agrees with the closed form far beyond the printed digits
@@ -91,7 +93,9 @@ def test_the_pi_w_design_criterion_passes_about_99_percent():
 
 @pytest.mark.parametrize("loss, radius", [(1e-2, "1.5174"), (1e-3, "1.8585")])
 def test_the_aperture_for_a_given_loss_is_the_trade_s_figure(loss, radius):
-    # common practice: exactly 99 % at a = 1.5174 w, 99.9 % at a = 1.8585 w
+    # common practice: exactly 99 % at a = 1.5174 w, 99.9 % at a = 1.8585 w (and derived:
+    # the inverse of T = 1 - exp(-2 a^2/w^2), computed here)
+    assert math.sqrt(0.5 * math.log(1.0 / loss)) == printed(radius)
     assert diameter_for_loss(1.0, 1.0, loss) / 2.0 == printed(radius)
     # and the closed-form inverse a = w sqrt(ln(1/L)/2) of Siegman's T = 1 - exp(-2a^2/w^2)
     assert diameter_for_loss(0.7, 0.7, loss) == pytest.approx(2.0 * 0.7 * math.sqrt(0.5 * math.log(1.0 / loss)),
@@ -331,7 +335,7 @@ def test_a_fold_mirror_of_a_linear_cavity_is_met_twice_per_round_trip():
                output_coupler="M2", output_power_w=1.0),
     )
     (f,) = run(text)
-    aoi = math.radians(5.0)                           # a fold of 10 deg is twice the aoi (DESIGN §3)
+    aoi = math.radians(5.0)                           # a fold of 10 deg is twice the aoi (docs/design.md §3)
     per_pass = 1.0 - scipy_transmission(ref_mode["w0"], ref_mode["w0"], 0.4 * math.cos(aoi), 0.4)
     assert f.value == pytest.approx(per_pass, rel=1e-6)
     assert f"twice per round trip: {1.0 - (1.0 - per_pass) ** 2:.3g}" in f.message

@@ -5,8 +5,9 @@ Outside references, each worked out here independently of benchcheck:
 
 - peak intensity of an elliptical Gaussian I0 = 2P/(pi w_x w_y), peak fluence
   F0 = 2E/(pi w^2), twice the "flat-top" average (Siegman, "Lasers" (1986), ch. 17, from
-  memory): P = 1 W, w = 1 mm gives 63.661977 W/cm^2; w_x = 1, w_y = 0.5 mm gives
-  127.32395 W/cm^2; E = 1 mJ, w = 0.5 mm gives 0.2546479 J/cm^2;
+  memory); derived from it and computed in the tests: P = 1 W, w = 1 mm gives
+  63.661977 W/cm^2; w_x = 1, w_y = 0.5 mm gives 127.32395 W/cm^2; E = 1 mJ, w = 0.5 mm
+  gives 0.2546479 J/cm^2;
 - on a surface tilted by theta the footprint grows by 1/cos(theta) in the plane of
   incidence (geometry of projection: 1.082392, 1.414214, 2 at 22.5, 45, 60 degrees);
 - CW linear power density is the power over the 1/e^2 beam diameter (vendor practice,
@@ -66,6 +67,8 @@ def peak(amount: float, w_x: float, w_y: float) -> float:
 # --- the formulas against the check values ------------------------------------------------
 
 def test_peak_intensity_and_fluence_check_values():
+    assert (peak(1.0, 1.0, 1.0), peak(1.0, 1.0, 0.5)) == (printed("63.661977"), printed("127.32395"))
+    assert peak(1e-3, 0.5, 0.5) == printed("0.2546479")
     assert surface_peak(1.0, 1.0, 1.0) == printed("63.661977")
     assert surface_peak(1.0, 1.0, 0.5) == printed("127.32395")
     assert surface_peak(1e-3, 0.5, 0.5) == printed("0.2546479")
@@ -89,6 +92,7 @@ def test_linear_power_density_check_value_and_the_conservative_diameter():
 
 def test_pulse_length_and_wavelength_scaling_check_values():
     value, why = scaled_fluence_threshold(10.0, 10e-9, 20e-9)
+    assert 10.0 * math.sqrt(20e-9 / 10e-9) == printed("14.142")          # the sqrt(tau) law, computed here
     assert value == printed("14.142") and why == []
     value, why = scaled_fluence_threshold(10.0, 10e-9, 10e-9, 1064.0, 532.0)
     assert value == pytest.approx(5.0, rel=1e-12)
@@ -174,7 +178,8 @@ def test_a_linear_cavity_loads_inner_optics_from_both_directions_and_end_mirrors
     """P_circ = P_out / T_oc = 1 W / 0.01 = 100 W one-way; the mode of the symmetric
     two-mirror cavity (Kogelnik & Li 1966: w1 = 312.68 um on the mirrors, w0 = 270.79 um at
     the centre; a flat fold mirror there leaves it unchanged).  The fold mirror at 5 deg
-    incidence carries both directions, 2P cos(5 deg)/(pi w0^2) (REFERENCES: tilted footprint);
+    incidence carries both directions, 2P cos(5 deg)/(pi w0^2) (derived: the footprint of a
+    beam at incidence theta is w/cos(theta) wide in the plane of incidence, computed here);
     an end mirror's rating already covers its own reflection, so it sees the one-way power."""
     mode = ref.two_mirror(500.0, 500.0, 250.0, WL)
     text = layout(
@@ -307,12 +312,13 @@ def test_optics_without_a_rating_are_not_checked():
 
 def test_a_single_pulse_is_checked_by_its_fluence():
     """A source with pulse energy but no repetition rate has no average power; its fluence
-    is still known: 2E/(pi w^2) = 2.546 J/cm^2 for 10 mJ on w = 0.5 mm (REFERENCES §5
-    scaled from 1 mJ -> 0.2546479), above a 1 J/cm^2 rating at the same pulse length."""
+    is still known: 2E/(pi w^2) = 2.546 J/cm^2 for 10 mJ on w = 0.5 mm (derived from the
+    peak of a Gaussian profile, E = F0 pi w^2 / 2, computed here), above a 1 J/cm^2 rating
+    at the same pulse length."""
     found = run(line(lens({"j_cm2": 1.0, "pulse_s": 10e-9}), waist=0.5, power_w=None, pulse_energy_j=0.01,
                      pulse_s=10e-9))
     (f,) = [x for x in found if x.unit == "J/cm^2"]
-    assert f.value == pytest.approx(2.546479, rel=1e-6) and f.severity == ERROR
+    assert f.value == pytest.approx(2 * 0.01 / (math.pi * 0.05**2), rel=1e-6) and f.severity == ERROR
 
 
 def _report_row(text: str, optic_id: str) -> list[str]:

@@ -224,7 +224,7 @@ def test_a_z_fold_leg_passing_the_far_fold_mirror_is_clipped_by_its_mount():
     # amount (to 0.1 mm) that brings the fraction under the limit
     less = numbers(f.hint, "reaches")
     assert edge(0.7 + less, w) <= 1e-6 < edge(0.7 + less - 0.1, w)
-    # circulating power P_out / T_oc = 100 W (DESIGN section 4), clipped at that fraction
+    # circulating power P_out / T_oc = 100 W (docs/design.md §4), clipped at that fraction
     assert "100 W circulating each way" in f.message
     assert numbers(f.message, "about") == pytest.approx(100.0 * expected, rel=1e-2)
 

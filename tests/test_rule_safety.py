@@ -1,5 +1,5 @@
 """The safety rules on small benches, powers checked by hand: a beam's power drops by R or
-T at each optic (DESIGN section 4), a leak carries P_circ T, an active cavity circulates
+T at each optic (docs/design.md §4), a leak carries P_circ T, an active cavity circulates
 P_out / T_oc."""
 
 from __future__ import annotations

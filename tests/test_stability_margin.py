@@ -6,9 +6,11 @@ element; a lens between two flat mirrors as equivalent g-parameters); H. Kogelni
 Ippen, A. Dienes and C. V. Shank, IEEE J. Quantum Electron. 8, 373 (1972) (astigmatically
 compensated four-mirror cavity: off-axis mirror f_t = (R/2) cos(theta), f_s = (R/2)/cos(theta),
 Brewster crystal L/n^3 tangential and L/n sagittal; a stability edge where the crystal's
-air-equivalent spacing equals the sum of the fold mirrors' focal lengths; from memory),
-with the edges of the compensated cavity computed independently for the project's
-reference list (derived values, quoted below beside each check).  The symmetric
+air-equivalent spacing equals the sum of the fold mirrors' focal lengths; from memory).
+Every edge of the four-mirror cavity is derived here: the round trip is built from the
+test's own matrices (``refphysics``: free space, thin lenses for the fold mirrors, the
+crystal as its air-equivalent length) and |m| = 1 is found by scipy's ``brentq``; the
+numbers written beside the checks are what that computation gives.  The symmetric
 two-mirror cavity is stable for 0 < d < 2R and the confocal d = R is degenerate with a
 round trip of -I: common practice (Kogelnik & Li 1966; Siegman, Lasers, ch. 19, from memory).
 """
@@ -20,6 +22,9 @@ import math
 
 import pytest
 
+from scipy.optimize import brentq
+
+import refphysics as ref
 from benchcheck import solve_text
 from benchcheck.config import Config
 from benchcheck.findings import Bench
@@ -171,7 +176,7 @@ def test_thermal_lens_taken_at_its_design_value():
 def test_triangle_ring_window():
     """A ring with one focusing element of focal length f and perimeter P has m = 1 - P/(2f)
     (Kogelnik & Li 1966), stable for 0 < P < 4f.  M3 (R = 500) at 45 deg: f_t = 250 cos 45,
-    f_s = 250 / cos 45 (Kogelnik et al. 1972).  Varying M1 -> M2 (200 mm; the rest of the
+    f_s = 250 / cos 45 (Kogelnik et al. 1972, from memory; computed here).  Varying M1 -> M2 (200 mm; the rest of the
     ring 2 * 141.421 mm) the ring stays stable until the gap closes and goes unstable first
     in the tangential plane at 4 f_t - rest."""
     els = [("M1", (1000.0, 1000.0), None), ("M2", (1200.0, 1000.0), None), ("M3", (1100.0, 1100.0), 500.0)]
@@ -189,7 +194,42 @@ def test_triangle_ring_window():
 
 # --- four-mirror X/Z cavity with a Brewster crystal -----------------------------------------
 
-THETA_C = 11.2023      # deg: the compensating angle for L = 10, n = 1.76, R = 100 (Kogelnik et al. 1972)
+XTAL_L, XTAL_N, FOLD_R = 10.0, 1.76, 100.0
+
+
+def compensating_angle(m_folds: int = 2) -> float:
+    """Derived from the compensation condition of Kogelnik et al. 1972 (from memory): the
+    crystal's N t = L (n^2 - 1)/n^3 equals the folds' (R/2) sin(theta) tan(theta) summed, so
+    cos(theta) = (-k + sqrt(k^2 + 4))/2 with k = 2 N t/(m R); computed here, in degrees."""
+    nt = XTAL_L * (XTAL_N**2 - 1.0) / XTAL_N**3
+    k = 2.0 * nt / (m_folds * FOLD_R)
+    return math.degrees(math.acos((-k + math.sqrt(k * k + 4.0)) / 2.0))
+
+
+THETA_C = compensating_angle()      # 11.2023 deg for L = 10, n = 1.76, R = 100
+
+
+def xz_half_trace(theta_deg: float, air: float, arms, plane: str) -> float:
+    """m = (A + D)/2 of the four-mirror cavity's round trip from OC, built from refphysics'
+    matrices: f_t = (R/2) cos(theta), f_s = (R/2)/cos(theta) for the folds and L/n^3 (t),
+    L/n (s) of air-equivalent length for the Brewster crystal (Kogelnik et al. 1972, from
+    memory); ``air`` is the total air between the folds."""
+    th = math.radians(theta_deg)
+    f = FOLD_R / 2.0 * (math.cos(th) if plane == "t" else 1.0 / math.cos(th))
+    crystal = XTAL_L / XTAL_N**3 if plane == "t" else XTAL_L / XTAL_N
+    one_way = [ref.free(arms[0]), ref.lens(f), ref.free(air + crystal), ref.lens(f), ref.free(arms[1])]
+    rt = ref.chain(*one_way, *one_way[::-1])       # the flat end mirrors are the identity
+    return float(rt[0, 0] + rt[1, 1]) / 2.0
+
+
+def xz_edges(theta_deg: float, arms, plane: str, lo: float = 90.0, hi: float = 110.0) -> list[float]:
+    """Every air spacing in [lo, hi] where |m| = 1: sign changes of m^2 - 1 on a 0.005 mm
+    grid, each refined by scipy's brentq."""
+    def edge(x):
+        return xz_half_trace(theta_deg, x, arms, plane) ** 2 - 1.0
+    xs = [lo + i * 0.005 for i in range(int(round((hi - lo) / 0.005)) + 1)]
+    vals = [edge(x) for x in xs]
+    return [brentq(edge, a, b, xtol=1e-12) for a, b, va, vb in zip(xs, xs[1:], vals, vals[1:]) if va * vb < 0]
 
 
 def xz_cavity(theta_deg: float, air: float, arms=(500.0, 700.0)) -> str:
@@ -199,9 +239,9 @@ def xz_cavity(theta_deg: float, air: float, arms=(500.0, 700.0)) -> str:
     half = (air + 10.0) / 2.0
     return layout(
         mirror("OC", None, at=[1000.0, 10000.0]),
-        mirror("M2", 100.0),
-        optic("X1", "crystal", length=10.0, index=1.76, faces="brewster"),
-        mirror("M3", 100.0),
+        mirror("M2", FOLD_R),
+        optic("X1", "crystal", length=XTAL_L, index=XTAL_N, faces="brewster"),
+        mirror("M3", FOLD_R),
         mirror("HR", None),
         cavity("c", "linear", ["OC", rel("M2", arms[0], 2 * theta_deg), rel("X1", half),
                                rel("M3", half, -2 * theta_deg), rel("HR", arms[1])], 800.0, heading=0.0),
@@ -217,11 +257,15 @@ def fold_edges(w, other: float) -> dict:
 def test_compensated_inner_edge_is_the_same_in_both_planes():
     """At the compensating angle the arm-independent edge, where the crystal's air-equivalent
     spacing equals f1 + f2 (Kogelnik et al. 1972), is R cos(theta) - L/n^3 tangentially and
-    R/cos(theta) - L/n sagittally: both 96.2605 mm of air."""
+    R/cos(theta) - L/n sagittally: both 96.2605 mm of air (computed here, and again by the
+    root-find on |m| = 1)."""
+    assert round(THETA_C, 4) == 11.2023
     th = math.radians(THETA_C)
     inner_t = 100.0 * math.cos(th) - 10.0 / 1.76**3
     inner_s = 100.0 / math.cos(th) - 10.0 / 1.76
     assert inner_t == printed("96.2605") and inner_s == printed("96.2605")
+    for plane, inner in (("t", inner_t), ("s", inner_s)):
+        assert xz_edges(THETA_C, (500.0, 700.0), plane)[0] == pytest.approx(inner, abs=1e-9)
     ws = windows(xz_cavity(THETA_C, 98.0))
     for key in (("M2", "X1"), ("X1", "M3")):
         e = fold_edges(ws[key], 49.0)
@@ -231,66 +275,83 @@ def test_compensated_inner_edge_is_the_same_in_both_planes():
 
 
 def test_compensated_cavity_edges_first_zone():
-    """Arms 0.5 / 0.7 m, 98 mm of air between the folds: the zones are T [96.2605, 99.956],
-    S [96.2605, 100.264] (derived for the reference list; the S value computes to 100.2634),
-    so the window is [96.2605, 99.956], limited above by T; 1.74 mm from the lower edge."""
+    """Arms 0.5 / 0.7 m, 98 mm of air between the folds: the zones are T [96.2605, 99.9560],
+    S [96.2605, 100.2635] (derived: the root-find on |m| = 1, computed here), so the window
+    is [96.2605, 99.9560], limited above by T; 1.74 mm from the lower edge."""
+    t_edges = xz_edges(THETA_C, (500.0, 700.0), "t")
+    s_edges = xz_edges(THETA_C, (500.0, 700.0), "s")
+    assert t_edges[:2] == [printed("96.2605"), printed("99.9560")]
+    assert s_edges[:2] == [printed("96.2605"), printed("100.2635")]
     ws = windows(xz_cavity(THETA_C, 98.0))
     w = ws[("M2", "X1")]
     e = fold_edges(w, 49.0)
-    assert e["t"][0] == pytest.approx(96.2605, abs=1e-4) and e["s"][0] == pytest.approx(96.2605, abs=1e-4)
-    assert e["t"][1] == pytest.approx(99.956, abs=1e-3)
-    assert e["s"][1] == pytest.approx(100.264, abs=1e-3)
-    assert w.lo + 49.0 == pytest.approx(96.2605, abs=1e-4) and w.hi + 49.0 == pytest.approx(99.956, abs=1e-3)
+    assert e["t"] == (pytest.approx(t_edges[0], abs=1e-6), pytest.approx(t_edges[1], abs=1e-6))
+    assert e["s"] == (pytest.approx(s_edges[0], abs=1e-6), pytest.approx(s_edges[1], abs=1e-6))
+    assert w.lo + 49.0 == pytest.approx(max(t_edges[0], s_edges[0]), abs=1e-6)
+    assert w.hi + 49.0 == pytest.approx(t_edges[1], abs=1e-6)
     assert w.limits["hi"] == ("t",)
-    assert w.distance == pytest.approx(98.0 - 96.2605, abs=1e-4)
+    assert w.distance == pytest.approx(98.0 - max(t_edges[0], s_edges[0]), abs=1e-6)
     assert spacing(findings(xz_cavity(THETA_C, 98.0))) == []
 
 
 def test_compensated_cavity_edges_second_zone():
-    """104 mm of air: zones T [101.595, 105.291], S [102.046, 106.049] (derived for the
-    reference list): window [102.046, 105.291], lower edge set by S, upper by T; the plan is
-    1.291 mm below the upper edge, reported when the limit is 1.5 mm."""
+    """104 mm of air: zones T [101.595, 105.291], S [102.046, 106.049] (derived: the
+    root-find on |m| = 1, computed here): window [102.046, 105.291], lower edge set by S,
+    upper by T; the plan is 1.291 mm below the upper edge, reported when the limit is 1.5 mm."""
+    t_edges = xz_edges(THETA_C, (500.0, 700.0), "t")[2:4]
+    s_edges = xz_edges(THETA_C, (500.0, 700.0), "s")[2:4]
+    assert t_edges == [printed("101.595"), printed("105.291")]
+    assert s_edges == [printed("102.046"), printed("106.049")]
     text = xz_cavity(THETA_C, 104.0)
     w = windows(text)[("X1", "M3")]
     e = fold_edges(w, 52.0)
-    assert e["t"] == (pytest.approx(101.595, abs=1e-3), pytest.approx(105.291, abs=1e-3))
-    assert e["s"] == (pytest.approx(102.046, abs=1e-3), pytest.approx(106.049, abs=1e-3))
+    assert e["t"] == (pytest.approx(t_edges[0], abs=1e-6), pytest.approx(t_edges[1], abs=1e-6))
+    assert e["s"] == (pytest.approx(s_edges[0], abs=1e-6), pytest.approx(s_edges[1], abs=1e-6))
     assert w.limits == {"lo": ("s",), "hi": ("t",)}
     assert spacing(findings(text)) == []
     found = spacing(findings(text, min_window_mm=1.5))
     assert [f.targets for f in found] == [("c", "M2", "X1"), ("c", "X1", "M3")]
     for f in found:
-        assert f.value == pytest.approx(105.291 - 104.0, abs=1e-3)
+        assert f.value == pytest.approx(t_edges[1] - 104.0, abs=1e-6)
         assert "upper edge" in f.message and "tangential plane goes unstable" in f.message
         assert f.hint.startswith("shorten") and "middle of the window" in f.hint
 
 
 def test_long_arms_give_a_narrow_window():
-    """Arms 5 / 7 m: edges T 96.260 / 96.607, S 96.260 / 96.634 (derived for the reference
-    list; they converge as the arms grow).  At 96.4 mm of air the plan is 0.14 mm from the
-    inner edge, where both planes go unstable; the window is narrower than twice the limit."""
+    """Arms 5 / 7 m: edges T 96.260 / 96.607, S 96.260 / 96.634 (derived: the root-find on
+    |m| = 1, computed here; they converge as the arms grow).  At 96.4 mm of air the plan is
+    0.14 mm from the inner edge, where both planes go unstable; the window is narrower than
+    twice the limit."""
+    t_edges = xz_edges(THETA_C, (5000.0, 7000.0), "t", 95.0, 97.0)[:2]
+    s_edges = xz_edges(THETA_C, (5000.0, 7000.0), "s", 95.0, 97.0)[:2]
+    assert t_edges == [printed("96.260"), printed("96.607")]
+    assert s_edges == [printed("96.260"), printed("96.634")]
     text = xz_cavity(THETA_C, 96.4, arms=(5000.0, 7000.0))
     w = windows(text)[("M2", "X1")]
     e = fold_edges(w, 48.2)
-    assert e["t"] == (pytest.approx(96.260, abs=1e-3), pytest.approx(96.607, abs=1e-3))
-    assert e["s"] == (pytest.approx(96.260, abs=1e-3), pytest.approx(96.634, abs=1e-3))
+    assert e["t"] == (pytest.approx(t_edges[0], abs=1e-6), pytest.approx(t_edges[1], abs=1e-6))
+    assert e["s"] == (pytest.approx(s_edges[0], abs=1e-6), pytest.approx(s_edges[1], abs=1e-6))
     found = spacing(findings(text))
     assert len(found) == 2
     f = found[0]
-    assert f.value == pytest.approx(96.4 - 96.2605, abs=1e-4)
+    assert f.value == pytest.approx(96.4 - max(t_edges[0], s_edges[0]), abs=1e-6)
     assert "lower edge" in f.message and "both planes go unstable" in f.message
     assert "only" in f.hint and "wide" in f.hint
 
 
 def test_under_compensated_inner_edges_differ():
     """At 5 deg (under-compensated) the inner edges split: T 97.785, S 94.700 mm of air
-    (derived for the reference list; also R cos(theta) - L/n^3 and R/cos(theta) - L/n,
-    Kogelnik et al. 1972).  At 98 mm the plan is 0.215 mm above the tangential edge."""
+    (derived: R cos(theta) - L/n^3 and R/cos(theta) - L/n, from the focal lengths and
+    crystal lengths of Kogelnik et al. 1972, and the root-find on |m| = 1, both computed
+    here).  At 98 mm the plan is 0.215 mm above the tangential edge."""
     th = math.radians(5.0)
+    assert xz_edges(5.0, (500.0, 700.0), "t")[0] == printed("97.785")
+    assert xz_edges(5.0, (500.0, 700.0), "s")[0] == printed("94.700")
     text = xz_cavity(5.0, 98.0)
     w = windows(text)[("M2", "X1")]
     e = fold_edges(w, 49.0)
-    assert e["t"][0] == printed("97.785") and e["s"][0] == printed("94.700")
+    assert e["t"][0] == pytest.approx(xz_edges(5.0, (500.0, 700.0), "t")[0], abs=1e-6)
+    assert e["s"][0] == pytest.approx(xz_edges(5.0, (500.0, 700.0), "s")[0], abs=1e-6)
     assert e["t"][0] == pytest.approx(100.0 * math.cos(th) - 10.0 / 1.76**3, abs=1e-9)
     assert e["s"][0] == pytest.approx(100.0 / math.cos(th) - 10.0 / 1.76, abs=1e-9)
     assert w.limits["lo"] == ("t",)

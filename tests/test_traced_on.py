@@ -1,4 +1,5 @@
-"""Beams that end on no dump or detector are traced on across the table (DESIGN section 3)
+"""Beams that end on no dump or detector are traced on across the table (docs/design.md §4;
+the README's "The JSON beam table", `ends`)
 until they meet a footprint, a zone or the table edge; a seed that ends on a passive
 cavity's input coupler is coupled into it, with its mode match."""
 
@@ -97,6 +98,9 @@ def test_a_seed_equal_to_the_cavity_mode_couples_fully():
 @pytest.mark.parametrize("ratio", [0.5, 0.8, 1.25, 2.0])
 def test_waist_size_mismatch(ratio):
     """Two beams with coincident waists w1, w2 = r w1 overlap by (2 r / (1 + r^2)) per axis
-    (Gaussian overlap integral; Kogelnik 1964, from memory)."""
+    (derived from the Gaussian overlap integral of H. Kogelnik, "Coupling and conversion
+    coefficients for optical modes", Quasi-Optics symposium, 1964, from memory; the integral
+    is also computed here by quadrature, refphysics.overlap_1d)."""
+    assert ref.overlap_1d(1.0, ratio) == pytest.approx(2 * ratio / (1 + ratio**2), rel=1e-9)
     end = beam_entry(solved(seeded(cavity_waist() * ratio, 300.0)))["ends"]
     assert end["mode_match"] == pytest.approx((2 * ratio / (1 + ratio**2)) ** 2, rel=1e-9)

@@ -1,4 +1,4 @@
-"""Dichroic coatings (DESIGN section 3): a beam uses the entry within 2 % of its wavelength;
+"""Dichroic coatings (docs/design.md §3): a beam uses the entry within 2 % of its wavelength;
 a beam with no such entry is an error that lists the wavelengths given."""
 
 from __future__ import annotations
@@ -35,7 +35,7 @@ output_power_w = 1.0
 @pytest.mark.parametrize("wl, expected_r", [(1064, 0.98), (1064 * 1.019, 0.98), (532, 0.5)])
 def test_entry_within_two_percent_is_used(wl, expected_r):
     doc = beam_table(solve_text(BASE.format(table="1064 = 0.98, 532 = 0.5", wl=wl)))
-    # active cavity: one-way circulating power = P_out / T (DESIGN section 4)
+    # active cavity: one-way circulating power = P_out / T (docs/design.md §4)
     assert doc["cavities"][0]["circulating_w"] == pytest.approx(1.0 / (1.0 - expected_r), rel=1e-9)
 
 
