@@ -311,11 +311,16 @@ def _orientation(optic: Optic, seen: list):
     return np.asarray(d_in), by, None
 
 
+def clear_diameter(optic: Optic) -> float:
+    """The clear aperture (mm): the optic's diameter, else one inch (a crystal: 5 mm)."""
+    return optic.diameter or (5.0 if optic.kind == "crystal" else DEFAULT_DIAMETER)
+
+
 def mount_size(optic: Optic) -> tuple[float, float]:
     """[width, depth] of the mount, or a default that follows from the optic's size."""
     if optic.mount_size:
         return optic.mount_size
-    d = optic.diameter or (5.0 if optic.kind == "crystal" else DEFAULT_DIAMETER)
+    d = clear_diameter(optic)
     if optic.kind == "crystal":
         return (max(2.0 * d, 20.0), (optic.length or 0.0) + 10.0)
     if optic.kind == "plate":

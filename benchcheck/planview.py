@@ -233,11 +233,13 @@ def _strays(frame, solution) -> list[str]:
     out = []
     for r in solution.strays:
         st = r.stray
-        (x1, y1), (x2, y2) = frame.xy(*st.origin), frame.xy(*st.end.point)
+        pts = [frame.xy(*p) for p in st.path_points()]      # bends where it passes a lens
+        (x1, y1), (x2, y2) = pts[0], pts[1]
         power = "" if r.power_w is None else f"{'up to ' if r.at_most else ''}{r.power_w:.3g} W"
-        out.append(f'<line x1="{x1:.1f}" y1="{y1:.1f}" x2="{x2:.1f}" y2="{y2:.1f}" stroke="{STYLE["stray"]}" '
+        corners = " ".join(f"{x:.1f},{y:.1f}" for x, y in pts)
+        out.append(f'<polyline points="{corners}" fill="none" stroke="{STYLE["stray"]}" '
                    f'stroke-width="1" stroke-dasharray="5 3" marker-end="url(#arrow)">'
-                   f'<title>{escape(st.kind)} {escape(st.id)}: {escape(power)}</title></line>')
+                   f'<title>{escape(st.kind)} {escape(st.id)}: {escape(power)}</title></polyline>')
         if power:
             out.append(f'<text x="{(x1 + x2) / 2:.1f}" y="{(y1 + y2) / 2 - 3:.1f}" class="tiny" '
                        f'fill="{STYLE["stray"]}">{escape(power)}</text>')

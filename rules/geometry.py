@@ -13,6 +13,8 @@ KINDS = {
                                      "path: check the coordinates of both paths"),
     "splitter-face": (ERROR, "a splitter's own 'fold' sets its face for every path; a path entry's 'fold' only "
                              "says which branch that path follows"),
+    "stray-reflection-untraced": (WARNING, "give the plate's tilt by placing it on a beam path, or put a block "
+                                           "beside it for its reflection; the laser safety officer decides"),
     "ring-not-closed": (ERROR, "adjust the distances or folds so the last leg returns onto the first optic"),
     "off-table": (ERROR, "move the optic (and its mount) onto the table, or enlarge [bench].size"),
     "heading-mismatch": (WARNING, "remove 'heading' where 'at' coordinates decide, or correct it"),

@@ -73,19 +73,25 @@ def check_leaks(bench, options):
     for r in bench.solution.strays:
         st = r.stray
         what = f"{st.kind} beam {st.id}"
-        rating = _rating(bench, st.end, r.power_w, what, (st.optic, st.parent))
+        arriving = r.end_power_w       # after every optic it passes on the way
+        rating = _rating(bench, st.end, arriving, what, (st.optic, st.parent))
         if rating:
             yield rating
-        if r.power_w is None or r.power_w <= limit:
+        if arriving is None or arriving <= limit:
             continue
         stopped, where = _ends_safely(bench, st.end)
-        line = LineString([tuple(st.origin), tuple(st.end.point)])
+        line = LineString(st.path_points())
         if stopped or any(e.covers(line) for e in enclosures):
             continue   # on a dump or detector, or inside an enclosure all the way
         bound = "up to " if r.at_most else ""
+        passes = ""
+        if st.via:
+            passes = (f", passes {', '.join(st.via)} (inside the clear aperture; {bound}{arriving:.3g} W goes on)"
+                      + (f" where no coating value at {st.wavelength_nm:g} nm was given for "
+                         f"{', '.join(st.assumed)}, taken as passing all" if st.assumed else ""))
         yield Finding(
-            f"{what} leaves \"{st.optic}\" with {bound}{r.power_w:.3g} W and goes {st.end.length:.0f} mm to "
-            f"{where} at ({st.end.point[0]:.0f}, {st.end.point[1]:.0f}) mm; limit {limit:g} W",
+            f"{what} leaves \"{st.optic}\" with {bound}{r.power_w:.3g} W{passes} and goes {st.end.length:.0f} mm "
+            f"to {where} at ({st.end.point[0]:.0f}, {st.end.point[1]:.0f}) mm; limit {limit:g} W",
             (st.optic, st.parent), value=r.power_w, limit=limit, unit="W",
             hint="put a beam dump or block in its way, or enclose that part of the bench", at=tuple(st.end.point))
 
@@ -168,7 +174,7 @@ def _all_lines(bench):
             yield f"beam \"{bid}\"", (bid,), powers[i], [pts[i], pts[i + 1]]
     for r in sol.strays:
         st = r.stray
-        yield f"{st.kind} beam {st.id}", (st.optic, st.parent), r.power_w, [tuple(st.origin), tuple(st.end.point)]
+        yield f"{st.kind} beam {st.id}", (st.optic, st.parent), r.power_w, st.path_points()
 
 
 def check_keepout(bench, options):
@@ -222,8 +228,12 @@ RULES = (
             "arriving direction (twice for a fold mirror of a linear cavity); a passive cavity's input coupler "
             "sends back the cavity's reflection, at most the input power. At a splitter, or a mirror a beam "
             "passes, the branch no [[beam]] follows is a secondary beam. Each is traced across the table to the "
-            "first mount, zone or table edge. Above limits.stray_power_w it must end on a dump or detector, or "
-            "stay inside an enclosure. A dump or detector's max_power_w is checked against what it receives."
+            "first thing that stops light: it passes a lens, window, plate, crystal, aperture or mirror met inside "
+            "the clear aperture (reduced by its transmission; a lens bends it by -h/f; a mirror's, splitter's or "
+            "untilted plate's reflection is a further secondary beam) and stops on a mount outside the clear "
+            "aperture, a dump, a detector, an obstacle, a zone or the table edge. Where the power reaching that "
+            "end is above limits.stray_power_w it must be a dump or detector, or the beam must stay inside an "
+            "enclosure. A dump or detector's max_power_w is checked against what it receives."
         ),
         check=check_leaks, severity=WARNING, safety=True,
     ),
