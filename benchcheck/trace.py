@@ -390,6 +390,18 @@ def _hit(placement, entry, s, d_in, d_out, role_end, holder_id, tol, issues) -> 
             f"the path of \"{holder_id}\" turns by {abs(turn):.3g} deg at {optic.kind} \"{optic.id}\", which does not fold a beam",
             (optic.id, holder_id), entry.loc, abs(turn), 0.0, "deg"))
         action = TRANSMIT
+    if (action == REFLECT and not role_end and optic.kind in FOLDING_KINDS and entry.fold is None
+            and placed.oriented_by not in (None, holder_id) and float(np.dot(d_in, d_out)) > 0.0):
+        # a path that passes a mirror another path orients goes straight on (README, "Which
+        # path decides"); a forward bend there is a passage at the wrong angle, not a reflection
+        turn = wrap180(heading_of(d_out) - heading_of(d_in))
+        issues.append(GeometryIssue(
+            "bend-in-passage",
+            f"\"{holder_id}\" passes through {optic.kind} \"{optic.id}\" but turns there by {abs(turn):.3g} deg: "
+            f"a beam passing a mirror goes straight on, so the elements before and after \"{optic.id}\" on "
+            f"\"{holder_id}\" are not on one line",
+            (optic.id, holder_id), entry.loc, abs(turn), STRAIGHT_TOLERANCE_DEG, "deg"))
+        action = TRANSMIT
     if action == REFLECT:
         fold = fold_for_turn(heading_of(d_out) - heading_of(d_in))
         declared = [(entry.fold, entry.loc)] if entry.fold is not None else []

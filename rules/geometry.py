@@ -15,6 +15,9 @@ KINDS = {
                              "says which branch that path follows"),
     "stray-reflection-untraced": (WARNING, "give the plate's tilt by placing it on a beam path, or put a block "
                                            "beside it for its reflection; the laser safety officer decides"),
+    "bend-in-passage": (ERROR, "put the source and the optics before the mirror on the line of the leg the beam "
+                               "enters (a source's 'coaxial' key keeps it there when the cavity changes), or give "
+                               "the path entry a 'fold' if the beam is meant to reflect"),
     "ring-not-closed": (ERROR, "adjust the distances or folds so the last leg returns onto the first optic"),
     "off-table": (ERROR, "move the optic (and its mount) onto the table, or enlarge [bench].size"),
     "heading-mismatch": (WARNING, "remove 'heading' where 'at' coordinates decide, or correct it"),
