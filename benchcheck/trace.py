@@ -452,10 +452,10 @@ def _splitter_face(placement, placed, entry, d_in, d_out, miss, holder_id, tol) 
         face = f"its own 'fold' key, which is not given ({DEFAULT_SPLITTER_FOLD:g} deg, 45 deg incidence, is assumed)"
     else:
         face = f"its own 'fold = {optic.fold:g}'"
-    how = f"the entry's 'fold = {entry.fold:g}'" if entry.fold is not None else "the coordinates"
+    how = f"as the entry's 'fold = {entry.fold:g}' says" if entry.fold is not None else "where the coordinates lead it"
     return GeometryIssue(
         "splitter-face",
-        f"\"{holder_id}\" reflects at splitter \"{optic.id}\" as {how} says, {miss:.2f} deg away from the law of "
+        f"\"{holder_id}\" reflects at splitter \"{optic.id}\" {how}, {miss:.2f} deg away from the law of "
         f"reflection: the splitter's face is set by {face} for the pass of \"{placed.oriented_by}\"; "
         f"'fold = {needed:.6g}' on \"{optic.id}\" turns its face to reflect \"{holder_id}\" this way",
         (optic.id, holder_id), optic.where("fold"), miss, tol, "deg")
