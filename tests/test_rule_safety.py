@@ -153,3 +153,16 @@ def test_the_reflection_of_a_tilted_plate_is_reported_not_skipped():
     (issue,) = [i for i in sol.trace.issues if i.kind == "stray-reflection-untraced"]
     assert issue.targets == ("P", "c") and issue.value == pytest.approx(0.1)
     assert "c/HR/P" not in {r.stray.id for r in sol.strays}
+
+
+def test_the_beam_table_lists_what_a_stray_passes_and_what_reaches_its_end():
+    from benchcheck import beam_table
+
+    extra = (optic("L", "lens", at=[60.0, 500.0], focal_length=200.0, diameter=25.4, absorption=0.01)
+             + optic("D2", "dump", at=[20.0, 500.0], mount={"size": [20.0, 5.0]}))
+    doc = beam_table(solve_text(laser(extra)))
+    (leak,) = [s for s in doc["strays"] if s["id"] == "c/HR"]
+    assert leak["passes"] == ["L"] and leak["ends"]["id"] == "D2"
+    assert leak["power_at_end_w"] == pytest.approx(0.1 * 0.99, rel=1e-9)     # T = 1 - A of the lens
+    # the whole path: HR at x = 100 to the dump's face at x = 22.5
+    assert leak["ends"]["length_mm"] == pytest.approx(77.5, abs=1e-6)
