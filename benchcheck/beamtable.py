@@ -93,6 +93,8 @@ def stray_json(r: StrayResult) -> dict:
         "heading_deg": _num(math.degrees(math.atan2(st.direction[1], st.direction[0]))),
         "ends": {"kind": end.zone_kind or end.kind, "id": end.id, "length_mm": _num(end.length),
                  "at_mm": [_num(end.point[0]), _num(end.point[1])]},
+        "passes": list(st.via),
+        "power_at_end_w": _num(r.end_power_w),
     }
 
 
@@ -100,7 +102,11 @@ def stray_text(r: StrayResult) -> str:
     st, end = r.stray, r.stray.end
     power = "power not known" if r.power_w is None else (("at most " if r.at_most else "") + f"{r.power_w:.3g} W")
     what = {"table-edge": "leaves the table", "footprint": f"meets {end.id}", "zone": f"meets {end.zone_kind} {end.id}"}
-    return f"  {st.kind} {st.id}: {power}, {what[end.kind]} at ({end.point[0]:.0f}, {end.point[1]:.0f}) mm"
+    via = ""
+    if st.via:
+        left = "power not known" if r.end_power_w is None else f"{r.end_power_w:.3g} W"
+        via = f", passes {', '.join(st.via)} ({left} goes on)"
+    return f"  {st.kind} {st.id}: {power}{via}, {what[end.kind]} at ({end.point[0]:.0f}, {end.point[1]:.0f}) mm"
 
 
 def beam_json(b: BeamResult) -> dict:

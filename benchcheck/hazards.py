@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from shapely.geometry import LineString, Polygon
-from shapely.ops import unary_union
+from shapely.ops import substring, unary_union
 
 from . import exposure, gauss
 from .abcd import PLANES
@@ -129,10 +129,17 @@ class Segment:
     reaches: list = field(default_factory=list)   # [{"kind": "table-edge"|"keepout", "id"}]
     problem: str | None = None         # why it cannot be judged (never silently skipped)
     notes: list[str] = field(default_factory=list)
+    #: the corners where it is not straight (a stray bent by a lens it passes)
+    points: tuple = ()
+
+    @property
+    def polyline(self) -> list:
+        return list(self.points) if len(self.points) > 2 else [self.start, self.end]
 
     @property
     def length_mm(self) -> float:
-        return float(math.hypot(self.end[0] - self.start[0], self.end[1] - self.start[1]))
+        pts = np.asarray(self.polyline, dtype=float)
+        return float(np.hypot(*np.diff(pts, axis=0).T).sum())
 
     @property
     def runs_off(self) -> bool:
@@ -352,40 +359,48 @@ def segments(solution) -> list[Segment]:
 
 
 def _stray_segment(solution, r, polys) -> Segment:
+    """A leak or secondary beam along the polyline it follows (it may pass optics inside
+    their clear aperture), with its power where it starts."""
     layout, traced = solution.layout, solution.trace
     st = r.stray
-    if st.parent in traced.cavities:
+    if st.from_cavity:
         path, res = traced.cavities[st.parent], solution.cavities[st.parent]
         pulse_s, rep_hz = layout.cavities[st.parent].pulse_s, layout.cavities[st.parent].rep_hz
-        parent_energy = res.hits[st.hit].energy_j
     else:
         path, res = traced.beams[st.parent], solution.beams[st.parent]
         pulse_s, rep_hz = _pulse_of(layout, res.origin)
-        parent_energy = res.hits[st.hit].energy_j
+    parent_energy = res.hits[st.hit].energy_j
     energy = None
-    if st.kind == "leak" and st.input_reflection:
-        src_energy = None
+    if st.input_reflection:
         for b in solution.beams.values():
             if b.into == st.parent and b.hits[-1].energy_j is not None:
-                src_energy = b.hits[-1].energy_j
-        energy = src_energy
+                energy = b.hits[-1].energy_j * st.start_fraction
     elif parent_energy is not None:
-        energy = parent_energy * st.fraction
-    seg = Segment(st.kind, st.id, st.parent, (st.optic, st.parent), st.wavelength_nm, _xy(st.origin),
-                  _xy(st.end.point), r.power_w, energy, pulse_s, rep_hz,
-                  end_kind=st.end.kind, end_id=st.end.id, end_zone_kind=st.end.zone_kind)
-    hit = path.hits[st.hit]
-    reverse = _arrives_backwards(path, st)
+        energy = parent_energy * st.fraction * st.start_fraction
+    points = tuple(st.path_points())
+    seg = Segment(st.kind, st.id, st.parent, (st.optic, st.parent), st.wavelength_nm, points[0], points[-1],
+                  r.power_w, energy, pulse_s, rep_hz,
+                  end_kind=st.end.kind, end_id=st.end.id, end_zone_kind=st.end.zone_kind, points=points)
+    focusing = [v for v in st.via if layout.optics[v].kind == "lens" or layout.optics[v].roc is not None]
+    branch = st.depth > 0 or st.start_fraction != 1.0
     beams = []
-    for plane in PLANES:
-        pieces = res.profile.get(plane) or []
-        piece = _piece_at(pieces, hit.s, arriving=not reverse)
-        g = _gaussian(piece, hit.s, reverse=reverse)
-        if g is not None:
-            beams.append(g)
+    if not focusing and not branch:
+        hit = path.hits[st.hit]
+        reverse = _arrives_backwards(path, st)
+        for plane in PLANES:
+            piece = _piece_at(res.profile.get(plane) or [], hit.s, arriving=not reverse)
+            g = _gaussian(piece, hit.s, reverse=reverse)
+            if g is not None:
+                beams.append(g)
     seg.beam = tuple(beams) if len(beams) == len(PLANES) else ()
     if seg.beam:
         seg.w_mm = _min_radius_of(seg.beam, seg.length_mm)
+    elif focusing or branch:
+        seg.w_mm = None
+        what = f"it passes {', '.join(focusing)}, which focuses it" if focusing else "it is a reflection off an " \
+            "optic another stray passes"
+        seg.notes.append(f"{what}: its size is not modelled, so all of it is taken through the aperture and "
+                         "its hazard distance as unbounded where it is hazardous")
     else:
         w = [v for v in res.hits[st.hit].w.values() if v is not None]
         seg.w_mm = min(w) if len(w) == len(PLANES) else None
@@ -414,8 +429,8 @@ def _arrives_backwards(path, st) -> bool:
 
 
 def _cover(seg: Segment, polys: list[Polygon]) -> None:
-    seg.open_mm = open_length(polys, [seg.start, seg.end])
-    seg.inside_enclosure = enclosed(polys, [seg.start, seg.end])
+    seg.open_mm = open_length(polys, seg.polyline)
+    seg.inside_enclosure = enclosed(polys, seg.polyline)
 
 
 def _xy(p) -> tuple[float, float]:
@@ -516,8 +531,7 @@ def _hazard_distance(seg: Segment, amount: float, keepouts: dict) -> None:
     length = seg.length_mm
     reach = min(seg.nohd_mm, length)
     if reach > 0:
-        d = np.subtract(seg.end, seg.start) / max(length, 1e-12)
-        line = LineString([seg.start, tuple(np.add(seg.start, d * reach))])
+        line = substring(LineString(seg.polyline), 0.0, reach)
         for zid, poly in keepouts.items():
             if poly.intersects(line) or (seg.end_kind == ZONE and seg.end_id == zid):
                 seg.reaches.append({"kind": "keepout", "id": zid})

@@ -8,6 +8,7 @@ folds) are checked by ``placement``.
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as _dt
 import difflib
 import math
@@ -17,7 +18,7 @@ from pathlib import Path
 from typing import Any, Iterable
 
 from .model import (
-    Beam, Bench, Cavity, Layout, LayoutError, Lidt, Loc, Optic, PathEntry, Source, Spectral,
+    Beam, Bench, Cavity, Coaxial, Layout, LayoutError, Lidt, Loc, Optic, PathEntry, Source, Spectral,
     Waiver, Zone,
 )
 from .tomlpos import key_positions
@@ -48,8 +49,10 @@ ZONE_KEYS = ("id", "kind", "polygon", "note")
 ZONE_KINDS = ("keepout", "enclosure")
 SOURCE_KEYS = (
     "id", "at", "toward", "heading", "wavelength_nm", "power_w", "pulse_energy_j", "pulse_s",
-    "rep_hz", "waist", "waist_t", "waist_s", "waist_at", "m2", "m2_t", "m2_s", "note",
+    "rep_hz", "waist", "waist_t", "waist_s", "waist_at", "m2", "m2_t", "m2_s", "note", "coaxial",
 )
+#: keys of a source's ``coaxial = { through, toward, distance }``
+COAXIAL_KEYS = ("through", "toward", "distance")
 CAVITY_KEYS = (
     "id", "kind", "path", "wavelength_nm", "heading", "output_coupler", "output_power_w",
     "input_coupler", "input_power_w", "loss", "rep_hz", "pulse_s", "note",
@@ -455,6 +458,7 @@ class _Reader:
             beam = self.beam(b, ("beam", i), optics, sources, cavities)
             claim(beam.id, ("beam", i, "id"))
             beams[beam.id] = beam
+        sources = self._coaxial_refs(sources, optics, cavities)
         waivers = tuple(self.waiver(w, ("waiver", i)) for i, w in enumerate(self.array_of_tables(doc, "waiver")))
         for i, src in enumerate(sources.values()):
             if src.toward is not None and src.toward not in optics:
@@ -595,7 +599,15 @@ class _Reader:
         what = f"source \"{ident}\""
         p = lambda k: path + (k,)  # noqa: E731
         f: dict[str, Any] = {}
-        f["at"] = self.point(self.require(t, "at", path, what), p("at"))
+        if "coaxial" in t:
+            for other in ("at", "toward", "heading"):
+                if other in t:
+                    raise self.fail(p(other), f"{what}: 'coaxial' places and points the source; give it or "
+                                              f"'{other}', not both")
+            f["at"] = None
+            f["coaxial"] = self.coaxial(t["coaxial"], p("coaxial"), what)
+        else:
+            f["at"] = self.point(self.require(t, "at", path, what + " (or 'coaxial')"), p("at"))
         if "toward" in t and "heading" in t:
             raise self.fail(p("heading"), f"{what}: give 'toward' or 'heading', not both")
         if "toward" in t:
@@ -620,6 +632,54 @@ class _Reader:
         if "note" in t:
             f["note"] = self.string(t["note"], p("note"))
         return Source(ident, self.loc(path), self.key_locs(path, t), **f)
+
+    def coaxial(self, value: Any, path: tuple, what: str) -> Coaxial:
+        """``{ through = mirror id, toward = its neighbour on the cavity (optional at an end
+        mirror), distance = mm behind the mirror }``; the ids are checked with the cavities."""
+        t = self.table(value, path, COAXIAL_KEYS, f"{what}'s 'coaxial' (through, toward, distance)")
+        through = self.ident(self.require(t, "through", path, f"{what}'s 'coaxial'"), path + ("through",))
+        toward = self.ident(t["toward"], path + ("toward",)) if "toward" in t else ""
+        distance = self.number(self.require(t, "distance", path, f"{what}'s 'coaxial'"), path + ("distance",), "mm",
+                               low=0.0, low_open=True, high=MAX_EXTENT_MM)
+        return Coaxial(through, toward, distance)
+
+    def _coaxial_refs(self, sources: dict, optics: dict, cavities: dict) -> dict:
+        """Check every ``coaxial`` against the cavities: ``through`` a mirror or splitter on a
+        cavity path, ``toward`` its neighbour there (found where the mirror has one leg)."""
+        out = dict(sources)
+        for i, src in enumerate(sources.values()):
+            co = src.coaxial
+            if co is None:
+                continue
+            path = ("source", i, "coaxial")
+            if co.through not in optics:
+                raise self._dangling(path + ("through",), co.through, optics, "an optic")
+            if optics[co.through].kind not in ("mirror", "splitter"):
+                raise self.fail(path + ("through",), f"source \"{src.id}\": 'coaxial' goes through a cavity mirror or "
+                                                     f"splitter, and \"{co.through}\" is a {optics[co.through].kind}")
+            neighbours = []
+            for cav in cavities.values():
+                ids = [e.id for e in cav.path]
+                for k, ident in enumerate(ids):
+                    if ident != co.through:
+                        continue
+                    near = [k - 1, k + 1] if cav.kind == "ring" else [j for j in (k - 1, k + 1) if 0 <= j < len(ids)]
+                    neighbours += [ids[j % len(ids)] for j in near]
+            if not neighbours:
+                raise self.fail(path + ("through",), f"source \"{src.id}\": \"{co.through}\" is on no cavity path; "
+                                                     "'coaxial' places a source on the line of a cavity leg")
+            neighbours = list(dict.fromkeys(neighbours))
+            if not co.toward:
+                if len(neighbours) > 1:
+                    raise self.fail(path, f"source \"{src.id}\": \"{co.through}\" starts more than one cavity leg "
+                                          f"(toward {', '.join(neighbours)}); say which with 'toward'")
+                co = Coaxial(co.through, neighbours[0], co.distance)
+            elif co.toward not in neighbours:
+                raise self.fail(path + ("toward",), f"source \"{src.id}\": \"{co.toward}\" is not next to "
+                                                    f"\"{co.through}\" on a cavity path (its neighbours: "
+                                                    f"{', '.join(neighbours)})")
+            out[src.id] = dataclasses.replace(src, coaxial=co)
+        return out
 
     def _pair(self, t: dict, key: str, path: tuple, what: str, unit: str, default, **bounds):
         both = (f"{key}_t", f"{key}_s")
@@ -741,7 +801,8 @@ class _Reader:
         if heading is not None and origin in cavities:
             raise self.fail(path + ("heading",), f"{what} leaves cavity \"{origin}\" through its output coupler, "
                                                  "which sets its direction; remove 'heading'")
-        if heading is not None and origin in sources and (sources[origin].heading is not None or sources[origin].toward):
+        if heading is not None and origin in sources and (sources[origin].heading is not None or sources[origin].toward
+                                                         or sources[origin].coaxial):
             raise self.fail(path + ("heading",), f"{what}: source \"{origin}\" already gives the direction")
         note = self.string(t["note"], path + ("note",)) if "note" in t else None
         return Beam(ident, origin, self.loc(path), self.key_locs(path, t), entries, heading, note)

@@ -120,11 +120,21 @@ class PathEntry:
 
 
 @dataclass(frozen=True)
+class Coaxial:
+    """A source placed on a cavity leg's line: ``distance`` mm behind the mirror ``through``
+    (on the far side from the leg), shining through it along the leg toward ``toward``."""
+
+    through: str
+    toward: str
+    distance: float                              # mm behind the mirror's face
+
+
+@dataclass(frozen=True)
 class Source:
     id: str
     loc: Loc
     key_locs: Mapping[str, Loc]
-    at: tuple[float, float]
+    at: tuple[float, float] | None               # None where ``coaxial`` places it
     wavelength_nm: float
     waist_t: float
     waist_s: float
@@ -138,6 +148,7 @@ class Source:
     pulse_s: float | None = None
     rep_hz: float | None = None
     note: str | None = None
+    coaxial: Coaxial | None = None
 
     def where(self, key: str) -> Loc:
         return self.key_locs.get(key, self.loc)

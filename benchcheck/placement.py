@@ -108,15 +108,17 @@ def ordered_paths(layout: Layout):
 
 def place(layout: Layout) -> Placement:
     points: dict[str, np.ndarray] = {oid: np.array(o.at, dtype=float) for oid, o in layout.optics.items() if o.at}
-    sources = {sid: np.array(s.at, dtype=float) for sid, s in layout.sources.items()}
+    sources = {sid: np.array(s.at, dtype=float) for sid, s in layout.sources.items() if s.at is not None}
     arrivals: dict[str, list] = {}      # optic id -> [(holder id, d_in, d_out)] in path order
 
     orienting = first_paths(layout)
-    for what, holder in ordered_paths(layout):
-        if what == "cavity":
-            _walk_cavity(layout, holder, points, arrivals, orienting)
-        else:
-            _walk_beam(layout, holder, points, sources, arrivals, orienting)
+    for cav in layout.cavities.values():
+        _walk_cavity(layout, cav, points, arrivals, orienting)
+    for src in layout.sources.values():
+        if src.coaxial is not None:
+            sources[src.id] = coaxial_point(src, points)
+    for beam in layout.beams.values():
+        _walk_beam(layout, beam, points, sources, arrivals, orienting)
 
     for zone in layout.zones:
         poly = Polygon(zone.polygon)
@@ -139,6 +141,20 @@ def place(layout: Layout) -> Placement:
             notes.append(note)
         placed[oid] = Placed(optic, points[oid], direction, by, footprint(optic, points[oid], direction))
     return Placement(layout, placed, sources, notes)
+
+
+def coaxial_direction(src, points: dict) -> np.ndarray:
+    """Unit direction of the cavity leg a ``coaxial`` source shines along: from the mirror
+    it goes through toward the neighbour it names."""
+    co = src.coaxial
+    where = src.where("coaxial")
+    return _norm(_need_point(co.toward, points, where) - _need_point(co.through, points, where))
+
+
+def coaxial_point(src, points: dict) -> np.ndarray:
+    """Where a ``coaxial`` source stands: ``distance`` mm behind its mirror, on the line of
+    the cavity leg, so it follows the leg when the cavity's folds or distances change."""
+    return points[src.coaxial.through] - src.coaxial.distance * coaxial_direction(src, points)
 
 
 def _need_point(ident: str, points: dict, loc: Loc) -> np.ndarray:
@@ -250,6 +266,8 @@ def _walk_beam(layout, beam, points, sources, arrivals, orienting) -> None:
                 raise LayoutError(f"source \"{origin}\" stands on \"{src.toward}\", which it points toward",
                                   src.where("toward"))
             heading = heading_of(target - start)
+        elif src.coaxial is not None:
+            heading = heading_of(coaxial_direction(src, points))
         else:
             heading = src.heading if src.heading is not None else beam.heading
         if heading is None and beam.path[0].distance is not None:
@@ -311,11 +329,16 @@ def _orientation(optic: Optic, seen: list):
     return np.asarray(d_in), by, None
 
 
+def clear_diameter(optic: Optic) -> float:
+    """The clear aperture (mm): the optic's diameter, else one inch (a crystal: 5 mm)."""
+    return optic.diameter or (5.0 if optic.kind == "crystal" else DEFAULT_DIAMETER)
+
+
 def mount_size(optic: Optic) -> tuple[float, float]:
     """[width, depth] of the mount, or a default that follows from the optic's size."""
     if optic.mount_size:
         return optic.mount_size
-    d = optic.diameter or (5.0 if optic.kind == "crystal" else DEFAULT_DIAMETER)
+    d = clear_diameter(optic)
     if optic.kind == "crystal":
         return (max(2.0 * d, 20.0), (optic.length or 0.0) + 10.0)
     if optic.kind == "plate":

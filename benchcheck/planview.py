@@ -435,13 +435,17 @@ def _hazard_zones(frame, assessment):
         reach = length if seg.nohd_mm is None else min(seg.nohd_mm, length)
         if reach <= 0:
             continue
-        dx, dy = (seg.end[0] - seg.start[0]) / length, (seg.end[1] - seg.start[1]) / length
-        (x1, y1) = frame.xy(*seg.start)
-        (x2, y2) = frame.xy(seg.start[0] + dx * reach, seg.start[1] + dy * reach)
+        from shapely.geometry import LineString
+        from shapely.ops import substring
+
+        stretch = substring(LineString(seg.polyline), 0.0, reach)
+        pts = [frame.xy(x, y) for x, y in stretch.coords]
+        x2, y2 = pts[-1]
         label = f"{seg.id}: {seg.ratio:.3g} x MPE, OD {seg.od}"
-        out.append(f'<line x1="{x1:.1f}" y1="{y1:.1f}" x2="{x2:.1f}" y2="{y2:.1f}" stroke="{colour}" '
-                   f'stroke-opacity="0.45" stroke-width="12" stroke-linecap="butt">'
-                   f'<title>{escape(label)}</title></line>')
+        corners = " ".join(f"{x:.1f},{y:.1f}" for x, y in pts)
+        out.append(f'<polyline points="{corners}" fill="none" stroke="{colour}" '
+                   f'stroke-opacity="0.45" stroke-width="12" stroke-linecap="butt" stroke-linejoin="round">'
+                   f'<title>{escape(label)}</title></polyline>')
         if seg.nohd_mm is not None and seg.nohd_mm > length:
             far = "unbounded" if seg.nohd_mm == float("inf") else (
                 f"{seg.nohd_mm / 1000:.3g} m" if seg.nohd_mm >= 1000 else f"{seg.nohd_mm:.0f} mm")
@@ -453,11 +457,13 @@ def _strays(frame, solution) -> list[str]:
     out = []
     for r in solution.strays:
         st = r.stray
-        (x1, y1), (x2, y2) = frame.xy(*st.origin), frame.xy(*st.end.point)
+        pts = [frame.xy(*p) for p in st.path_points()]      # bends where it passes a lens
+        (x1, y1), (x2, y2) = pts[0], pts[1]
         power = "" if r.power_w is None else f"{'up to ' if r.at_most else ''}{r.power_w:.3g} W"
-        out.append(f'<line x1="{x1:.1f}" y1="{y1:.1f}" x2="{x2:.1f}" y2="{y2:.1f}" stroke="{STYLE["stray"]}" '
+        corners = " ".join(f"{x:.1f},{y:.1f}" for x, y in pts)
+        out.append(f'<polyline points="{corners}" fill="none" stroke="{STYLE["stray"]}" '
                    f'stroke-width="1" stroke-dasharray="5 3" marker-end="url(#arrow)">'
-                   f'<title>{escape(st.kind)} {escape(st.id)}: {escape(power)}</title></line>')
+                   f'<title>{escape(st.kind)} {escape(st.id)}: {escape(power)}</title></polyline>')
     return out
 
 

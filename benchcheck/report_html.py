@@ -317,7 +317,7 @@ class Report:
 
     def _stray_status(self, st, end, power, limit) -> tuple[str, str]:
         at = f"({end.point[0]:.0f}, {end.point[1]:.0f}) mm"
-        box = self._enclosure_of([tuple(st.origin), tuple(end.point)])
+        box = self._enclosure_of(st.path_points())
         if end.kind == "footprint":
             optic = self.layout.optics[end.id]
             where = f"{optic.kind} {end.id} at {at}, {end.length:.0f} mm on"
@@ -328,7 +328,9 @@ class Report:
         else:
             where = f"table edge at {at}, {end.length:.0f} mm on"
             on_dump = False
-        small = power is not None and power <= limit
+        if st.via:
+            where = f"through {', '.join(st.via)} to the " + where
+        small = power is not None and power * st.passed <= limit      # what reaches the end
         if box:
             return where, f"contained (inside enclosure {escape(box)})"
         if on_dump:

@@ -151,6 +151,12 @@ _SOURCE = {
     "m2_t": _num("beam quality M^2, tangential", low=1.0),
     "m2_s": _num("beam quality M^2, sagittal", low=1.0),
     "note": _NOTE,
+    "coaxial": _table(L.COAXIAL_KEYS, {
+        "through": _ident("the cavity mirror the source's beam enters through"),
+        "toward": _ident("the next optic of the cavity leg it runs along (may be left out at an end mirror)"),
+        "distance": _num("how far behind the mirror the source stands", "mm", low=0.0, low_open=True),
+    }, "stand the source on the extension of a cavity leg, behind the mirror it enters through "
+       "(instead of at and toward/heading)", required=("through", "distance")),
 }
 
 _PATH_ENTRY = {
@@ -229,8 +235,9 @@ def _array(item: dict, desc: str) -> dict:
 
 def layout_schema() -> dict:
     """The schema as a dictionary (JSON Schema draft-07, which TOML language servers read)."""
-    source = _table(L.SOURCE_KEYS, _SOURCE, "a light source", required=("id", "at", "wavelength_nm"))
-    source["anyOf"] = [{"required": ["waist"]}, {"required": ["waist_t", "waist_s"]}]
+    source = _table(L.SOURCE_KEYS, _SOURCE, "a light source", required=("id", "wavelength_nm"))
+    source["allOf"] = [{"anyOf": [{"required": ["waist"]}, {"required": ["waist_t", "waist_s"]}]},
+                       {"anyOf": [{"required": ["at"]}, {"required": ["coaxial"]}]}]
     top = {
         "format": {"const": L.FORMAT_VERSION, "description": f"layout format version; write format = {L.FORMAT_VERSION}"},
         "bench": _table(L.BENCH_KEYS, _BENCH, "the table", required=("name", "size")),

@@ -113,6 +113,11 @@ class StrayResult:
     power_w: float | None
     at_most: bool = False
 
+    @property
+    def end_power_w(self) -> float | None:
+        """What reaches the end of its path, after every optic it passes (W)."""
+        return None if self.power_w is None else self.power_w * self.stray.passed
+
 
 @dataclass
 class Solution:
@@ -145,15 +150,20 @@ def solve_layout(layout: Layout) -> Solution:
 def stray_power(layout: Layout, st: Stray, cavities: dict, beams: dict) -> StrayResult:
     """Leak: circulating power times T; what leaves a passive cavity's input coupler is the
     cavity's reflection, at most the input power.  Secondary: the beam's power at the hit
-    times the fraction of the branch it does not follow (docs/design.md §4)."""
-    if st.kind == "leak":
+    times the fraction of the branch it does not follow (docs/design.md §4).  A reflection
+    off an optic a stray passes starts with the stray's power there times that optic's R
+    (``start_fraction``); where a coating gave no value at the stray's
+    wavelength the power is an upper bound."""
+    if st.from_cavity:
         cav = layout.cavities[st.parent]
         if st.input_reflection:
-            return StrayResult(st, cav.input_power_w, at_most=True)
+            p = cav.input_power_w
+            return StrayResult(st, None if p is None else p * st.start_fraction, at_most=True)
         p = cavities[st.parent].circulating_w
-        return StrayResult(st, None if p is None else p * st.fraction)
-    p = beams[st.parent].hits[st.hit].power_w
-    return StrayResult(st, None if p is None else p * st.fraction)
+    else:
+        p = beams[st.parent].hits[st.hit].power_w
+    return StrayResult(st, None if p is None else p * st.fraction * st.start_fraction, at_most=bool(st.assumed))
+
 
 
 # --- matrices over a train ------------------------------------------------------------

@@ -16,11 +16,11 @@ import numpy as np
 from shapely.geometry import Point, Polygon, box
 
 from .abcd import brewster_angle
-from .coatings import reflectivity_at, transmission
-from .model import WAVELENGTH_MATCH, Layout, Loc
-from .raycast import RayEnd, Table
+from .coatings import pass_factor, reflectivity_at, transmission
+from .model import WAVELENGTH_MATCH, Layout, LayoutError, Loc
+from .raycast import FOOTPRINT, START_CLEARANCE, RayEnd, Table
 from .placement import (
-    DEFAULT_SPLITTER_FOLD, FOLDING_KINDS, STRAIGHT_TOLERANCE_DEG, Placement, bends, cavity_exit, fold_for_turn, heading_of, turn_for_fold, unit, wrap180,
+    DEFAULT_SPLITTER_FOLD, FOLDING_KINDS, clear_diameter, STRAIGHT_TOLERANCE_DEG, Placement, bends, cavity_exit, fold_for_turn, heading_of, turn_for_fold, unit, wrap180,
 )
 
 #: Default tolerance (deg) between a declared fold and the one the geometry gives.
@@ -100,6 +100,27 @@ class Stray:
     loc: Loc
     #: True for what leaves a passive cavity's input coupler: the cavity's reflection
     input_reflection: bool = False
+    #: True where the power is a cavity's (a leak, or a branch of one), else a beam's
+    from_cavity: bool = False
+    #: the optics it passes inside their clear aperture on its way, in order
+    via: tuple[str, ...] = ()
+    #: fraction of its starting power that reaches ``end`` (the product of what each optic
+    #: in ``via`` transmits)
+    passed: float = 1.0
+    #: the corners of its path: origin, where it crosses each optic in ``via``, end
+    points: list = field(default_factory=list)
+    #: optics in ``via`` whose coating gives nothing at this wavelength: taken as passing all
+    assumed: tuple[str, ...] = ()
+    #: optics passed by the strays it branched from (bounds the tree at MAX_PASSES)
+    depth: int = 0
+    #: for a reflection off an optic another stray passes: the fraction of that stray's
+    #: starting power it starts with (else 1)
+    start_fraction: float = 1.0
+
+    def path_points(self) -> list[tuple[float, float]]:
+        """The polyline the stray follows across the table (mm)."""
+        pts = self.points or [self.origin, self.end.point]
+        return [(float(p[0]), float(p[1])) for p in pts]
 
 
 @dataclass
@@ -131,7 +152,7 @@ def trace(placement: Placement, fold_tolerance: float = FOLD_TOLERANCE_DEG) -> T
         if last.d_out is not None and path.into is None:
             path.tail = out.table.cast(last.point, last.d_out, exclude={last.optic})
         out.beams[beam.id] = path
-    out.strays = _leaks(layout, out) + _secondaries(layout, out)
+    out.strays = pass_through(out, _leaks(layout, out) + _secondaries(layout, out))
     _off_table(placement, out.issues)
     return out
 
@@ -163,7 +184,7 @@ def _leaks(layout: Layout, out: Trace) -> list[Stray]:
                 end = out.table.cast(hit.point, d, exclude={optic.id})
                 strays.append(Stray(f"{cav.id}/{optic.id}{suffix}", "leak", cav.id, optic.id, i, hit.point,
                                     np.asarray(d), end, cav.wavelength_nm, t, optic.loc,
-                                    input_reflection=cav.input_coupler == optic.id))
+                                    input_reflection=cav.input_coupler == optic.id, from_cavity=True))
     return strays
 
 
@@ -202,6 +223,155 @@ def _secondaries(layout: Layout, out: Trace) -> list[Stray]:
     return strays
 
 
+#: A stray is followed through optics, and a reflection off one of them becomes a further
+#: secondary beam, while it keeps at least this fraction of the power it started with.
+NEGLIGIBLE_FRACTION = 1e-6
+#: At most this many optics are passed by one stray and its branches (two facing partial
+#: reflectors would send light back and forth without end); the stray then stops at the
+#: next mount it meets, which the safety rules treat as not stopping it.
+MAX_PASSES = 8
+#: Optics that pass no light anywhere: a stray ends on them.
+OPAQUE_KINDS = ("dump", "detector", "obstacle")
+
+
+def pass_through(out: Trace, strays: list[Stray]) -> list[Stray]:
+    """Follow each leak and secondary beam through every optic it meets inside the clear
+    aperture (reduced by what that optic transmits, deviated by a lens) until something
+    opaque stops it: a mount outside the clear aperture, a dump, a detector, an obstacle, a
+    zone or the table edge.  What a passed mirror, splitter or untilted plate reflects,
+    above ``NEGLIGIBLE_FRACTION`` of the stray, is a further secondary beam, followed alike.
+
+    The casts go through ``Table.cast`` (shapely STRtree queries); each generation of
+    branches is cast after the one before."""
+    done: list[Stray] = []
+    queue = list(strays)
+    while queue:
+        branches: list[Stray] = []
+        for st in queue:
+            branches += _follow(out, st)
+            done.append(st)
+        queue = branches
+    return done
+
+
+def _follow(out: Trace, st: Stray) -> list[Stray]:
+    """Extend ``st`` in place through the optics it passes; return the branches it sends off."""
+    placement, table = out.placement, out.table
+    origin, direction, end = np.asarray(st.origin, float), np.asarray(st.direction, float), st.end
+    points = [origin]
+    total = 0.0
+    branches = []
+    depth = st.depth
+    while end.kind == FOOTPRINT and depth < MAX_PASSES:
+        crossing = _crossing(placement, origin, direction, end)
+        if crossing is None:
+            break
+        placed, point, along = crossing
+        optic = placed.optic
+        depth += 1
+        t, r, known = _split(optic, st.wavelength_nm)
+        if not known:
+            st.assumed += (optic.id,)
+        if r * st.passed * st.start_fraction >= NEGLIGIBLE_FRACTION:
+            normal = _face_normal(placed)
+            if normal is None:
+                out.issues.append(GeometryIssue(
+                    "stray-reflection-untraced",
+                    f"{st.kind} beam {st.id} passes tilted {optic.kind} \"{optic.id}\", which reflects {r:.3g} of it; "
+                    "the layout does not say which way the plate is tilted, so that reflection is not traced",
+                    (optic.id, st.parent), optic.loc, r, None, "fraction"))
+            else:
+                mirrored = direction - 2.0 * float(np.dot(direction, normal)) * normal
+                branches.append(Stray(
+                    f"{st.id}/{optic.id}", "secondary", st.parent, optic.id, st.hit, point, mirrored,
+                    table.cast(point, mirrored, exclude={optic.id}), st.wavelength_nm, st.fraction, optic.loc,
+                    input_reflection=st.input_reflection, from_cavity=st.from_cavity, assumed=st.assumed,
+                    depth=depth, start_fraction=st.start_fraction * st.passed * r))
+        total += along
+        points.append(point)
+        st.via += (optic.id,)
+        st.passed *= t
+        if st.passed * st.start_fraction < NEGLIGIBLE_FRACTION:
+            # what is left is negligible: the optic reflects or absorbs the rest
+            end = RayEnd(FOOTPRINT, optic.id, (float(point[0]), float(point[1])), 0.0)
+            break
+        direction = _after(placed, point, direction)
+        origin = point
+        end = table.cast(origin, direction, exclude={optic.id})
+    points.append(np.asarray(end.point, float))
+    if st.via:
+        st.end = RayEnd(end.kind, end.id, end.point, total + end.length, end.zone_kind)
+    st.points = points
+    return branches
+
+
+def _crossing(placement, origin, direction, end):
+    """(placed optic, point on its face, distance from ``origin``) where the ray meets the
+    optic whose footprint stopped it, inside its clear aperture; None where that optic is
+    opaque or the ray meets its mount outside the clear aperture."""
+    placed = placement.optics.get(end.id)
+    if placed is None or placed.optic.kind in OPAQUE_KINDS:
+        return None
+    axis = _face_normal(placed)
+    if axis is None:
+        axis = np.asarray(placed.direction, float)
+    across = float(np.dot(direction, axis))
+    if abs(across) < 1e-9:
+        return None              # along the face: it meets the mount's side
+    dist = float(np.dot(placed.point - origin, axis)) / across
+    if dist <= START_CLEARANCE:
+        return None
+    point = origin + dist * direction
+    off = abs(float(np.dot(point - placed.point, np.array([-axis[1], axis[0]]))))
+    if off > clear_diameter(placed.optic) / 2.0:
+        return None              # the mount body outside the clear aperture stops it
+    return placed, point, dist
+
+
+def _face_normal(placed) -> np.ndarray | None:
+    """Unit normal of the surface a stray crosses: a mirror's or splitter's face, the axis of
+    an untilted optic; None for a plate or crystal tilted at an angle the layout does not
+    orient (its aoi or Brewster faces give the angle, not the side)."""
+    optic = placed.optic
+    if optic.kind in FOLDING_KINDS:
+        return np.asarray(placed.direction, float)
+    if optic.kind in ("plate", "crystal") and (optic.faces == "brewster" or (optic.aoi or 0.0) != 0.0):
+        return None
+    return np.asarray(placed.direction, float)
+
+
+def _split(optic, wavelength_nm: float) -> tuple[float, float, bool]:
+    """(transmitted, reflected, known) fractions for a stray crossing ``optic``.  Where the
+    coating gives no value at the stray's wavelength the optic is taken as passing it all
+    (the side of caution for where the light goes) and ``known`` is False."""
+    try:
+        t = pass_factor(optic, TRANSMIT, wavelength_nm)
+        if optic.kind in FOLDING_KINDS or optic.kind == "plate":
+            r = reflectivity_at(optic, wavelength_nm, 1.0 if optic.kind == "mirror" else 0.0) or 0.0
+        else:
+            r = 0.0              # a lens, crystal or aperture gives no reflectivity
+    except LayoutError:
+        return 1.0, 0.0, False
+    return t, r, True
+
+
+def _after(placed, point, direction) -> np.ndarray:
+    """Direction after crossing: a thin lens turns a ray by -h/f (h its height above the
+    lens axis, paraxial; Hecht, Optics, ch. 5, from memory); other optics pass it straight
+    (a tilted plate's sideways shift is not drawn)."""
+    optic = placed.optic
+    if optic.kind != "lens" or not optic.focal_length:
+        return direction
+    axis = np.asarray(placed.direction, float)
+    if float(np.dot(direction, axis)) < 0:
+        axis = -axis
+    up = np.array([-axis[1], axis[0]])
+    h = float(np.dot(point - placed.point, up))
+    slope = float(np.dot(direction, up)) / float(np.dot(direction, axis)) - h / optic.focal_length
+    d = axis + slope * up
+    return d / float(np.hypot(*d))
+
+
 def _hit(placement, entry, s, d_in, d_out, role_end, holder_id, tol, issues) -> Hit:
     placed = placement.optics[entry.id]
     optic = placed.optic
@@ -219,6 +389,18 @@ def _hit(placement, entry, s, d_in, d_out, role_end, holder_id, tol, issues) -> 
             "bend-at-non-folding",
             f"the path of \"{holder_id}\" turns by {abs(turn):.3g} deg at {optic.kind} \"{optic.id}\", which does not fold a beam",
             (optic.id, holder_id), entry.loc, abs(turn), 0.0, "deg"))
+        action = TRANSMIT
+    if (action == REFLECT and not role_end and optic.kind in FOLDING_KINDS and entry.fold is None
+            and placed.oriented_by not in (None, holder_id) and float(np.dot(d_in, d_out)) > 0.0):
+        # a path that passes a mirror another path orients goes straight on (README, "Which
+        # path decides"); a forward bend there is a passage at the wrong angle, not a reflection
+        turn = wrap180(heading_of(d_out) - heading_of(d_in))
+        issues.append(GeometryIssue(
+            "bend-in-passage",
+            f"\"{holder_id}\" passes through {optic.kind} \"{optic.id}\" but turns there by {abs(turn):.3g} deg: "
+            f"a beam passing a mirror goes straight on, so the elements before and after \"{optic.id}\" on "
+            f"\"{holder_id}\" are not on one line",
+            (optic.id, holder_id), entry.loc, abs(turn), STRAIGHT_TOLERANCE_DEG, "deg"))
         action = TRANSMIT
     if action == REFLECT:
         fold = fold_for_turn(heading_of(d_out) - heading_of(d_in))
@@ -270,10 +452,10 @@ def _splitter_face(placement, placed, entry, d_in, d_out, miss, holder_id, tol) 
         face = f"its own 'fold' key, which is not given ({DEFAULT_SPLITTER_FOLD:g} deg, 45 deg incidence, is assumed)"
     else:
         face = f"its own 'fold = {optic.fold:g}'"
-    how = f"the entry's 'fold = {entry.fold:g}'" if entry.fold is not None else "the coordinates"
+    how = f"as the entry's 'fold = {entry.fold:g}' says" if entry.fold is not None else "where the coordinates lead it"
     return GeometryIssue(
         "splitter-face",
-        f"\"{holder_id}\" reflects at splitter \"{optic.id}\" as {how} says, {miss:.2f} deg away from the law of "
+        f"\"{holder_id}\" reflects at splitter \"{optic.id}\" {how}, {miss:.2f} deg away from the law of "
         f"reflection: the splitter's face is set by {face} for the pass of \"{placed.oriented_by}\"; "
         f"'fold = {needed:.6g}' on \"{optic.id}\" turns its face to reflect \"{holder_id}\" this way",
         (optic.id, holder_id), optic.where("fold"), miss, tol, "deg")

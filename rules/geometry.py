@@ -13,6 +13,11 @@ KINDS = {
                                      "path: check the coordinates of both paths"),
     "splitter-face": (ERROR, "a splitter's own 'fold' sets its face for every path; a path entry's 'fold' only "
                              "says which branch that path follows"),
+    "stray-reflection-untraced": (WARNING, "give the plate's tilt by placing it on a beam path, or put a block "
+                                           "beside it for its reflection; the laser safety officer decides"),
+    "bend-in-passage": (ERROR, "put the source and the optics before the mirror on the line of the leg the beam "
+                               "enters (a source's 'coaxial' key keeps it there when the cavity changes), or give "
+                               "the path entry a 'fold' if the beam is meant to reflect"),
     "ring-not-closed": (ERROR, "adjust the distances or folds so the last leg returns onto the first optic"),
     "off-table": (ERROR, "move the optic (and its mount) onto the table, or enlarge [bench].size"),
     "heading-mismatch": (WARNING, "remove 'heading' where 'at' coordinates decide, or correct it"),
@@ -47,9 +52,14 @@ RULES = (
             "Checks the plan as drawn. A lens, crystal, plate or aperture does not turn a beam, so a path that "
             "bends there is an error. Where both neighbours of a mirror are placed by coordinates, the fold they "
             "give is compared with a declared 'fold'. A ring placed by distances and folds must return onto its "
-            "first optic; the miss is given in mm. Optics and mounts must stand on the table. A beam reflecting "
-            "from a mirror that another path orients must obey the law of reflection. Elements whose lengths "
-            "overlap along a path are errors."
+            "first optic; the miss is given in mm and degrees, with the fold at the last element that would close "
+            "it, the first element where declared and geometric folds part, and the total turn of the declared "
+            "folds. Optics and mounts must stand on the table. A beam reflecting from a mirror that another path "
+            "orients must obey the law of reflection; at a splitter the splitter's own 'fold' sets the face, and "
+            "the finding, at the splitter's line, gives the fold that would reflect the beam as its path says. A "
+            "beam passing a mirror that another path orients goes straight on: a turn there is reported as a "
+            "passage at the wrong angle. A tilted plate's reflection of a stray beam, which cannot be traced "
+            "without the side of tilt, is reported. Elements whose lengths overlap along a path are errors."
         ),
         check=check,
         severity=ERROR,

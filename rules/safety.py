@@ -130,7 +130,8 @@ def _stray_segments(bench):
 def _main_output(bench, st) -> bool:
     """The output of a laser that no [[beam]] declares: undeclared-output reports it."""
     cav = bench.layout.cavities.get(st.parent)
-    return (st.kind == "leak" and cav is not None and cav.output_coupler == st.optic
+    return (st.kind == "leak" and st.from_cavity and st.depth == 0 and cav is not None
+            and cav.output_coupler == st.optic
             and not st.id.endswith("/back") and not any(b.origin == cav.id for b in bench.layout.beams.values()))
 
 
@@ -143,7 +144,8 @@ def check_leaks(bench, options):
         st = r.stray
         seg = segs.get(st.id)
         what = f"{st.kind} beam {st.id}"
-        rating = _rating(bench, st.end, r.power_w, what, (st.optic, st.parent))
+        arriving = r.end_power_w       # after every optic it passes on the way
+        rating = _rating(bench, st.end, arriving, what, (st.optic, st.parent))
         if rating:
             yield rating
         if (seg is not None and seg.inside_enclosure) or _main_output(bench, st):
@@ -151,20 +153,26 @@ def check_leaks(bench, options):
         stopped, where = _ends_safely(bench, st.end)
         leaves = st.end.kind == "table-edge" or (st.end.kind == "zone" and st.end.zone_kind == "keepout")
         at = tuple(st.end.point)
-        goes = f"{what} leaves \"{st.optic}\" with {{amount}} and goes {st.end.length:.0f} mm to {where} at " \
-               f"({at[0]:.0f}, {at[1]:.0f}) mm"
+        bound = "up to " if r.at_most else ""
+        passes = ""
+        if st.via and arriving is not None:
+            passes = (f", passes {', '.join(st.via)} (inside the clear aperture; {bound}{arriving:.3g} W goes on)"
+                      + (f" where no coating value at {st.wavelength_nm:g} nm was given for "
+                         f"{', '.join(st.assumed)}, taken as passing all" if st.assumed else ""))
+        goes = f"{what} leaves \"{st.optic}\" with {{amount}}{passes} and goes {st.end.length:.0f} mm to {where} " \
+               f"at ({at[0]:.0f}, {at[1]:.0f}) mm"
         judged = seg is not None and seg.ratio is not None
         if r.power_w is None and not judged:
             # never skipped: what cannot be judged is reported
             why = seg.problem if seg is not None and seg.problem else "its power is not known"
-            feed = ("give the cavity's output_power_w (or input_power_w)" if st.parent in bench.layout.cavities
+            feed = ("give the cavity's output_power_w (or input_power_w)" if st.from_cavity
                     else "give the source's power_w, or pulse_energy_j with rep_hz and pulse_s")
             yield Finding(f"{goes.format(amount='unknown power')}, and its hazard cannot be judged: {why}",
                           (st.optic, st.parent), severity=ERROR, at=at, hint=feed + ", so its hazard can be judged")
             continue
         class4 = seg is not None and _class4(bench, seg)
         above_mpe = judged and seg.ratio > 1.0
-        over_stray = r.power_w is not None and r.power_w > limit
+        over_stray = arriving is not None and arriving > limit
         figures = _figures(seg) if seg is not None else ""
         amount = (("up to " if r.at_most else "") + f"{r.power_w:.3g} W") if seg is None else \
             ("up to " if r.at_most else "") + _amount(seg)
@@ -182,7 +190,7 @@ def check_leaks(bench, options):
                 " (it enters a keep-out zone)"
             yield Finding(
                 f"{goes.format(amount=amount)}{why}; limit {limit:g} W{figures}",
-                (st.optic, st.parent), value=r.power_w, limit=limit, unit="W",
+                (st.optic, st.parent), value=arriving, limit=limit, unit="W",
                 severity=ERROR if leaves else WARNING, at=at,
                 hint="put a beam dump or block in its way, or enclose that part of the bench")
         elif above_mpe:
@@ -370,7 +378,7 @@ def _all_lines(bench):
             yield f"beam \"{bid}\"", (bid,), powers[i], [pts[i], pts[i + 1]]
     for r in sol.strays:
         st = r.stray
-        yield f"{st.kind} beam {st.id}", (st.optic, st.parent), r.power_w, [tuple(st.origin), tuple(st.end.point)]
+        yield f"{st.kind} beam {st.id}", (st.optic, st.parent), r.power_w, st.path_points()
 
 
 def check_keepout(bench, options):
@@ -425,13 +433,18 @@ RULES = (
             "arriving direction (twice for a fold mirror of a linear cavity); a passive cavity's input coupler "
             "sends back the cavity's reflection, at most the input power. At a splitter, or a mirror a beam "
             "passes, the branch no [[beam]] follows is a secondary beam. Each is traced across the table to the "
-            "first mount, zone or table edge. Above limits.stray_power_w it must end on a dump or detector, or "
-            "stay inside an enclosure: a warning, and an error when it leaves the table, enters a keep-out zone "
-            "or carries more than limits.open_beam_power_w (or a pulse above limits.open_beam_energy_j). A "
-            "stray of unknown average power is judged by its pulse energy against the pulsed exposure limit, "
-            "and one whose power and energy are both unknown is an error. The message gives the exposure "
-            "against the MPE, the eyewear OD and the hazard distance. A dump or detector's max_power_w is "
-            "checked against what it receives."
+            "first thing that stops light: it passes a lens, window, plate, crystal, aperture or mirror met inside "
+            "the clear aperture (reduced by its transmission; a lens bends it by -h/f; a mirror's, splitter's or "
+            "untilted plate's reflection is a further secondary beam) and stops on a mount outside the clear "
+            "aperture, a dump, a detector, an obstacle, a zone or the table edge. Where the power reaching that "
+            "end is above limits.stray_power_w it must be a dump or detector, or the beam must stay inside an "
+            "enclosure: a warning, and an error when it leaves the table or enters a keep-out zone. Wherever it "
+            "ends, a stray that crosses open bench above limits.open_beam_power_w (or a pulse above "
+            "limits.open_beam_energy_j) is an error, and one above the MPE a warning (an error where it runs "
+            "off the bench). A stray of unknown average power is judged by its pulse energy against the pulsed "
+            "exposure limit, and one whose power and energy are both unknown is an error. The message gives "
+            "the exposure against the MPE, the eyewear OD and the hazard distance. A dump or detector's "
+            "max_power_w is checked against what it receives."
         ),
         check=check_leaks, severity=WARNING, safety=True,
     ),

@@ -294,6 +294,23 @@ CASES = [
     case("tiny-wavelength", "wavelength_nm = 633", "wavelength_nm = 1e-308", 64, "wavelength_nm"),
     # -- deeply nested arrays ------------------------------------------------------------------
     case("deeply-nested-array", "at = [400.0, 40.0]", "at = " + "[" * 5000 + "]" * 5000, 57, "at"),
+    # -- a source placed on a cavity leg's line ('coaxial') --------------------------------------
+    case("coaxial-and-heading", "at = [50.0, 250.0]", 'coaxial = { through = "HR", distance = 20.0 }', 63,
+         "'coaxial' places and points the source", "'heading', not both"),
+    case("coaxial-through-a-crystal", "at = [50.0, 250.0]\nheading = 0.0",
+         'coaxial = { through = "X1", distance = 20.0 }\nnote = "pump"', 62, "cavity mirror or splitter",
+         "is a crystal"),
+    case("coaxial-through-unknown", "at = [50.0, 250.0]\nheading = 0.0",
+         'coaxial = { through = "HRR", distance = 20.0 }\nnote = "pump"', 62, '"HRR" is not an optic'),
+    case("coaxial-toward-not-next", "at = [50.0, 250.0]\nheading = 0.0",
+         'coaxial = { through = "OC", toward = "HR", distance = 20.0 }\nnote = "pump"', 62,
+         '"HR" is not next to "OC"', "X1"),
+    case("coaxial-unknown-key", "at = [50.0, 250.0]\nheading = 0.0",
+         'coaxial = { through = "HR", distanse = 20.0 }\nnote = "pump"', 62, "did you mean 'distance'"),
+    case("coaxial-no-distance", "at = [50.0, 250.0]\nheading = 0.0",
+         'coaxial = { through = "HR" }\nnote = "pump"', 62, "distance"),
+    case("coaxial-negative-distance", "at = [50.0, 250.0]\nheading = 0.0",
+         'coaxial = { through = "HR", distance = -5.0 }\nnote = "pump"', 62, "distance"),
     case("deeply-nested-inline-table", "at = [400.0, 40.0]", "at = " + "{ a = " * 3000 + "1" + " }" * 3000, 57,
          "at"),
 ]

@@ -295,3 +295,68 @@ def test_ring_not_closed_says_which_fold_closes_it_and_where_folds_part():
     # ring follows the declared folds up to M4, and the total, 365 deg, shows the 5 deg
     issue = [i for i in solve_text(square_ring(m2_fold=85.0)).trace.issues if i.kind == "ring-not-closed"][0]
     assert "turn the beam by 365.000 deg in all, +5.000 deg from a whole turn" in issue.message
+
+
+def folded_with_pump(fold: float, pump: str) -> str:
+    """OC at (100, 500) heading +x; 100 mm to the fold mirror FM (fold ``fold``), then the
+    crystal X 50 mm and the end mirror M1 100 mm on.  A pump through FM along FM -> X."""
+    return HEAD + mirror("OC", (100.0, 500.0), extra="reflectivity = 0.95\n") + mirror("FM", extra="reflectivity = { 1064 = 0.999, 808 = 0.05 }\n") \
+        + mirror("M1") + '[[optic]]\nid = "X"\nkind = "crystal"\nlength = 10.0\nindex = 1.8\n' \
+        + '[[optic]]\nid = "L1"\nkind = "lens"\nfocal_length = 100.0\n' + pump + f"""
+[[cavity]]
+id = "c"
+kind = "linear"
+heading = 0.0
+wavelength_nm = 1064
+path = ["OC", {{ id = "FM", distance = 100.0, fold = {fold!r} }}, {{ id = "X", distance = 50.0 }},
+        {{ id = "M1", distance = 100.0 }}]
+
+[[beam]]
+id = "pump"
+from = "P"
+path = [{{ id = "L1", distance = 30.0 }}, "FM", "X", "M1"]
+"""
+
+
+COAXIAL_PUMP = """[[source]]
+id = "P"
+coaxial = { through = "FM", toward = "X", distance = 80.0 }
+wavelength_nm = 808
+power_w = 1.0
+waist = 0.2
+"""
+
+
+@pytest.mark.parametrize("fold", [30.0, 40.0, -25.0])
+def test_a_coaxial_source_stays_on_the_leg_when_the_fold_changes(fold):
+    # FM at (200, 500); the leg FM -> X leaves at heading 0 + sign(fold)(180 - |fold|), so
+    # the source stands 80 mm behind FM on that line, at FM - 80 u (plane geometry)
+    sol = solve_text(folded_with_pump(fold, COAXIAL_PUMP))
+    heading = math.radians(math.copysign(180.0 - abs(fold), fold))
+    u = (math.cos(heading), math.sin(heading))
+    assert sol.placement.sources["P"] == pytest.approx([200.0 - 80.0 * u[0], 500.0 - 80.0 * u[1]], abs=1e-9)
+    assert sol.placement.optics["L1"].point == pytest.approx([200.0 - 50.0 * u[0], 500.0 - 50.0 * u[1]], abs=1e-9)
+    assert sol.trace.issues == []
+    assert [h.action for h in sol.trace.beams["pump"].hits[:3]] == ["transmit"] * 3
+
+
+def test_a_pump_placed_by_coordinates_breaks_when_the_fold_changes_and_says_it_passes():
+    # the same source placed by 'at' where the coaxial one stands for a fold of 30 deg; the
+    # fold becomes 40 deg, so at FM the pump turns by 10 deg (the leg turned by 10 deg)
+    heading = math.radians(150.0)
+    at = (200.0 - 80.0 * math.cos(heading), 500.0 - 80.0 * math.sin(heading))
+    pump = COAXIAL_PUMP.replace('coaxial = { through = "FM", toward = "X", distance = 80.0 }',
+                                f"at = [{at[0]!r}, {at[1]!r}]\nheading = 150.0")
+    assert solve_text(folded_with_pump(30.0, pump)).trace.issues == []
+    sol = solve_text(folded_with_pump(40.0, pump))
+    (issue,) = [i for i in sol.trace.issues if i.targets == ("FM", "pump")]
+    assert issue.kind == "bend-in-passage" and issue.value == pytest.approx(10.0, abs=1e-9)
+    assert "passes through mirror \"FM\"" in issue.message and "reflect" not in issue.message
+
+
+def test_coaxial_through_a_fold_mirror_must_say_which_leg():
+    from benchcheck import LayoutError
+
+    pump = COAXIAL_PUMP.replace('toward = "X", ', "")
+    with pytest.raises(LayoutError, match="more than one cavity leg .toward OC, X.; say which with 'toward'"):
+        solve_text(folded_with_pump(30.0, pump))

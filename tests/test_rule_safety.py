@@ -94,3 +94,83 @@ def test_intracavity_power_on_an_open_bench_only():
     (g,) = run("intracavity-power", laser(), intracavity_power_w=50.0, intracavity_error_power_w=80.0)
     assert g.severity == "error" and g.limit == 80.0
     assert run("intracavity-power", laser(BOX), intracavity_power_w=50.0, intracavity_error_power_w=80.0) == []
+
+
+# --- leak beams pass through transmissive optics ------------------------------------------
+
+def _strays(text: str) -> dict:
+    return {r.stray.id: r for r in solve_text(text).strays}
+
+
+def test_a_leak_passes_a_lens_inside_its_clear_aperture_and_stops_on_the_dump_behind_it():
+    # the HR's 0.1 W leak goes -x along y = 500; a lens (absorption 1 %) at x = 60, then a
+    # dump at x = 20: the lens passes 1 - A = 0.99 of it (transmission = 1 - R - A, README)
+    extra = (optic("L", "lens", at=[60.0, 500.0], focal_length=200.0, diameter=25.4, absorption=0.01)
+             + optic("D2", "dump", at=[20.0, 500.0], mount={"size": [20.0, 5.0]}))
+    r = _strays(laser(extra))["c/HR"]
+    assert r.stray.via == ("L",) and r.stray.end.kind == "footprint" and r.stray.end.id == "D2"
+    assert r.power_w == pytest.approx(0.1, rel=1e-9)
+    assert r.end_power_w == pytest.approx(0.1 * 0.99, rel=1e-9)
+    # stopped on the dump, not "at the lens": no stray-limit finding; what remains is that
+    # 0.1 W crosses 80 mm of open bench above the MPE before the dump (a warning)
+    found = run("leak-beam", laser(extra))
+    assert [(f.unit, f.severity) for f in found] == [("exposure/MPE", "warning")]
+    assert "open bench before it" in found[0].message
+
+
+def test_a_lens_bends_an_off_axis_leak_toward_its_focus():
+    # lens axis along x at y = 505, f = 100 mm; the leak meets it 5 mm below the axis,
+    # parallel to it, so it leaves toward the focal point 100 mm on, (-40, 505): at the table
+    # edge x = 0, 60 mm on, it is at y = 500 + 5 * 60 / 100 = 503 (paraxial thin lens, Hecht,
+    # Optics, ch. 5, from memory: a ray parallel to the axis passes through the focus)
+    extra = optic("L", "lens", at=[60.0, 505.0], focal_length=100.0, diameter=25.4)
+    st = _strays(laser(extra))["c/HR"].stray
+    assert st.via == ("L",) and st.end.kind == "table-edge"
+    assert st.end.point == pytest.approx((0.0, 503.0), abs=1e-9)
+    (f,) = run("leak-beam", laser(extra))
+    assert "passes L" in f.message and f.value == pytest.approx(0.1, rel=1e-9)
+
+
+def test_a_leak_outside_the_clear_aperture_stops_on_the_mount():
+    # 20 mm below the axis of a 25.4 mm lens whose mount is 50.8 mm wide: the mount body
+    extra = optic("L", "lens", at=[60.0, 520.0], focal_length=100.0, diameter=25.4)
+    st = _strays(laser(extra))["c/HR"].stray
+    assert st.via == () and st.end.id == "L"
+    (f,) = run("leak-beam", laser(extra))
+    assert "the mount of L" in f.message
+
+
+def test_a_window_passes_a_leak_and_reflects_a_secondary_beam():
+    # an untilted window (R = 0.1, no absorption) facing the leak: 0.9 of the 0.1 W goes on,
+    # 0.1 of it is reflected straight back as a secondary beam of 0.01 W
+    extra = optic("P", "plate", at=[60.0, 500.0], thickness=3.0, index=1.5, reflectivity=0.1, diameter=25.4)
+    strays = _strays(laser(extra))
+    leak = strays["c/HR"]
+    assert leak.stray.via == ("P",) and leak.end_power_w == pytest.approx(0.09, rel=1e-9)
+    back = strays["c/HR/P"]
+    assert back.stray.kind == "secondary" and back.power_w == pytest.approx(0.01, rel=1e-9)
+    assert back.stray.direction == pytest.approx([1.0, 0.0], abs=1e-12)
+
+
+def test_the_reflection_of_a_tilted_plate_is_reported_not_skipped():
+    # a plate tilted by 10 deg: its side of tilt is not in the layout, so its reflection
+    # (R = 0.1) cannot be traced; it is a geometry issue instead of a silent omission
+    extra = optic("P", "plate", at=[60.0, 500.0], thickness=3.0, index=1.5, aoi=10.0, reflectivity=0.1,
+                  diameter=25.4)
+    sol = solve_text(laser(extra))
+    (issue,) = [i for i in sol.trace.issues if i.kind == "stray-reflection-untraced"]
+    assert issue.targets == ("P", "c") and issue.value == pytest.approx(0.1)
+    assert "c/HR/P" not in {r.stray.id for r in sol.strays}
+
+
+def test_the_beam_table_lists_what_a_stray_passes_and_what_reaches_its_end():
+    from benchcheck import beam_table
+
+    extra = (optic("L", "lens", at=[60.0, 500.0], focal_length=200.0, diameter=25.4, absorption=0.01)
+             + optic("D2", "dump", at=[20.0, 500.0], mount={"size": [20.0, 5.0]}))
+    doc = beam_table(solve_text(laser(extra)))
+    (leak,) = [s for s in doc["strays"] if s["id"] == "c/HR"]
+    assert leak["passes"] == ["L"] and leak["ends"]["id"] == "D2"
+    assert leak["power_at_end_w"] == pytest.approx(0.1 * 0.99, rel=1e-9)     # T = 1 - A of the lens
+    # the whole path: HR at x = 100 to the dump's face at x = 22.5
+    assert leak["ends"]["length_mm"] == pytest.approx(77.5, abs=1e-6)
