@@ -58,7 +58,7 @@ def text_report(results: list[FileResult], rules: dict) -> str:
     waived = sum(1 for f in findings if f.waived)
     parts = [f"{n} {s}{'s' if n != 1 else ''}" for s, n in counts.items()]
     summary = ", ".join(parts) + (f"; {waived} waived" if waived else "")
-    files = len(results)
+    files = sum(1 for r in results if r.layout)
     lines.append(f"{summary} in {files} layout{'s' if files != 1 else ''}")
     if _safety(findings, rules):
         lines.append(SAFETY_CAUTION)
@@ -72,7 +72,7 @@ def json_report(results: list[FileResult], rules: dict) -> str:
     doc = {
         "format": JSON_FORMAT,
         "findings": [f.as_json() for f in findings],
-        "files": [r.file for r in results],
+        "files": [r.file for r in results if r.layout],
         "errors": list(dict.fromkeys(e for r in results for e in r.errors)),
         "caution": SAFETY_CAUTION,
     }

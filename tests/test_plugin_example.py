@@ -525,6 +525,7 @@ def lab_plugin(tmp_path, monkeypatch):
         (tmp_path / "src" / f"{name}.py").write_text(source)
         monkeypatch.syspath_prepend(str(tmp_path / "src"))
         (tmp_path / "benchcheck.toml").write_text(f'plugins = ["{name}"]\n')
+        (tmp_path / ".git").mkdir(exist_ok=True)     # the repository root: the configuration search stops here
         (tmp_path / "layouts").mkdir(exist_ok=True)
         layout = tmp_path / "layouts" / "bench.toml"
         layout.write_text(OPEN_BEAM)
