@@ -44,6 +44,8 @@ class Job:
     exclude: tuple[str, ...] = ()
     skip: frozenset = frozenset()
     attempts: int = 0
+    #: the configuration that applies, as the supervisor found it (what is left out is per configuration)
+    key: str | None = None
     #: what the supervisor found out about this layout on earlier attempts
     errors: list[str] = field(default_factory=list)
 
@@ -206,6 +208,9 @@ def run_jobs(jobs: list[Job], n: int, timeout_s: float | None = None) -> Outcome
     ctx = multiprocessing.get_context()
     out = Outcome(results=[None] * len(jobs))
     pending = collections.deque(enumerate(jobs))
+    found: dict[str, str] = {}
+    for job in jobs:
+        job.key = _config_key(job, found)
     #: per configuration of a job: what is left out for every later layout
     left_out: dict[str | None, tuple[tuple[str, ...], frozenset]] = {}
     workers: list[_Worker] = []
@@ -217,10 +222,16 @@ def run_jobs(jobs: list[Job], n: int, timeout_s: float | None = None) -> Outcome
                     idle = _Worker(ctx)
                     workers.append(idle)
                 index, job = pending.popleft()
-                exclude, skip = left_out.get(_config_key(job), ((), frozenset()))
+                exclude, skip = left_out.get(job.key, ((), frozenset()))
                 job.exclude, job.skip = tuple(dict.fromkeys(job.exclude + exclude)), job.skip | skip
                 idle.job, idle.index, idle.step, idle.since = job, index, None, time.monotonic()
-                idle.conn.send(job)
+                try:
+                    idle.conn.send(job)
+                except OSError:          # it died while idle: another one takes the job
+                    idle.job = None
+                    idle.stop(kill=True)
+                    workers.remove(idle)
+                    pending.appendleft((index, job))
             busy = [w for w in workers if w.job is not None]
             wait([w.conn for w in busy] + [w.proc.sentinel for w in busy], timeout=_next_deadline(busy, timeout_s))
             for w in busy:
@@ -228,12 +239,26 @@ def run_jobs(jobs: list[Job], n: int, timeout_s: float | None = None) -> Outcome
             workers = [w for w in workers if w.proc.is_alive() or w.job is not None]
     finally:
         for w in workers:
-            w.stop()
+            w.stop(kill=w.job is not None)   # busy only when interrupted: do not wait for it
     return out
 
 
-def _config_key(job: Job) -> str | None:
-    return job.config or job.start or (str(Path(job.path).resolve().parent) if job.path else None)
+def _config_key(job: Job, found: dict) -> str | None:
+    """The configuration a job's layout is checked with (found without importing anything);
+    its folder where the search fails (the worker reports why)."""
+    from .config import find_config
+    from .model import LayoutError
+
+    if job.config:
+        return job.config
+    start = Path(job.path).resolve().parent if job.path else Path(job.start or ".").resolve()
+    folder = str(start)
+    if folder not in found:
+        try:
+            found[folder] = str(find_config(start))
+        except (LayoutError, OSError):
+            found[folder] = folder
+    return found[folder]
 
 
 def _limit(w: _Worker, timeout_s: float | None) -> float | None:
@@ -247,15 +272,15 @@ def _next_deadline(busy: list[_Worker], timeout_s: float | None) -> float | None
     return max(0.0, min(left)) if left else None
 
 
-def _drain(w: _Worker, out: Outcome, FileResult, pending, left_out, timeout_s) -> None:
-    """Read what worker ``w`` sent; handle its death or a step past its time."""
-    while w.job is not None:
+def _read(w: _Worker, out: Outcome) -> bool:
+    """Take in everything worker ``w`` has sent so far; True once its job is done."""
+    while True:
         try:
             if not w.conn.poll():
-                break
+                return False
             msg = w.conn.recv()
         except (EOFError, OSError):
-            break
+            return False
         if msg[0] == "step":
             w.step, w.since = (msg[1], msg[2], msg[3], msg[4]), time.monotonic()
         elif msg[0] == "rules":
@@ -267,16 +292,24 @@ def _drain(w: _Worker, out: Outcome, FileResult, pending, left_out, timeout_s) -
                 out.errors = result.errors
             out.results[w.index] = result
             w.job, w.step = None, None
-            return
-    if w.job is None:
+            return True
+
+
+def _drain(w: _Worker, out: Outcome, FileResult, pending, left_out, timeout_s) -> None:
+    """Read what worker ``w`` sent; handle its death or a step past its time.  Whether it
+    is alive is asked before reading: a dead worker's last words are all in the pipe."""
+    alive = w.proc.is_alive()
+    if _read(w, out):
         return
     limit = _limit(w, timeout_s)
     hung = limit is not None and time.monotonic() - w.since >= limit
-    if w.proc.is_alive() and not hung:
+    if alive and not hung:
         return
     if hung:
         w.proc.kill()
     w.proc.join()
+    if _read(w, out):     # it finished just before it was stopped
+        return
     code = w.proc.exitcode
     job, step = w.job, w.step
     w.job = None
@@ -284,7 +317,7 @@ def _drain(w: _Worker, out: Outcome, FileResult, pending, left_out, timeout_s) -
     file = job.path or "<rules>"
     how = (f"did not finish within {limit:g} s and was stopped (rule_timeout_s in the configuration, "
            "or --rule-timeout)") if hung else f"ended the worker process (os._exit or a crash; exit status {code})"
-    key = _config_key(job)
+    key = job.key
     exclude, skip = left_out.get(key, ((), frozenset()))
     if step and step[0] in ("import", "hook") and job.attempts < MAX_ATTEMPTS:
         what = "while being imported" if step[0] == "import" else "in its benchcheck_rules hook"

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 import os
 import re
 from pathlib import Path
@@ -195,7 +196,8 @@ def rules_text(rules: dict) -> str:
     out = []
     for rid in sorted(rules):
         rule, plugin = rules[rid]
-        out.append(f"{rid}  [{rule.severity}]  from {plugin}{'  (safety)' if rule.safety else ''}")
+        opt_in = "  (opt-in: off until the configuration turns it on)" if rule.opt_in else ""
+        out.append(f"{rid}  [{rule.severity}]  from {plugin}{'  (safety)' if rule.safety else ''}{opt_in}")
         out.append(f"    {rule.summary}")
         for o in rule.options:
             unit = f" {o.unit}" if o.unit else ""
@@ -210,10 +212,25 @@ def rules_json(rules: dict) -> str:
     doc = {"format": JSON_FORMAT, "rules": [
         {"id": rid, "plugin": rules[rid][1], "severity": rules[rid][0].severity, "summary": rules[rid][0].summary,
          "explanation": rules[rid][0].explanation, "safety": rules[rid][0].safety,
-         "options": [{"name": o.name, "default": o.default, "unit": o.unit, "help": o.help}
-                     for o in rules[rid][0].options]}
+         "options": [{"name": o.name, "default": _json_safe(o.default), "unit": o.unit, "help": o.help}
+                     for o in rules[rid][0].options],
+         "opt_in": rules[rid][0].opt_in}
         for rid in sorted(rules)]}
-    return json.dumps(doc, indent=2) + "\n"
+    return json.dumps(doc, indent=2, allow_nan=False) + "\n"
+
+
+def _json_safe(x, depth: int = 0):
+    """An option default as valid JSON: NaN and infinities as null (as finding values are),
+    anything JSON has no type for as its repr."""
+    if isinstance(x, float):
+        return x if math.isfinite(x) else None
+    if x is None or isinstance(x, (bool, int, str)):
+        return x
+    if depth < 8 and isinstance(x, (list, tuple)):
+        return [_json_safe(v, depth + 1) for v in x]
+    if depth < 8 and isinstance(x, dict):
+        return {str(k): _json_safe(v, depth + 1) for k, v in x.items()}
+    return repr(x)
 
 
 def _wrap(text: str, indent: str, width: int = 92) -> list[str]:
