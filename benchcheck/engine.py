@@ -21,7 +21,7 @@ from .config import Config, find_config, load_config
 from .findings import SEVERITIES, WARNING, Bench, Finding, Rule
 from .loader import load_path
 from .model import LayoutError, Loc
-from .plugins import BUILTIN, RuleSet, load_rules, raised
+from .plugins import BUILTIN, RuleSet, describe, load_rules, raised
 from .solve import solve_layout
 
 #: Engine findings about waivers (not rules of any plugin).
@@ -108,8 +108,6 @@ def run_rules(bench: Bench, config: Config, ruleset: RuleSet, today: _dt.date | 
     for rule_id, (rule, plugin) in sorted(ruleset.rules.items(), key=lambda kv: kv[1][1] != BUILTIN):
         if rule_id in skip or not rule_enabled(config, ruleset, rule_id) or config.rules.get(rule_id, {}).get("invalid"):
             continue
-        options = copy.deepcopy(rule.defaults())
-        options.update(copy.deepcopy(config.options(rule_id)))
         if plugin == BUILTIN:
             given = bench
         else:
@@ -122,17 +120,23 @@ def run_rules(bench: Bench, config: Config, ruleset: RuleSet, today: _dt.date | 
             progress(rule_id)
         who = f"{bench.file}: rule '{rule_id}' from plugin {plugin}"
         try:
+            options = copy.deepcopy(rule.defaults())
+            options.update(copy.deepcopy(config.options(rule_id)))
             produced = list(rule.check(given, options) or ())
         except BaseException as exc:  # noqa: BLE001 - a plugin's failure is reported by name, even sys.exit
             out.errors.append(f"{who} {raised(exc)}")
             continue
         bad = []
         for f in produced:
-            problem = finding_problem(f)
+            try:
+                problem = finding_problem(f)
+                plain = None if problem else _plain(f)
+            except BaseException as exc:  # noqa: BLE001 - a Finding whose fields raise when read
+                problem = f"a Finding that cannot be read ({describe(exc)})"
             if problem:
                 bad.append(problem)
                 continue
-            out.findings.append(_complete(_plain(f), rule, plugin, bench, config))
+            out.findings.append(_complete(plain, rule, plugin, bench, config))
         if bad:
             more = f" (and {len(bad) - 1} more)" if len(bad) > 1 else ""
             out.errors.append(f"{who} yielded {bad[0]}{more}; left out")

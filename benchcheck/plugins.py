@@ -175,7 +175,12 @@ def collect_rules(pm: pluggy.PluginManager, errors: list[str], progress: Progres
                 out.errors.append(f"error: plugin {name}: benchcheck_rules {raised(exc)}")
                 continue
         for rule in rules:
-            problem = _invalid(rule)
+            try:
+                problem = _invalid(rule)
+                if not problem and name != BUILTIN:
+                    rule = plain_rule(rule, rule.check)
+            except BaseException as exc:  # noqa: BLE001 - a Rule whose fields raise when read
+                problem = f"returned a Rule that cannot be read ({describe(exc)})"
             if problem:
                 out.errors.append(f"error: plugin {name}: {problem}")
             elif rule.id in out.rules:
@@ -186,6 +191,17 @@ def collect_rules(pm: pluggy.PluginManager, errors: list[str], progress: Progres
             else:
                 out.rules[rule.id] = (rule, name)
     return out
+
+
+def plain_rule(rule: Rule, check) -> Rule:
+    """``rule`` as a record of the base class with plain fields and the given check: a
+    plugin's subclass or property cannot act up later, and what the check is replaced by
+    pickles without the plugin's modules."""
+    options = tuple(Option(str.__str__(o.name), o.default, str.__str__(o.help) if isinstance(o.help, str) else "",
+                           str.__str__(o.unit) if isinstance(o.unit, str) else "") for o in rule.options)
+    return Rule(id=str.__str__(rule.id), summary=str.__str__(rule.summary), explanation=str.__str__(rule.explanation),
+                check=check, severity=str.__str__(rule.severity), options=options, safety=bool(rule.safety),
+                opt_in=bool(rule.opt_in))
 
 
 def raised(exc: BaseException) -> str:

@@ -15,6 +15,7 @@ error, so a plugin's prints cannot corrupt JSON or SARIF output.
 from __future__ import annotations
 
 import collections
+import dataclasses
 import multiprocessing
 import os
 import signal
@@ -25,7 +26,7 @@ from multiprocessing.connection import wait
 from pathlib import Path
 from typing import Any
 
-from .findings import Option, Rule
+from .findings import Rule
 
 #: attempts at one layout before giving up (each attempt leaves out one more plugin or rule)
 MAX_ATTEMPTS = 25
@@ -79,20 +80,16 @@ def _plain_value(x: Any, depth: int = 0) -> Any:
         return type(x).__name__
 
 
-def _text(x: Any) -> str:
-    return str.__str__(x) if isinstance(x, str) else ""
-
-
 def describe_rules(rules: dict) -> dict[str, tuple[Rule, str]]:
     """Rules as base-class records without their code: for listing and reports in the
     supervisor, which never imports a plugin."""
+    from .plugins import plain_rule
+
     out = {}
     for rid, (rule, plugin) in rules.items():
-        options = tuple(Option(_text(o.name), _plain_value(o.default), _text(o.help), _text(o.unit))
-                        for o in rule.options if isinstance(o, Option))
-        out[rid] = (Rule(id=rid, summary=_text(rule.summary), explanation=_text(rule.explanation),
-                         check=_not_here, severity=rule.severity, options=options, safety=bool(rule.safety),
-                         opt_in=bool(rule.opt_in)), plugin)
+        plain = plain_rule(rule, _not_here)
+        options = tuple(dataclasses.replace(o, default=_plain_value(o.default)) for o in plain.options)
+        out[rid] = (dataclasses.replace(plain, options=options), plugin)
     return out
 
 

@@ -166,3 +166,18 @@ def test_a_plugin_that_changes_the_bench_changes_nothing_else(tmp_path, capsys, 
     assert code == 1, err                     # still failing: the errors are neither hidden nor waived
     assert builtin(doc) == baseline
     assert not any(f["waived"] for f in doc["findings"])
+
+
+def test_objects_that_raise_when_read_or_copied_are_failures_of_their_rule(tmp_path, capsys, baseline):
+    layout = repo(tmp_path, 'plugins = ["hostile_tricky_objects"]\n')
+    code, doc, err = run_json(capsys, layout)
+    assert code == 2, err
+    assert (f"{layout}: rule 'hostile-slippery' from plugin hostile_tricky_objects yielded a Finding that cannot be "
+            "read (RuntimeError: no targets for you); left out") in err
+    assert (f"{layout}: rule 'hostile-uncopyable' from plugin hostile_tricky_objects raised RuntimeError: "
+            "cannot be copied") in err
+    assert [f["message"] for f in doc["findings"] if f["plugin"] == "hostile_tricky_objects"] == ["a plain finding"]
+    assert builtin(doc) == baseline
+    code = main(["rules", "--format", "json", "--config", str(tmp_path / "benchcheck.toml")])
+    listed = {r["id"]: r for r in json.loads(capsys.readouterr().out)["rules"]}
+    assert code == 0 and listed["hostile-uncopyable"]["options"][0]["default"].startswith("<hostile_tricky_objects.")
