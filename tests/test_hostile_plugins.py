@@ -181,3 +181,14 @@ def test_objects_that_raise_when_read_or_copied_are_failures_of_their_rule(tmp_p
     code = main(["rules", "--format", "json", "--config", str(tmp_path / "benchcheck.toml")])
     listed = {r["id"]: r for r in json.loads(capsys.readouterr().out)["rules"]}
     assert code == 0 and listed["hostile-uncopyable"]["options"][0]["default"].startswith("<hostile_tricky_objects.")
+
+
+def test_an_import_that_never_finishes_is_stopped_and_rules_still_listed(tmp_path, capsys):
+    repo(tmp_path, 'plugins = ["hostile_hangs_at_import", "hostile_prints"]\nrule_timeout_s = 1\n')
+    code = main(["rules", "--format", "json", "--config", str(tmp_path / "benchcheck.toml")])
+    out, err = capsys.readouterr()
+    assert code == 2
+    assert ("error: plugin hostile_hangs_at_import did not finish within 1 s and was stopped (rule_timeout_s in the "
+            "configuration, or --rule-timeout) while being imported; it is left out of this run") in err
+    ids = {r["id"] for r in json.loads(out)["rules"]}
+    assert {"hostile-prints", "leak-beam"} <= ids
