@@ -53,6 +53,8 @@ LIMITS = {
                                   "a detector or inside an enclosure (1 mW: the visible Class 2 limit, from memory)"),
 }
 TOP_KEYS = ("fail_on", "plugins", "limits", "rules", "rule_timeout_s")
+#: a configuration is a few KiB; anything far larger is not one (and is not read into memory)
+MAX_CONFIG_BYTES = 1024 * 1024
 #: how long one plugin step (an import, the hook, one rule on one layout) may take, s
 RULE_TIMEOUT_S = 60.0
 RULE_KEYS = ("enabled", "severity")
@@ -160,6 +162,11 @@ def load_config(path: Path | None) -> Config:
         return Config()
     name = str(path)
     try:
+        if not path.is_file():
+            raise LayoutError("is not a regular file; a configuration is a TOML text file", file=name)
+        if path.stat().st_size > MAX_CONFIG_BYTES:
+            raise LayoutError(f"is larger than {MAX_CONFIG_BYTES // 1024} KiB; a configuration is a few KiB of "
+                              "TOML text", file=name)
         data = path.read_bytes()
     except OSError as exc:
         raise LayoutError(f"cannot read the configuration: {exc.strerror or exc}", file=name) from None

@@ -148,3 +148,19 @@ def test_rule_timeout_is_checked(tmp_path, text, fragment):
     with pytest.raises(LayoutError, match=fragment) as exc:
         load_config(path)
     assert exc.value.loc.line == 1
+
+
+def test_a_configuration_that_is_not_a_regular_file_or_far_too_large_is_refused(tmp_path):
+    import os
+
+    big = tmp_path / "benchcheck.toml"
+    big.write_text("# " + "x" * (2 * 1024 * 1024) + "\n")
+    with pytest.raises(LayoutError, match="larger than 1024 KiB"):
+        load_config(big)
+    if hasattr(os, "mkfifo"):
+        fifo = tmp_path / "fifo.toml"
+        os.mkfifo(fifo)
+        with pytest.raises(LayoutError, match="not a regular file"):      # not read, so no wait for a writer
+            load_config(fifo)
+    with pytest.raises(LayoutError, match="not a regular file"):
+        load_config(tmp_path)
