@@ -47,12 +47,12 @@ def validate_options(config: Config, ruleset: RuleSet) -> list[LayoutError]:
     """Configuration names only rules that exist and options they declare, with values of
     the declared type.  Returns the problems (each with its line in the configuration); the
     rules they concern are not run, the others are.  A section for a rule that no plugin
-    provided is not a problem of its own while a plugin failed to load (that failure is
-    reported instead)."""
+    provided is not a problem of its own while a plugin failed to load or was left out (that
+    failure is reported instead)."""
     problems: list[LayoutError] = []
     for rule_id, entry in config.rules.items():
         if rule_id not in ruleset.rules:
-            if ruleset.errors:
+            if ruleset.errors or ruleset.incomplete:
                 continue
             close = difflib.get_close_matches(rule_id, list(ruleset.rules), n=1, cutoff=0.6)
             hint = f"; did you mean '{close[0]}'?" if close else ""

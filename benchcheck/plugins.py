@@ -42,6 +42,8 @@ class RuleSet:
     errors: list[str] = field(default_factory=list)
     #: plugin name -> the module that holds it (for plugins listed in a configuration)
     modules: dict[str, str] = field(default_factory=dict)
+    #: some plugins were left out on purpose (they ended or hung a worker process before)
+    incomplete: bool = False
 
 
 def describe(exc: BaseException) -> str:
@@ -251,4 +253,6 @@ def load_rules(extra_modules: tuple[str, ...] = (), entry_points: bool | None = 
     finally:
         if added and search_path in sys.path:
             sys.path.remove(search_path)
-    return collect_rules(pm, errors, progress)
+    ruleset = collect_rules(pm, errors, progress)
+    ruleset.incomplete = bool(exclude)
+    return ruleset

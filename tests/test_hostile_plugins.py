@@ -113,10 +113,11 @@ def _subprocess(cwd: Path, *args: str) -> subprocess.CompletedProcess:
 
 
 def test_os_exit_at_import_leaves_the_plugin_out(tmp_path, capsys, baseline):
-    layout = repo(tmp_path, 'plugins = ["hostile_os_exit_at_import"]\n')
+    layout = repo(tmp_path, 'plugins = ["hostile_os_exit_at_import"]\n[rules.its-rule]\nenabled = true\n')
     done = _subprocess(tmp_path, "check", str(layout), "--format", "json")
     assert done.returncode == 2, done.stderr
     assert "Traceback" not in done.stderr
+    assert "no rule 'its-rule'" not in done.stderr      # its section is not a problem of its own
     doc = json.loads(done.stdout)
     assert ("error: plugin hostile_os_exit_at_import ended the worker process (os._exit or a crash; exit status 0) "
             "while being imported; it is left out of this run") in doc["errors"]
