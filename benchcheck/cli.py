@@ -102,12 +102,14 @@ def cmd_check(args) -> int:
         print(f"{args.config}: error: no such configuration file", file=sys.stderr)
         return EXIT_BAD_INPUT
     # plugins run only in worker processes: nothing they do ends or hides this run
-    present = [f for f in files if f.exists()]
-    n = min(args.jobs or workers(), len(present))
-    outcome = run_jobs([Job(str(f), args.config) for f in present], max(1, n), args.rule_timeout)
+    present = [f.exists() for f in files]
+    n = min(args.jobs or workers(), sum(present))
+    outcome = run_jobs([Job(str(f), args.config) for f, there in zip(files, present) if there], max(1, n),
+                       args.rule_timeout)
     done = iter(outcome.results)
-    results = [next(done) if f.exists() else
-               FileResult(str(f), errors=[f"{f}: error: no such file or folder"], layout=False) for f in files]
+    results = [next(done) if there else
+               FileResult(str(f), errors=[f"{f}: error: no such file or folder"], layout=False)
+               for f, there in zip(files, present)]
     if args.fail_on:
         for r in results:
             r.fail_on = args.fail_on

@@ -124,7 +124,17 @@ def _worker(conn) -> None:
             file = job.path or "<rules>"
             result = FileResult(file, errors=[f"{file}: internal error while checking ({describe(exc)}); "
                                               "please report it with this layout"])
-        conn.send(("done", result))
+        try:
+            conn.send(("done", result))
+        except (OSError, EOFError):
+            return
+        except Exception as exc:  # noqa: BLE001 - something in the result does not pickle
+            from .plugins import describe
+
+            result.bench, result.findings = None, []
+            result.errors.append(f"{result.file}: internal error: the result cannot be handed over "
+                                 f"({describe(exc)}); please report it with this layout")
+            conn.send(("done", result))
 
 
 def _run(job: Job, conn, cache: dict):

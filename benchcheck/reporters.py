@@ -84,11 +84,9 @@ def json_report(results: list[FileResult], rules: dict) -> str:
 
 def repository_root(start: Path) -> Path:
     """The nearest folder holding .git at or above ``start``; else ``start``."""
-    here = start.resolve()
-    for folder in (here, *here.parents):
-        if (folder / ".git").exists():
-            return folder
-    return here
+    from .config import repository_root as root_of
+
+    return root_of(start) or start.resolve()
 
 
 def _relative(file: str, root: Path) -> str:
