@@ -19,7 +19,9 @@ from pathlib import Path
 import pytest
 
 from benchcheck.cli import main
-from benchcheck.plugins import NO_ENTRY_POINTS_ENV
+from benchcheck.config import Config
+from benchcheck.engine import check_file
+from benchcheck.plugins import NO_ENTRY_POINTS_ENV, load_rules
 
 ROOT = Path(__file__).resolve().parent.parent
 HOSTILE = Path(__file__).resolve().parent / "plugins_hostile"
@@ -51,13 +53,14 @@ def builtin(doc: dict) -> list:
                   if f.get("plugin") == "benchcheck.rules")
 
 
-@pytest.fixture
-def baseline(tmp_path_factory, capsys):
+@pytest.fixture(scope="module")
+def baseline(tmp_path_factory):
+    """The built-in findings of the flawed bench with no plugin, computed once."""
     layout = repo(tmp_path_factory.mktemp("baseline"), "")
-    code, doc, err = run_json(capsys, layout)
-    assert code == 1 and doc["errors"] == [], err
-    assert sum(1 for f in doc["findings"] if f["severity"] == "error") == 8
-    return builtin(doc)
+    result = check_file(layout, Config(), load_rules(entry_points=False))
+    assert result.errors == []
+    assert sum(1 for f in result.findings if f.severity == "error") == 8
+    return builtin({"findings": [f.as_json() for f in result.findings]})
 
 
 def test_sys_exit_at_import_is_a_failure_of_the_plugin(tmp_path, capsys, baseline):
