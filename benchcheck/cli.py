@@ -27,6 +27,8 @@ NOT_LAYOUTS = {"benchcheck.toml", "pyproject.toml", "ruff.toml", ".ruff.toml", "
 
 
 def _layout_files(paths: list[str]) -> list[Path]:
+    """The layouts named or found below the folders named, each once (a file named twice,
+    or named and found in a folder, is checked once)."""
     out = []
     for p in paths:
         path = Path(p)
@@ -36,7 +38,14 @@ def _layout_files(paths: list[str]) -> list[Path]:
                                       for part in f.relative_to(path).parts[:-1]))
         else:
             out.append(path)
-    return out
+    seen: set = set()
+    unique = []
+    for f in out:
+        key = f.resolve() if f.exists() else f
+        if key not in seen:
+            seen.add(key)
+            unique.append(f)
+    return unique
 
 
 def _no_layouts(paths: list[str]) -> int:
@@ -84,37 +93,9 @@ def cmd_beams(args) -> int:
     return status
 
 
-_WORKER_CACHE: dict = {}
-
-
-def _check_one(job):
-    """Check one layout (runs in a worker process): config found from the layout's folder
-    unless given, rules loaded once per configuration."""
-    from .config import find_config, load_config
-    from .engine import FileResult, check_file, config_folder
-    from .plugins import load_rules
-
-    path, config_path, today = job
-    try:
-        cfg_path = Path(config_path) if config_path else find_config(Path(path))
-        key = str(cfg_path)
-        if key not in _WORKER_CACHE:
-            config = load_config(cfg_path)
-            _WORKER_CACHE[key] = (config, load_rules(config.plugins, search_path=config_folder(config)))
-        config, ruleset = _WORKER_CACHE[key]
-    except LayoutError as exc:
-        return FileResult(str(path), errors=[str(exc)])
-    result = check_file(Path(path), config, ruleset, today)
-    result.bench = None   # the report needs only the findings: do not ship the bench between processes
-    return result
-
-
 def cmd_check(args) -> int:
-    from concurrent.futures import ProcessPoolExecutor
-
-    from .config import find_config, load_config
-    from .engine import config_folder
-    from .plugins import load_rules
+    from .engine import FileResult
+    from .pool import Job, run_jobs
     from .reporters import exit_status, github_report, json_report, sarif_report, text_report, workers
 
     files = _layout_files(args.paths)
@@ -123,53 +104,41 @@ def cmd_check(args) -> int:
     if args.config and not Path(args.config).is_file():
         print(f"{args.config}: error: no such configuration file", file=sys.stderr)
         return EXIT_BAD_INPUT
-    jobs = [(str(f), args.config, None) for f in files]
-    n = min(args.jobs or workers(), len(jobs))
-    if n > 1:
-        with ProcessPoolExecutor(max_workers=n) as pool:
-            done = list(pool.map(_check_one, jobs))
-    else:
-        done = [_check_one(j) for j in jobs]
-    results = done
+    # plugins run only in worker processes: nothing they do ends or hides this run
+    present = [f.exists() for f in files]
+    n = min(args.jobs or workers(), sum(present))
+    outcome = run_jobs([Job(str(f), args.config) for f, there in zip(files, present) if there], max(1, n),
+                       args.rule_timeout)
+    done = iter(outcome.results)
+    results = [next(done) if there else
+               FileResult(str(f), errors=[f"{f}: error: no such file or folder"], layout=False)
+               for f, there in zip(files, present)]
     if args.fail_on:
         for r in results:
             r.fail_on = args.fail_on
-    # rule metadata for the report, from the configuration of the first layout
-    try:
-        cfg = load_config(Path(args.config) if args.config else find_config(files[0]))
-        rules = load_rules(cfg.plugins, search_path=config_folder(cfg)).rules
-    except LayoutError:
-        rules = {}
     for e in dict.fromkeys(e for r in results for e in r.errors):   # a bad configuration once, not per file
         print(e, file=sys.stderr)
     report = {"text": text_report, "json": json_report, "sarif": sarif_report, "github": github_report}[args.format]
-    sys.stdout.write(report(results, rules))
+    # rule metadata from every configuration that applied, as the workers described it
+    sys.stdout.write(report(results, outcome.rules))
     return exit_status(results)
 
 
 def cmd_rules(args) -> int:
-    from .config import find_config, load_config
-    from .plugins import load_rules
+    from .pool import Job, run_jobs
     from .reporters import rules_json, rules_text
 
-    try:
-        cfg = load_config(Path(args.config) if args.config else find_config(Path.cwd()))
-    except LayoutError as exc:
-        print(str(exc), file=sys.stderr)
-        return EXIT_BAD_INPUT
-    from .engine import config_folder
-
-    ruleset = load_rules(cfg.plugins, search_path=config_folder(cfg))
-    for e in ruleset.errors:
-        print(f"error: {e}", file=sys.stderr)
-    sys.stdout.write(rules_json(ruleset.rules) if args.format == "json" else rules_text(ruleset.rules))
-    return EXIT_BAD_INPUT if ruleset.errors else EXIT_OK
+    outcome = run_jobs([Job(None, args.config, start=str(Path.cwd()))], 1, args.rule_timeout)
+    for e in outcome.errors:
+        print(e, file=sys.stderr)
+    sys.stdout.write(rules_json(outcome.rules) if args.format == "json" else rules_text(outcome.rules))
+    return EXIT_BAD_INPUT if outcome.errors else EXIT_OK
 
 
 def cmd_report(args) -> int:
-    from .config import find_config, load_config
-    from .engine import check_file, config_folder
-    from .plugins import load_rules
+    from .config import find_config
+    from .outfile import refusal, write_replacing
+    from .pool import Job, run_jobs
 
     try:
         import matplotlib  # noqa: F401
@@ -182,32 +151,32 @@ def cmd_report(args) -> int:
 
     layout_path = Path(args.layout)
     out = Path(args.output) if args.output else Path(f"{layout_path.stem}-review.html")
-    if out.exists() and not args.force:
-        try:
-            head = out.read_text(encoding="utf-8", errors="replace")[:len(MARKER)]
-        except OSError:
-            head = ""
-        if head != MARKER:
-            print(f"{out}: error: exists and is not a benchcheck report; choose another -o or pass --force",
-                  file=sys.stderr)
-            return EXIT_BAD_INPUT
     try:
         cfg_path = Path(args.config) if args.config else find_config(layout_path)
-        config = load_config(cfg_path)
     except LayoutError as exc:
         print(str(exc), file=sys.stderr)
         return EXIT_BAD_INPUT
-    ruleset = load_rules(config.plugins, search_path=config_folder(config))
-    result = check_file(layout_path, config, ruleset)
+    problem = refusal(out, MARKER, (layout_path, cfg_path), args.force)
+    if problem:
+        print(problem, file=sys.stderr)
+        return EXIT_BAD_INPUT
+    outcome = run_jobs([Job(str(layout_path), args.config, keep_bench=True)], 1, args.rule_timeout)
+    result = outcome.results[0]
     for e in result.errors:
         print(e, file=sys.stderr)
     if result.bench is None:
         return EXIT_BAD_INPUT
     status = EXIT_BAD_INPUT if result.errors else EXIT_OK
-    html = Report(result.bench, result.findings, str(cfg_path) if cfg_path else None, ruleset.rules).html()
-    tmp = out.with_name(out.name + ".tmp")
-    tmp.write_text(html, encoding="utf-8")
-    tmp.replace(out)
+    html = Report(result.bench, result.findings, str(cfg_path) if cfg_path else None, outcome.rules).html()
+    problem = refusal(out, MARKER, (layout_path, cfg_path), args.force)   # again: it may have changed meanwhile
+    if problem:
+        print(problem, file=sys.stderr)
+        return EXIT_BAD_INPUT
+    try:
+        write_replacing(out, html)
+    except OSError as exc:
+        print(f"{out}: error: cannot write the report ({exc.strerror or exc})", file=sys.stderr)
+        return EXIT_BAD_INPUT
     print(f"wrote {out} ({len(result.findings)} findings)")
     return status
 
@@ -253,6 +222,22 @@ def cmd_schema(args) -> int:
     return EXIT_OK
 
 
+def _seconds(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        value = float("nan")
+    if not 0 < value < float("inf"):
+        raise argparse.ArgumentTypeError(f"expected a number of seconds greater than 0, found {text!r}")
+    return value
+
+
+def _timeout_option(parser) -> None:
+    parser.add_argument("--rule-timeout", type=_seconds, default=None, metavar="SECONDS",
+                        help="stop a plugin's import, hook or rule that runs longer on one layout "
+                             "(default: rule_timeout_s of the configuration, else 60)")
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="benchcheck",
@@ -289,6 +274,7 @@ def build_parser() -> argparse.ArgumentParser:
                             "found by walking up from each layout)")
     check.add_argument("--jobs", type=int, default=None, metavar="N",
                        help="layouts checked in parallel (default: one per core)")
+    _timeout_option(check)
     check.set_defaults(func=cmd_check)
 
     report = sub.add_parser(
@@ -304,6 +290,7 @@ def build_parser() -> argparse.ArgumentParser:
     report.add_argument("--config", metavar="FILE", help="configuration file (default: found walking up)")
     report.add_argument("--force", action="store_true",
                         help="replace FILE even if it is not an earlier benchcheck report")
+    _timeout_option(report)
     report.set_defaults(func=cmd_report)
 
     hazards = sub.add_parser(
@@ -325,6 +312,7 @@ def build_parser() -> argparse.ArgumentParser:
     rules = sub.add_parser("rules", help="list every rule with its plugin, severity, options and explanation")
     rules.add_argument("--format", choices=("text", "json"), default="text")
     rules.add_argument("--config", metavar="FILE", help="configuration whose plugins to load")
+    _timeout_option(rules)
     rules.set_defaults(func=cmd_rules)
 
     schema = sub.add_parser("schema", help="print the JSON Schema of the layout format (for editors)",
@@ -345,6 +333,7 @@ def main(argv: list[str] | None = None) -> int:
     except BrokenPipeError:
         return EXIT_OK
     except KeyboardInterrupt:
+        print("benchcheck: interrupted", file=sys.stderr)
         return 130
 
 

@@ -1,5 +1,11 @@
 """Repository configuration: ``benchcheck.toml``, or ``[tool.benchcheck]`` in
-``pyproject.toml``, found by walking up from the layout.
+``pyproject.toml``, found by walking up from the layout to the root of its repository.
+
+The configuration names plugin modules to import, so where it may come from is a matter
+of trust: running ``check`` on a repository runs the plugins that repository lists, and no
+others.  The search never leaves the layout's repository (the nearest folder holding a
+``.git`` folder or file); outside any repository only the layout's own folder is searched.
+A configuration anywhere else is used only when named with ``--config``.
 
 Limits and rule options live here, never in a layout: a layout can carry a waiver, which
 is reported, but cannot loosen a limit.
@@ -31,6 +37,7 @@ safety_factor = 2.0
 from __future__ import annotations
 
 import difflib
+import re
 import sys
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -68,7 +75,11 @@ EXPOSURE = {
     "invisible_s": (10.0, "s", "exposure duration outside 400-700 nm (common practice for unintended viewing)"),
 }
 MPE_KEYS = {"w_cm2": "W/cm^2", "j_cm2": "J/cm^2", "aperture_mm": "mm"}
-TOP_KEYS = ("fail_on", "plugins", "limits", "exposure", "rules")
+TOP_KEYS = ("fail_on", "plugins", "limits", "exposure", "rules", "rule_timeout_s")
+#: a configuration is a few KiB; anything far larger is not one (and is not read into memory)
+MAX_CONFIG_BYTES = 1024 * 1024
+#: how long one plugin step (an import, the hook, one rule on one layout) may take, s
+RULE_TIMEOUT_S = 60.0
 RULE_KEYS = ("enabled", "severity")
 
 
@@ -82,6 +93,10 @@ class Config:
     exposure: Policy = field(default_factory=Policy)
     #: rule id -> {"enabled": bool, "severity": str | None, "options": {...}, "loc": Loc}
     rules: dict[str, dict] = field(default_factory=dict)
+    #: a plugin's import, hook or one rule on one layout running longer is stopped, s
+    rule_timeout_s: float = RULE_TIMEOUT_S
+    #: where ``plugins`` is written, for messages about the modules it lists
+    plugins_loc: Loc | None = None
 
     def enabled(self, rule_id: str) -> bool:
         return self.rules.get(rule_id, {}).get("enabled", True)
@@ -93,24 +108,78 @@ class Config:
         return dict(self.rules.get(rule_id, {}).get("options", {}))
 
 
-def find_config(start: Path) -> Path | None:
-    """The nearest benchcheck.toml, or pyproject.toml with [tool.benchcheck], at or above ``start``."""
+def repository_root(start: Path) -> Path | None:
+    """The nearest folder at or above ``start`` that holds ``.git`` (a folder, or the file
+    of a worktree or submodule); None outside any repository."""
     here = start.resolve()
-    if here.is_file():
-        here = here.parent
     for folder in (here, *here.parents):
+        if (folder / ".git").exists():
+            return folder
+    return None
+
+
+def find_config(start: Path) -> Path | None:
+    """The nearest benchcheck.toml, or pyproject.toml with [tool.benchcheck], from
+    ``start`` up to its repository's root (only ``start``'s own folder outside a
+    repository).  A pyproject.toml that mentions benchcheck but cannot be read is an
+    error with its location; one that does not mention it is not read further."""
+    here = start.resolve()
+    if here.is_file() or not here.exists():
+        here = here.parent
+    root = repository_root(here)
+    folders = [here]
+    if root is not None:
+        folders += [f for f in here.parents if f == root or root in f.parents]
+    for folder in folders:
         candidate = folder / CONFIG_NAME
         if candidate.is_file():
             return candidate
         pyproject = folder / "pyproject.toml"
         if pyproject.is_file():
             try:
-                data = tomllib.loads(pyproject.read_text(encoding="utf-8"))
-            except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+                data = pyproject.read_bytes()
+            except OSError:
                 continue
-            if isinstance(data.get("tool"), dict) and "benchcheck" in data["tool"]:
+            if b"benchcheck" not in data:
+                continue
+            doc = _toml(data, str(pyproject))
+            if isinstance(doc.get("tool"), dict) and "benchcheck" in doc["tool"]:
                 return pyproject
     return None
+
+
+def _toml(data: bytes, name: str) -> dict:
+    """Parse configuration bytes as the loader reads a layout (UTF-8, an optional BOM);
+    every failure is a ``LayoutError`` with a location, never a traceback."""
+    from .loader import MAX_NESTING, _byte_loc, _syntax_error, _too_deep
+
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise LayoutError(f"not UTF-8 text (byte 0x{data[exc.start]:02x}); a configuration is a UTF-8 TOML "
+                          "text file", _byte_loc(data, exc.start, name)) from None
+    if text.startswith("\ufeff"):
+        text = text[1:]
+    deep = _too_deep(text)
+    if deep is not None:
+        raise LayoutError(f"arrays or inline tables nested more than {MAX_NESTING} deep; a configuration needs "
+                          "two levels at most", Loc(name, *deep))
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise _syntax_error(exc, text, name) from None
+    except RecursionError:
+        raise LayoutError("the configuration is nested too deeply to read", Loc(name, 1, 1)) from None
+    except ValueError as exc:   # e.g. an integer of more digits than Python converts
+        digits = re.search(r"\d[\d_]{999,}", text)
+        at = _text_loc(text, digits.start(), name) if digits else Loc(name, 1, 1)
+        what = "a number far too long to read" if digits else f"a value that cannot be read ({exc})"
+        raise LayoutError(f"{what}; a configuration holds short numbers", at) from None
+
+
+def _text_loc(text: str, offset: int, file: str) -> Loc:
+    line = text.count("\n", 0, offset) + 1
+    return Loc(file, line, offset - (text.rfind("\n", 0, offset) + 1) + 1)
 
 
 def load_config(path: Path | None) -> Config:
@@ -118,15 +187,20 @@ def load_config(path: Path | None) -> Config:
         return Config()
     name = str(path)
     try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise LayoutError(f"cannot read the configuration: {exc}", file=name) from None
+        if not path.is_file():
+            raise LayoutError("is not a regular file; a configuration is a TOML text file", file=name)
+        if path.stat().st_size > MAX_CONFIG_BYTES:
+            raise LayoutError(f"is larger than {MAX_CONFIG_BYTES // 1024} KiB; a configuration is a few KiB of "
+                              "TOML text", file=name)
+        data = path.read_bytes()
+    except OSError as exc:
+        raise LayoutError(f"cannot read the configuration: {exc.strerror or exc}", file=name) from None
+    doc = _toml(data, name)
+    text = data.decode("utf-8").lstrip("\ufeff")
     try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        from .loader import _syntax_error
-        raise _syntax_error(exc, text, name) from None
-    positions = key_positions(text)
+        positions = key_positions(text)
+    except Exception:  # noqa: BLE001 - the scanner must never turn a good file into a crash
+        positions = {}
     prefix: tuple = ()
     if path.name == "pyproject.toml":
         doc = doc.get("tool", {}).get("benchcheck", {})
@@ -166,6 +240,12 @@ def _parse(doc: dict, file: str, positions: dict, prefix: tuple) -> Config:
         if not isinstance(plugins, list) or not all(isinstance(p, str) and p for p in plugins):
             raise fail(("plugins",), "plugins must be a list of importable module names")
         cfg.plugins = tuple(plugins)
+        cfg.plugins_loc = loc("plugins")
+    if "rule_timeout_s" in doc:
+        t = doc["rule_timeout_s"]
+        if isinstance(t, bool) or not isinstance(t, (int, float)) or not 0 < t < float("inf"):
+            raise fail(("rule_timeout_s",), "rule_timeout_s must be a number of seconds greater than 0")
+        cfg.rule_timeout_s = float(t)
     limits = doc.get("limits", {})
     if not isinstance(limits, dict):
         raise fail(("limits",), "[limits] must be a table")

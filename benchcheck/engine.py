@@ -7,17 +7,21 @@ expired or unmatched waiver is itself reported.
 
 from __future__ import annotations
 
+import copy
 import datetime as _dt
 import difflib
+import math
+import numbers
+import pickle
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from .config import Config, find_config, load_config
-from .findings import WARNING, Bench, Finding, Rule
+from .findings import SEVERITIES, WARNING, Bench, Finding, Rule
 from .loader import load_path
-from .model import LayoutError
-from .plugins import RuleSet, load_rules
+from .model import LayoutError, Loc
+from .plugins import BUILTIN, RuleSet, describe, load_rules, raised
 from .solve import solve_layout
 
 #: Engine findings about waivers (not rules of any plugin).
@@ -37,18 +41,20 @@ class FileResult:
     bench: Bench | None = None
     #: the layout itself could not be read or solved (its errors say why)
     unreadable: bool = False
+    #: False for a path named on the command line that does not exist: not counted as a layout
+    layout: bool = True
 
 
 def validate_options(config: Config, ruleset: RuleSet) -> list[LayoutError]:
     """Configuration names only rules that exist and options they declare, with values of
     the declared type.  Returns the problems (each with its line in the configuration); the
     rules they concern are not run, the others are.  A section for a rule that no plugin
-    provided is not a problem of its own while a plugin failed to load (that failure is
-    reported instead)."""
+    provided is not a problem of its own while a plugin failed to load or was left out (that
+    failure is reported instead)."""
     problems: list[LayoutError] = []
     for rule_id, entry in config.rules.items():
         if rule_id not in ruleset.rules:
-            if ruleset.errors:
+            if ruleset.errors or ruleset.incomplete:
                 continue
             close = difflib.get_close_matches(rule_id, list(ruleset.rules), n=1, cutoff=0.6)
             hint = f"; did you mean '{close[0]}'?" if close else ""
@@ -88,28 +94,141 @@ def _kind(default: Any) -> str:
     return f"a {type(default).__name__}"
 
 
-def run_rules(bench: Bench, config: Config, ruleset: RuleSet, today: _dt.date | None = None) -> FileResult:
+def run_rules(bench: Bench, config: Config, ruleset: RuleSet, today: _dt.date | None = None, *,
+              skip: frozenset[str] = frozenset(), progress: Callable[[str], None] | None = None) -> FileResult:
+    """Every enabled rule on ``bench``.  The built-in rules read the bench itself, first;
+    each plugin gets its own copy, so nothing a plugin changes reaches a built-in rule,
+    another plugin or the waivers.  Whatever plugin code raises (``SystemExit`` and
+    ``KeyboardInterrupt`` too) and every malformed finding is an error naming the rule and
+    the plugin; the other rules' findings are kept.  ``skip`` holds rules not to run (the
+    supervisor's: ones that ended or hung a worker process); ``progress(rule_id)`` is
+    called before each rule runs."""
     out = FileResult(bench.file)
-    for rule_id, (rule, plugin) in ruleset.rules.items():
-        if not config.enabled(rule_id) or config.rules.get(rule_id, {}).get("invalid"):
+    snapshot: bytes | None = None
+    taken = False
+    copies: dict[str, Bench] = {}
+    for rule_id, (rule, plugin) in sorted(ruleset.rules.items(), key=lambda kv: kv[1][1] != BUILTIN):
+        if rule_id in skip or not rule_enabled(config, ruleset, rule_id) or config.rules.get(rule_id, {}).get("invalid"):
             continue
-        options = rule.defaults()
-        options.update(config.options(rule_id))
+        if plugin == BUILTIN:
+            given = bench
+        else:
+            if plugin not in copies:
+                if not taken:
+                    snapshot, taken = _snapshot(bench), True
+                copies[plugin] = pickle.loads(snapshot) if isinstance(snapshot, bytes) else copy.deepcopy(bench)
+            given = copies[plugin]
+        if progress is not None:
+            progress(rule_id)
+        who = f"{bench.file}: rule '{rule_id}' from plugin {plugin}"
         try:
-            produced = list(rule.check(bench, options) or ())
-        except Exception as exc:  # noqa: BLE001 - a plugin's failure is reported by name
-            out.errors.append(f"{bench.file}: rule '{rule_id}' from plugin {plugin} raised "
-                              f"{type(exc).__name__}: {exc}")
+            options = copy.deepcopy(rule.defaults())
+            options.update(copy.deepcopy(config.options(rule_id)))
+            produced = list(rule.check(given, options) or ())
+        except BaseException as exc:  # noqa: BLE001 - a plugin's failure is reported by name, even sys.exit
+            out.errors.append(f"{who} {raised(exc)}")
             continue
+        bad = []
         for f in produced:
-            if not isinstance(f, Finding):
-                out.errors.append(f"{bench.file}: rule '{rule_id}' from plugin {plugin} yielded "
-                                  f"{type(f).__name__}, not a benchcheck.Finding")
-                break
-            out.findings.append(_complete(f, rule, plugin, bench, config))
+            try:
+                problem = finding_problem(f)
+                plain = None if problem else _plain(f)
+            except BaseException as exc:  # noqa: BLE001 - a Finding whose fields raise when read
+                problem = f"a Finding that cannot be read ({describe(exc)})"
+            if problem:
+                bad.append(problem)
+                continue
+            out.findings.append(_complete(plain, rule, plugin, bench, config))
+        if bad:
+            more = f" (and {len(bad) - 1} more)" if len(bad) > 1 else ""
+            out.errors.append(f"{who} yielded {bad[0]}{more}; left out")
     out.findings = apply_waivers(out.findings, bench, today or _dt.date.today())
     out.findings.sort(key=lambda f: (f.loc.line if f.loc else 0, f.loc.column if f.loc else 0, f.rule))
     return out
+
+
+def _snapshot(bench: Bench) -> bytes | None:
+    """The bench as bytes, from which each plugin gets its own copy (faster than a deep
+    copy per plugin); None where something in it does not pickle (then deep copies)."""
+    try:
+        return pickle.dumps(bench, protocol=pickle.HIGHEST_PROTOCOL)
+    except Exception:  # noqa: BLE001
+        return None
+
+
+def rule_enabled(config: Config, ruleset: RuleSet, rule_id: str) -> bool:
+    """An opt-in rule runs only where the configuration asks for it: a ``[rules.<id>]``
+    table (without ``enabled = false``), or its plugin's module listed under ``plugins``."""
+    rule, plugin = ruleset.rules[rule_id]
+    entry = config.rules.get(rule_id)
+    if entry is not None and "enabled" in entry:
+        return entry["enabled"]
+    if not getattr(rule, "opt_in", False):
+        return True
+    return entry is not None or ruleset.modules.get(plugin, plugin) in config.plugins
+
+
+def _is_number(x: Any) -> bool:
+    return isinstance(x, numbers.Real) and not isinstance(x, bool)
+
+
+def finding_problem(f: Any) -> str | None:
+    """Why ``f`` cannot be reported as it is, or None: the contract of ``Finding``
+    checked field by field where a rule hands it over."""
+    if not isinstance(f, Finding):
+        return f"{type(f).__name__}, not a benchcheck.Finding"
+    if not isinstance(f.message, str) or not f.message.strip():
+        return f"a Finding whose message is {_short(f.message)}, not a non-empty string"
+    if not isinstance(f.targets, (tuple, list)) or not all(isinstance(t, str) for t in f.targets):
+        return f"a Finding whose targets are {_short(f.targets)}, not a tuple of ids (strings)"
+    for name in ("value", "limit"):
+        x = getattr(f, name)
+        if x is not None and not _is_number(x):
+            return f"a Finding whose {name} is {_short(x)}, not a number or None"
+    for name in ("unit", "hint", "severity"):
+        x = getattr(f, name)
+        if x is not None and not isinstance(x, str):
+            return f"a Finding whose {name} is {_short(x)}, not a string or None"
+    if f.severity is not None and f.severity not in SEVERITIES:
+        return f"a Finding whose severity is {_short(f.severity)}, not one of {', '.join(SEVERITIES)}"
+    loc = f.loc
+    if loc is not None and not (isinstance(loc, Loc) and isinstance(loc.file, str)
+                                and all(isinstance(n, int) and not isinstance(n, bool) and n >= 0
+                                        for n in (loc.line, loc.column))):
+        return f"a Finding whose loc is {_short(loc)}, not a benchcheck.model.Loc (file, line, column)"
+    at = f.at
+    if at is not None:
+        try:
+            ok = len(at) == 2 and all(_is_number(c) and math.isfinite(c) for c in at)
+        except Exception:  # noqa: BLE001 - not a sequence
+            ok = False
+        if not ok:
+            return f"a Finding whose at is {_short(at)}, not a finite (x, y) in mm"
+    return None
+
+
+def _short(x: Any) -> str:
+    try:
+        text = repr(x)
+    except BaseException:  # noqa: BLE001
+        text = f"a {type(x).__name__}"
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+def _plain(f: Finding) -> Finding:
+    """The same finding as plain values of the base class: safe to compare, print, and
+    send from a worker process to one that never imported the plugin."""
+    def text(x):
+        return None if x is None else str.__str__(x)
+
+    def num(x):
+        return None if x is None else float(x)
+
+    loc = f.loc
+    return Finding(text(f.message), tuple(str.__str__(t) for t in f.targets), value=num(f.value),
+                   limit=num(f.limit), unit=text(f.unit), hint=text(f.hint), severity=text(f.severity),
+                   loc=None if loc is None else Loc(str.__str__(loc.file), int(loc.line), int(loc.column)),
+                   at=None if f.at is None else (float(f.at[0]), float(f.at[1])))
 
 
 def _complete(f: Finding, rule: Rule, plugin: str, bench: Bench, config: Config) -> Finding:
@@ -160,14 +279,15 @@ def apply_waivers(findings: list[Finding], bench: Bench, today: _dt.date) -> lis
 
 
 def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None = None,
-               today: _dt.date | None = None) -> FileResult:
+               today: _dt.date | None = None, *, skip: frozenset[str] = frozenset(),
+               progress: Callable[[str], None] | None = None) -> FileResult:
     """Load, solve and check one layout; unusable input is an error, never an exception."""
     name = str(path)
     try:
         if config is None:
             config = load_config(find_config(path))
         if ruleset is None:
-            ruleset = load_rules(config.plugins, search_path=config_folder(config))
+            ruleset = load_rules(config.plugins, search_path=config_folder(config), where=config.plugins_loc)
         problems = [str(p) for p in validate_options(config, ruleset)]
     except LayoutError as exc:      # the configuration, not the layout
         return FileResult(name, errors=[str(exc)])
@@ -182,9 +302,9 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
         return FileResult(name, errors=[f"{name}: internal error while solving ({type(exc).__name__}: {exc}); "
                                         "please report it with this layout"], unreadable=True)
     bench = Bench(layout, solution, dict(config.limits), config.exposure)
-    result = run_rules(bench, config, ruleset, today)
+    result = run_rules(bench, config, ruleset, today, skip=skip, progress=progress)
     # plugin and configuration problems are not this layout's: said once, whatever the file
-    result.errors = [f"error: {e}" for e in ruleset.errors] + problems + result.errors
+    result.errors = list(ruleset.errors) + problems + result.errors
     result.fail_on = config.fail_on
     result.bench = bench
     return result

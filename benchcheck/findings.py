@@ -52,6 +52,10 @@ class Rule:
     options: tuple[Option, ...] = ()
     #: safety rules carry the caution that they are advisory
     safety: bool = False
+    #: off until a repository's configuration turns it on (a ``[rules.<id>]`` table, or the
+    #: plugin's module under ``plugins``): installing a plugin then changes no other
+    #: repository's results
+    opt_in: bool = False
 
     def defaults(self) -> dict[str, Any]:
         return {o.name: o.default for o in self.options}

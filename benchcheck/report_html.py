@@ -349,10 +349,11 @@ class Report:
             if f.waived:
                 sev += ' <span class="waived">waived</span>'
             unit = escape(f.unit or "")
-            if f.value is not None and f.limit is not None:
-                measured = f"{f.value:.4g} / {f.limit:.4g} {unit}"
-            elif f.value is not None:
-                measured = f"{f.value:.4g} {unit}"
+            value, limit = (x if x is not None and math.isfinite(x) else None for x in (f.value, f.limit))
+            if value is not None and limit is not None:
+                measured = f"{value:.4g} / {limit:.4g} {unit}"
+            elif value is not None:
+                measured = f"{value:.4g} {unit}"
             else:
                 measured = "–"
             extra = f'<div class="hint">{escape(f.waiver_reason or "")}</div>' if f.waived else (

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 import os
 import re
 from pathlib import Path
@@ -49,7 +50,8 @@ def input_errors(results: list[FileResult]) -> tuple[int, int]:
     problems): the errors that are no rule's finding, counted once each (a bad
     configuration repeats in every file's result)."""
     unreadable = sum(1 for r in results if r.unreadable)
-    setup = {e for r in results if not r.unreadable for e in r.errors}
+    # a path that does not exist is no layout and no configuration problem (said on stderr)
+    setup = {e for r in results if not r.unreadable and r.layout for e in r.errors}
     return unreadable, len(setup)
 
 
@@ -77,7 +79,7 @@ def text_report(results: list[FileResult], rules: dict) -> str:
     if why:
         parts[0] += f" ({'; '.join(why)})"
     summary = ", ".join(parts) + (f"; {waived} waived" if waived else "")
-    files = len(results)
+    files = sum(1 for r in results if r.layout)
     lines.append(f"{summary} in {files} layout{'s' if files != 1 else ''}")
     if not any(not f.waived for f in findings) and not any(r.errors for r in results):
         lines.append(NOT_AN_APPROVAL)
@@ -92,7 +94,7 @@ def json_report(results: list[FileResult], rules: dict) -> str:
     doc = {
         "format": JSON_FORMAT,
         "findings": [f.as_json() for f in findings],
-        "files": [r.file for r in results],
+        "files": [r.file for r in results if r.layout],
         "errors": list(dict.fromkeys(e for r in results for e in r.errors)),
         "caution": SAFETY_CAUTION,
     }
@@ -103,11 +105,9 @@ def json_report(results: list[FileResult], rules: dict) -> str:
 
 def repository_root(start: Path) -> Path:
     """The nearest folder holding .git at or above ``start``; else ``start``."""
-    here = start.resolve()
-    for folder in (here, *here.parents):
-        if (folder / ".git").exists():
-            return folder
-    return here
+    from .config import repository_root as root_of
+
+    return root_of(start) or start.resolve()
 
 
 def _relative(file: str, root: Path) -> str:
@@ -218,7 +218,8 @@ def rules_text(rules: dict) -> str:
     out = []
     for rid in sorted(rules):
         rule, plugin = rules[rid]
-        out.append(f"{rid}  [{rule.severity}]  from {plugin}{'  (safety)' if rule.safety else ''}")
+        opt_in = "  (opt-in: off until the configuration turns it on)" if rule.opt_in else ""
+        out.append(f"{rid}  [{rule.severity}]  from {plugin}{'  (safety)' if rule.safety else ''}{opt_in}")
         out.append(f"    {rule.summary}")
         for o in rule.options:
             unit = f" {o.unit}" if o.unit else ""
@@ -233,10 +234,25 @@ def rules_json(rules: dict) -> str:
     doc = {"format": JSON_FORMAT, "rules": [
         {"id": rid, "plugin": rules[rid][1], "severity": rules[rid][0].severity, "summary": rules[rid][0].summary,
          "explanation": rules[rid][0].explanation, "safety": rules[rid][0].safety,
-         "options": [{"name": o.name, "default": o.default, "unit": o.unit, "help": o.help}
-                     for o in rules[rid][0].options]}
+         "options": [{"name": o.name, "default": _json_safe(o.default), "unit": o.unit, "help": o.help}
+                     for o in rules[rid][0].options],
+         "opt_in": rules[rid][0].opt_in}
         for rid in sorted(rules)]}
-    return json.dumps(doc, indent=2) + "\n"
+    return json.dumps(doc, indent=2, allow_nan=False) + "\n"
+
+
+def _json_safe(x, depth: int = 0):
+    """An option default as valid JSON: NaN and infinities as null (as finding values are),
+    anything JSON has no type for as its repr."""
+    if isinstance(x, float):
+        return x if math.isfinite(x) else None
+    if x is None or isinstance(x, (bool, int, str)):
+        return x
+    if depth < 8 and isinstance(x, (list, tuple)):
+        return [_json_safe(v, depth + 1) for v in x]
+    if depth < 8 and isinstance(x, dict):
+        return {str(k): _json_safe(v, depth + 1) for k, v in x.items()}
+    return repr(x)
 
 
 def _wrap(text: str, indent: str, width: int = 92) -> list[str]:

@@ -79,6 +79,7 @@ def builtin_rules_only(monkeypatch):
 
 def write(tmp_path: Path, layout: str = LAYOUT, config: str | None = OPEN_LAB, name: str = "bench.toml",
           config_name: str = "benchcheck.toml") -> Path:
+    (tmp_path / ".git").mkdir(exist_ok=True)      # the repository root: the configuration search stops here
     (tmp_path / "layouts").mkdir(exist_ok=True)
     path = tmp_path / "layouts" / name
     path.write_text(layout)

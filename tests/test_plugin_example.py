@@ -454,7 +454,7 @@ def test_options_and_switches_come_from_the_configuration(tmp_path):
 
 def test_an_option_out_of_range_is_reported_by_rule_and_plugin_and_the_rest_still_run(tmp_path):
     cfg = tmp_path / "benchcheck.toml"
-    cfg.write_text("[rules.breadboard-grid]\npitch_mm = 0.0\n")
+    cfg.write_text('plugins = ["benchcheck_breadboard"]\n[rules.breadboard-grid]\npitch_mm = 0.0\n')
     config = load_config(cfg)
     ruleset = _ruleset()
     validate_options(config, ruleset)
@@ -462,6 +462,28 @@ def test_an_option_out_of_range_is_reported_by_rule_and_plugin_and_the_rest_stil
     assert result.errors == [("bench.toml: rule 'breadboard-grid' from plugin benchcheck_breadboard raised "
                               "ValueError: rules.breadboard-grid.pitch_mm must be greater than 0 mm, found 0.0")]
     assert {f.targets[0] for f in result.findings if f.rule == "table-edge-clearance"} == {"L1", "M1", "D1"}
+
+
+@pytest.mark.parametrize("text, expected", [
+    ("", set()),                                                     # installed is not enough
+    ("[limits]\nstray_power_w = 0.001\n", set()),
+    ("[rules.breadboard-grid]\n", {"breadboard-grid"}),               # a table for the rule turns it on
+    ("[rules.table-edge-clearance]\nmin_clearance_mm = 30.0\n", {"table-edge-clearance"}),
+    ('plugins = ["benchcheck_breadboard"]\n', {"breadboard-grid", "table-edge-clearance"}),
+    ('plugins = ["benchcheck_breadboard"]\n[rules.breadboard-grid]\nenabled = false\n', {"table-edge-clearance"}),
+])
+def test_the_example_rules_are_off_until_a_configuration_turns_them_on(tmp_path, text, expected):
+    """Installing a plugin must not change another repository's results (issue: the demo
+    benches gained grid warnings once the example was installed for its tests)."""
+    cfg = tmp_path / "benchcheck.toml"
+    cfg.write_text(text)
+    config = load_config(cfg)
+    ruleset = _ruleset()
+    assert GRID.opt_in and EDGE.opt_in
+    assert validate_options(config, ruleset) == []
+    result = run_rules(bench_of(EDGE_LAYOUT, config.limits), config, ruleset)
+    assert result.errors == []
+    assert {f.rule for f in result.findings if f.plugin == "benchcheck_breadboard"} == expected
 
 
 # --- plugins that fail: reported by name, the rest still run, exit status 2 -------------
@@ -525,6 +547,7 @@ def lab_plugin(tmp_path, monkeypatch):
         (tmp_path / "src" / f"{name}.py").write_text(source)
         monkeypatch.syspath_prepend(str(tmp_path / "src"))
         (tmp_path / "benchcheck.toml").write_text(f'plugins = ["{name}"]\n')
+        (tmp_path / ".git").mkdir(exist_ok=True)     # the repository root: the configuration search stops here
         (tmp_path / "layouts").mkdir(exist_ok=True)
         layout = tmp_path / "layouts" / "bench.toml"
         layout.write_text(OPEN_BEAM)
@@ -656,6 +679,26 @@ def test_installed_plugin_is_listed_and_fires_through_the_command_line(tmp_path)
     assert re.search(r"^bench\.toml:\d+:1: warning: the mount of \"L1\" \(lens\) .*\[breadboard-grid\]$",
                      done.stdout, re.MULTILINE)
     assert "[table-edge-clearance]" in done.stdout
+
+
+@pytest.mark.skipif(not _installed(), reason="the distribution benchcheck-breadboard is not installed here; "
+                                             "'pip install ./plugins/benchcheck-breadboard' runs this test")
+def test_installing_the_example_changes_nothing_for_the_demo_benches():
+    """The README's main job on the good demo layouts, run where the example plugin is
+    installed (as the README's test command installs it): not one finding of its rules."""
+    env = dict(os.environ)
+    env.pop(NO_ENTRY_POINTS_ENV, None)
+    env["PYTHONPATH"] = os.pathsep.join(p for p in (str(ROOT), env.get("PYTHONPATH")) if p)
+    demos = sorted(str(p) for p in (ROOT / "layouts").glob("*.toml"))
+    done = subprocess.run([sys.executable, "-m", "benchcheck", "check", *demos, "--format", "json"], cwd=ROOT,
+                          env=env, capture_output=True, text=True, timeout=300, check=False)
+    doc = json.loads(done.stdout)
+    assert doc["errors"] == [], done.stderr
+    assert [f for f in doc["findings"] if f["plugin"] == "benchcheck-breadboard:breadboard"] == []
+    done = subprocess.run([sys.executable, "-m", "benchcheck", "rules", "--format", "json"], cwd=ROOT, env=env,
+                          capture_output=True, text=True, timeout=300, check=False)
+    listed = {r["id"]: r for r in json.loads(done.stdout)["rules"]}
+    assert listed["breadboard-grid"]["opt_in"] is True and listed["leak-beam"]["opt_in"] is False
 
 
 # --- the pre-commit hook that the repository offers -------------------------------------

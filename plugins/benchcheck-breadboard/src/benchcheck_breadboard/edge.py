@@ -73,6 +73,7 @@ EDGE_RULE = Rule(
     ),
     check=check,
     severity="warning",
+    opt_in=True,                 # off until a repository configures it: see docs/plugins.md
     options=(
         Option("min_clearance_mm", 25.0, "smallest distance from any mount to the table edge", "mm"),
         Option("check_obstacles", False, "also hold obstacles (posts, boxes, walls) to the margin"),

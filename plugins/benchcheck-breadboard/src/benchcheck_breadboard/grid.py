@@ -107,6 +107,7 @@ GRID_RULE = Rule(
     ),
     check=check,
     severity="warning",
+    opt_in=True,                 # off until a repository configures it: see docs/plugins.md
     options=(
         Option("pitch_mm", 25.0, "spacing of the tapped holes, the same along x and y", "mm"),
         Option("origin_mm", [12.5, 12.5], "table coordinates [x, y] of the hole nearest the lower-left corner",

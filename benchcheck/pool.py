@@ -1,0 +1,347 @@
+"""The worker processes that run plugin code, and the supervisor that hands them layouts.
+
+A plugin is code a repository asks benchcheck to run; it can do anything Python can:
+``sys.exit(0)``, ``os._exit``, loop forever, print.  None of that may turn a failing bench
+into a pass.  So the commands never import a plugin in their own process: every plugin
+import, every call of its hook and every rule run on a layout happens in a worker process
+that this module watches.  A worker reports each plugin step before it starts it; when the
+worker dies in one, or a step outlasts the timeout (the worker is then killed), the
+supervisor names the plugin and the rule, leaves that plugin or rule out of the rest of
+the run, and checks the layout again in a fresh worker, so the other rules' findings are
+kept.  The run then ends with status 2.  A worker's standard output goes to standard
+error, so a plugin's prints cannot corrupt JSON or SARIF output.
+"""
+
+from __future__ import annotations
+
+import collections
+import dataclasses
+import multiprocessing
+import os
+import signal
+import sys
+import time
+from dataclasses import dataclass, field
+from multiprocessing.connection import wait
+from pathlib import Path
+from typing import Any
+
+from .findings import Rule
+
+#: attempts at one layout before giving up (each attempt leaves out one more plugin or rule)
+MAX_ATTEMPTS = 25
+
+
+@dataclass
+class Job:
+    """One layout to check (``path``), or only the rules of a configuration (``path`` None)."""
+
+    path: str | None
+    #: the configuration named with --config; None: found from the layout (or ``start``)
+    config: str | None = None
+    start: str | None = None
+    keep_bench: bool = False
+    #: plugins and rules left out because they ended or hung a worker
+    exclude: tuple[str, ...] = ()
+    skip: frozenset = frozenset()
+    attempts: int = 0
+    #: the configuration that applies, as the supervisor found it (what is left out is per configuration)
+    key: str | None = None
+    #: what the supervisor found out about this layout on earlier attempts
+    errors: list[str] = field(default_factory=list)
+
+
+@dataclass
+class Outcome:
+    """What the supervisor hands back: the layouts' results (in the order given), every
+    rule known from any configuration (plain metadata, no plugin code), and the problems
+    of the rules job."""
+
+    results: list = field(default_factory=list)
+    rules: dict[str, tuple[Rule, str]] = field(default_factory=dict)
+    errors: list[str] = field(default_factory=list)
+
+
+def _not_here(bench, options):   # the check of a rule described to the supervisor
+    raise RuntimeError("rule metadata only: the rule runs in a worker process")
+
+
+def _plain_value(x: Any, depth: int = 0) -> Any:
+    """An option default as plain data that unpickles without the plugin's modules."""
+    if x is None or type(x) in (bool, int, float, str):
+        return x
+    if depth < 8 and type(x) in (list, tuple):
+        return type(x)(_plain_value(v, depth + 1) for v in x)
+    if depth < 8 and type(x) is dict:
+        return {str(k): _plain_value(v, depth + 1) for k, v in x.items()}
+    try:
+        return repr(x)
+    except BaseException:  # noqa: BLE001
+        return type(x).__name__
+
+
+def describe_rules(rules: dict) -> dict[str, tuple[Rule, str]]:
+    """Rules as base-class records without their code: for listing and reports in the
+    supervisor, which never imports a plugin."""
+    from .plugins import plain_rule
+
+    out = {}
+    for rid, (rule, plugin) in rules.items():
+        plain = plain_rule(rule, _not_here)
+        options = tuple(dataclasses.replace(o, default=_plain_value(o.default)) for o in plain.options)
+        out[rid] = (dataclasses.replace(plain, options=options), plugin)
+    return out
+
+
+# --- the worker -------------------------------------------------------------------------
+
+def _worker(conn) -> None:
+    """Run jobs until told to stop.  Ctrl-C is the supervisor's to handle."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        sys.stdout.flush()
+    except Exception:  # noqa: BLE001
+        pass
+    try:
+        os.dup2(2, 1)
+    except OSError:
+        pass
+    sys.stdout = sys.stderr
+    cache: dict = {}
+    while True:
+        try:
+            job = conn.recv()
+        except (EOFError, OSError):
+            return
+        if job is None:
+            return
+        try:
+            result = _run(job, conn, cache)
+        except BaseException as exc:  # noqa: BLE001 - a sentence for the user, never a traceback
+            from .engine import FileResult
+            from .plugins import describe
+
+            file = job.path or "<rules>"
+            result = FileResult(file, errors=[f"{file}: internal error while checking ({describe(exc)}); "
+                                              "please report it with this layout"])
+        try:
+            conn.send(("done", result))
+        except (OSError, EOFError):
+            return
+        except Exception as exc:  # noqa: BLE001 - something in the result does not pickle
+            from .plugins import describe
+
+            result.bench, result.findings = None, []
+            result.errors.append(f"{result.file}: internal error: the result cannot be handed over "
+                                 f"({describe(exc)}); please report it with this layout")
+            conn.send(("done", result))
+
+
+def _run(job: Job, conn, cache: dict):
+    from .config import find_config, load_config
+    from .engine import FileResult, check_file, config_folder
+    from .model import LayoutError
+    from .plugins import BUILTIN, load_rules
+
+    name = job.path or "<rules>"
+    try:
+        if job.config:
+            cfg_path = Path(job.config)
+        else:
+            cfg_path = find_config(Path(job.path or job.start or "."))
+        key = (str(cfg_path), job.exclude)
+        if key not in cache:
+            config = load_config(cfg_path)
+
+            def step(what, plugin):
+                conn.send(("step", what, plugin, None, config.rule_timeout_s))
+
+            ruleset = load_rules(config.plugins, search_path=config_folder(config), exclude=job.exclude,
+                                 where=config.plugins_loc, progress=step)
+            conn.send(("step", "solve", None, None, None))
+            conn.send(("rules", describe_rules(ruleset.rules)))
+            cache[key] = (config, ruleset)
+        config, ruleset = cache[key]
+    except LayoutError as exc:
+        return FileResult(name, errors=[str(exc)])
+    if job.path is None:
+        return FileResult(name, errors=list(ruleset.errors))
+
+    def progress(rule_id):
+        plugin = ruleset.rules[rule_id][1]
+        if plugin != BUILTIN:
+            conn.send(("step", "rule", plugin, rule_id, config.rule_timeout_s))
+
+    conn.send(("step", "solve", None, None, None))
+    result = check_file(Path(job.path), config, ruleset, skip=job.skip, progress=progress)
+    if not job.keep_bench:
+        result.bench = None   # the findings are enough: do not ship the bench between processes
+    return result
+
+
+# --- the supervisor ---------------------------------------------------------------------
+
+class _Worker:
+    def __init__(self, ctx):
+        self.conn, child = ctx.Pipe()
+        self.proc = ctx.Process(target=_worker, args=(child,), daemon=True)
+        self.proc.start()
+        child.close()
+        self.job: Job | None = None
+        self.index = -1
+        self.step: tuple | None = None
+        self.since = 0.0
+
+    def stop(self, kill: bool = False) -> None:
+        if kill:
+            self.proc.kill()
+        else:
+            try:
+                self.conn.send(None)
+            except OSError:
+                pass
+        self.proc.join(timeout=5)
+        if self.proc.is_alive():
+            self.proc.kill()
+            self.proc.join()
+        self.conn.close()
+
+
+def run_jobs(jobs: list[Job], n: int, timeout_s: float | None = None) -> Outcome:
+    """Check every job in up to ``n`` worker processes; results in the order of ``jobs``.
+    ``timeout_s`` overrides each configuration's ``rule_timeout_s``."""
+    from .engine import FileResult
+
+    ctx = multiprocessing.get_context()
+    out = Outcome(results=[None] * len(jobs))
+    pending = collections.deque(enumerate(jobs))
+    found: dict[str, str] = {}
+    for job in jobs:
+        job.key = _config_key(job, found)
+    #: per configuration of a job: what is left out for every later layout
+    left_out: dict[str | None, tuple[tuple[str, ...], frozenset]] = {}
+    workers: list[_Worker] = []
+    try:
+        while pending or any(w.job for w in workers):
+            while pending and (len(workers) < n or any(w.job is None for w in workers)):
+                idle = next((w for w in workers if w.job is None), None)
+                if idle is None:
+                    idle = _Worker(ctx)
+                    workers.append(idle)
+                index, job = pending.popleft()
+                exclude, skip = left_out.get(job.key, ((), frozenset()))
+                job.exclude, job.skip = tuple(dict.fromkeys(job.exclude + exclude)), job.skip | skip
+                idle.job, idle.index, idle.step, idle.since = job, index, None, time.monotonic()
+                try:
+                    idle.conn.send(job)
+                except OSError:          # it died while idle: another one takes the job
+                    idle.job = None
+                    idle.stop(kill=True)
+                    workers.remove(idle)
+                    pending.appendleft((index, job))
+            busy = [w for w in workers if w.job is not None]
+            wait([w.conn for w in busy] + [w.proc.sentinel for w in busy], timeout=_next_deadline(busy, timeout_s))
+            for w in busy:
+                _drain(w, out, FileResult, pending, left_out, timeout_s)
+            workers = [w for w in workers if w.proc.is_alive() or w.job is not None]
+    finally:
+        for w in workers:
+            w.stop(kill=w.job is not None)   # busy only when interrupted: do not wait for it
+    return out
+
+
+def _config_key(job: Job, found: dict) -> str | None:
+    """The configuration a job's layout is checked with (found without importing anything);
+    its folder where the search fails (the worker reports why)."""
+    from .config import find_config
+    from .model import LayoutError
+
+    if job.config:
+        return job.config
+    start = Path(job.path).resolve().parent if job.path else Path(job.start or ".").resolve()
+    folder = str(start)
+    if folder not in found:
+        try:
+            found[folder] = str(find_config(start))
+        except (LayoutError, OSError):
+            found[folder] = folder
+    return found[folder]
+
+
+def _limit(w: _Worker, timeout_s: float | None) -> float | None:
+    if not w.step or w.step[0] == "solve":
+        return None
+    return timeout_s if timeout_s is not None else w.step[3]
+
+
+def _next_deadline(busy: list[_Worker], timeout_s: float | None) -> float | None:
+    left = [w.since + _limit(w, timeout_s) - time.monotonic() for w in busy if _limit(w, timeout_s) is not None]
+    return max(0.0, min(left)) if left else None
+
+
+def _read(w: _Worker, out: Outcome) -> bool:
+    """Take in everything worker ``w`` has sent so far; True once its job is done."""
+    while True:
+        try:
+            if not w.conn.poll():
+                return False
+            msg = w.conn.recv()
+        except (EOFError, OSError):
+            return False
+        if msg[0] == "step":
+            w.step, w.since = (msg[1], msg[2], msg[3], msg[4]), time.monotonic()
+        elif msg[0] == "rules":
+            out.rules.update(msg[1])
+        elif msg[0] == "done":
+            result = msg[1]
+            result.errors = w.job.errors + result.errors
+            if w.job.path is None:
+                out.errors = result.errors
+            out.results[w.index] = result
+            w.job, w.step = None, None
+            return True
+
+
+def _drain(w: _Worker, out: Outcome, FileResult, pending, left_out, timeout_s) -> None:
+    """Read what worker ``w`` sent; handle its death or a step past its time.  Whether it
+    is alive is asked before reading: a dead worker's last words are all in the pipe."""
+    alive = w.proc.is_alive()
+    if _read(w, out):
+        return
+    limit = _limit(w, timeout_s)
+    hung = limit is not None and time.monotonic() - w.since >= limit
+    if alive and not hung:
+        return
+    if hung:
+        w.proc.kill()
+    w.proc.join()
+    if _read(w, out):     # it finished just before it was stopped
+        return
+    code = w.proc.exitcode
+    job, step = w.job, w.step
+    w.job = None
+    w.conn.close()
+    file = job.path or "<rules>"
+    how = (f"did not finish within {limit:g} s and was stopped (rule_timeout_s in the configuration, "
+           "or --rule-timeout)") if hung else f"ended the worker process (os._exit or a crash; exit status {code})"
+    key = job.key
+    exclude, skip = left_out.get(key, ((), frozenset()))
+    if step and step[0] in ("import", "hook") and job.attempts < MAX_ATTEMPTS:
+        what = "while being imported" if step[0] == "import" else "in its benchcheck_rules hook"
+        job.errors.append(f"error: plugin {step[1]} {how} {what}; it is left out of this run")
+        left_out[key] = (exclude + (step[1],), skip)
+        job.exclude = job.exclude + (step[1],)
+    elif step and step[0] == "rule" and job.attempts < MAX_ATTEMPTS:
+        job.errors.append(f"{file}: rule '{step[2]}' from plugin {step[1]} {how}; it is left out of this run")
+        left_out[key] = (exclude, skip | {step[2]})
+        job.skip = job.skip | {step[2]}
+    else:
+        result = FileResult(file, errors=job.errors + [
+            f"{file}: internal error: the worker process checking it ended (exit status {code}); "
+            "please report it with this layout"])
+        if job.path is None:
+            out.errors = result.errors
+        out.results[w.index] = result
+        return
+    job.attempts += 1
+    pending.appendleft((w.index, job))

@@ -1,0 +1,3 @@
+"""Never finishes being imported."""
+while True:
+    pass
