@@ -74,6 +74,16 @@ def cavity_json(c: CavityResult) -> dict:
         "waists": _waists_json(c.waists),
         "notes": list(c.notes),
     }
+    if c.enhancement is not None:
+        e = c.enhancement
+        out["enhancement"] = {
+            "finesse": _num(e.finesse), "linewidth_hz": _num(e.linewidth_hz),
+            "input_transmission": _num(e.input_transmission), "rest_loss": _num(e.rest_loss),
+            "coupling": e.coupling, "buildup": _num(e.buildup),
+            "reflected_fraction": _num(e.reflected), "transmitted_fraction": _num(e.transmitted),
+            "input_w": _num(e.input_w), "seeds": list(e.seeds), "delivered_w": _num(e.delivered_w),
+            "mode_match": _num(e.mode_match), "declared_input_w": _num(e.declared_w),
+        }
     if c.thermal is not None:
         t = c.thermal
         out["thermal_lens"] = {
@@ -209,6 +219,8 @@ def cavity_text(c: CavityResult) -> list[str]:
     lines.append(f"  round trip {c.round_trip_mm:.3f} mm (optical)  FSR {fmt_si(c.fsr_hz, 'Hz')}  "
                  + (f"circulating {c.circulating_w:.4g} W one-way" if c.circulating_w is not None
                     else "circulating power not given (no output or input power in the layout)"))
+    if c.enhancement is not None:
+        lines += _enhancement_lines(c)
     if c.thermal is not None:
         t = c.thermal
         for p in PLANES:
@@ -221,6 +233,18 @@ def cavity_text(c: CavityResult) -> list[str]:
     lines += _waist_lines(c.waists)
     lines += [f"  note: {n}" for n in c.notes]
     return lines
+
+
+def _enhancement_lines(c: CavityResult) -> list[str]:
+    e = c.enhancement
+    fed = (f"{e.input_w:.4g} W in the cavity's mode" if e.input_w is not None else "no input power")
+    return [
+        f"  on resonance: finesse {fmt(e.finesse, '.1f')}, linewidth {fmt_si(e.linewidth_hz, 'Hz')} (FWHM), "
+        f"build-up {fmt(e.buildup, '.4g')} ({fed})",
+        f"  input coupler T {e.input_transmission * 100:.3g} % against the rest of the round-trip loss "
+        f"{e.rest_loss * 100:.3g} %: {e.coupling}; of the mode-matched light {fmt(e.reflected * 100, '.3g')} % is "
+        f"reflected and {fmt(e.transmitted * 100, '.3g')} % leaves through the other mirrors",
+    ]
 
 
 def _end_text(b: BeamResult) -> str:
