@@ -48,6 +48,8 @@ def _hit_json(h: HitResult) -> dict:
     }
     if h.peak_j_cm2 is not None:
         out["peak_j_cm2"] = _num(h.peak_j_cm2)
+    if h.pulse_peak_w_cm2 is not None:
+        out["pulse_peak_w_cm2"] = _num(h.pulse_peak_w_cm2)
     if h.counter_propagating:
         out["counter_propagating"] = True
     return out
@@ -177,8 +179,10 @@ def fmt_si(x: float | None, unit: str, none: str = "-") -> str:
 
 
 def _hits_table(hits: list[HitResult], pulsed: bool) -> list[str]:
-    head = ["optic", "s [mm]", "AOI [deg]", "w_t [um]", "w_s [um]", "w_t/w_s", "P [W]",
-            "peak [W/cm^2]"] + (["peak [J/cm^2]"] if pulsed else [])
+    in_pulse = any(h.pulse_peak_w_cm2 is not None for h in hits)
+    head = (["optic", "s [mm]", "AOI [deg]", "w_t [um]", "w_s [um]", "w_t/w_s", "P [W]"]
+            + (["peak of avg P [W/cm^2]", "peak fluence [J/cm^2]"] if pulsed else ["peak [W/cm^2]"])
+            + (["peak in pulse [W/cm^2]"] if in_pulse else []))
     rows = []
     for h in hits:
         wt, ws = h.w.get(TANGENTIAL), h.w.get(SAGITTAL)
@@ -188,6 +192,8 @@ def _hits_table(hits: list[HitResult], pulsed: bool) -> list[str]:
                fmt(h.peak_w_cm2, ".3e")]
         if pulsed:
             row.append(fmt(h.peak_j_cm2, ".3e"))
+        if in_pulse:
+            row.append(fmt(h.pulse_peak_w_cm2, ".3e"))
         rows.append(row)
     return _grid(head, rows)
 

@@ -40,6 +40,9 @@ class HitResult:
     peak_w_cm2: float | None
     peak_j_cm2: float | None = None
     counter_propagating: bool = False
+    #: where the pulse duration is known: the pulse's own spatial peak intensity,
+    #: 2E/(pi w_t w_s tau) (W/cm^2), beside ``peak_w_cm2`` that the average power gives
+    pulse_peak_w_cm2: float | None = None
 
 
 @dataclass
@@ -516,6 +519,13 @@ def _set_power(result: CavityResult, cav: Cavity, p_circ: float | None) -> None:
         h.power_w = p_circ
         h.peak_w_cm2 = _peak(p_circ, h.w[TANGENTIAL], h.w[SAGITTAL])
         h.peak_j_cm2 = _peak(energy, h.w[TANGENTIAL], h.w[SAGITTAL])
+        h.pulse_peak_w_cm2 = _in_pulse(h.peak_j_cm2, cav.pulse_s)
+
+
+def _in_pulse(fluence: float | None, pulse_s: float | None) -> float | None:
+    """Peak intensity within the pulse: peak fluence / duration (a pulse whose peak power is
+    E / tau; a Gaussian pulse of full width tau peaks about 0.94 E / tau, from memory)."""
+    return None if fluence is None or not pulse_s else fluence / pulse_s
 
 
 #: A declared input_power_w further than this (relative) from what the seed delivers is noted.
@@ -567,6 +577,7 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
     wavelength = wl_nm * NM_TO_MM
     origin = path.origin
     energy = None
+    pulse_s = None
     if origin in layout.sources:
         src = layout.sources[origin]
         q0 = {TANGENTIAL: gauss.q_at_distance_from_waist(src.waist_t, -src.waist_at, wavelength, src.m2_t),
@@ -575,6 +586,7 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         power = src.power_w
         if power is None and src.pulse_energy_j is not None and src.rep_hz is not None:
             power = src.pulse_energy_j * src.rep_hz
+        pulse_s = src.pulse_s
         if src.pulse_energy_j is not None:
             energy = src.pulse_energy_j
         elif src.pulse_s is not None and src.rep_hz is not None and power is not None:
@@ -598,6 +610,7 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         power = None if result.circulating_w is None else result.circulating_w * transmission(oc, cav.wavelength_nm)
         if cav.rep_hz is not None and power is not None:
             energy = power / cav.rep_hz
+            pulse_s = cav.pulse_s
         if any(v is None for v in q0.values()):
             notes.append(f"cavity \"{origin}\" has no mode in every plane, so beam \"{path.id}\" has no size there")
     radii, waists, trains, q_last, profile = {}, [], {}, {}, {}
@@ -625,7 +638,8 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         p = None if power is None else power * kept
         fluence = None if energy is None else _peak(energy * kept, w[TANGENTIAL], w[SAGITTAL])
         hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p,
-                              _peak(p, w[TANGENTIAL], w[SAGITTAL]), fluence))
+                              _peak(p, w[TANGENTIAL], w[SAGITTAL]), fluence,
+                              pulse_peak_w_cm2=_in_pulse(fluence, pulse_s)))
         if hit.action != "end":
             if optic.kind == "mirror" and hit.action == TRANSMIT and optic.reflectivity is None:
                 notes.append(f"\"{optic.id}\" gives no reflectivity, so it is taken as a perfect reflector and "
