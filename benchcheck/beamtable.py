@@ -67,6 +67,7 @@ def cavity_json(c: CavityResult) -> dict:
         "m": {p: _num(c.modes[p].m, 12) for p in PLANES},
         "status": {p: c.modes[p].status for p in PLANES},
         "round_trip_mm": _num(c.round_trip_mm),
+        "round_trip_s": _num(c.round_trip_s),
         "fsr_hz": _num(c.fsr_hz),
         "gouy_deg": {p: _num(c.gouy_deg(p)) for p in PLANES},
         "tms_hz": {p: _num(c.tms_hz(p)) for p in PLANES},
@@ -219,7 +220,7 @@ def cavity_text(c: CavityResult) -> list[str]:
         shown = f"{margin:.4f}" if abs(margin) >= 1e-4 or margin == 0.0 else f"{margin:.2e}"
         state = STATUS_LABEL[mode.status]
         lines.append(f"  {name:<10}  m = {mode.m:+.6f}  margin 1-|m| = {shown}  {state}"
-                     + (f"  Gouy {c.gouy_deg(p):.2f} deg  TMS {fmt_si(c.tms_hz(p), 'Hz')}" if mode.gouy is not None else ""))
+                     + (f"  Gouy {c.gouy_deg(p):.2f} deg (mod 360)  TMS {fmt_si(c.tms_hz(p), 'Hz')}" if mode.gouy is not None else ""))
         if mode.status != "stable":
             lines.append(f"    {STATUS_TEXT[mode.status]}")
     lines.append(f"  round trip {c.round_trip_mm:.3f} mm (optical)  FSR {fmt_si(c.fsr_hz, 'Hz')}  "

@@ -34,8 +34,9 @@ _COMMON = ("id", "kind", "at", "diameter", "mount", "lidt", "note")
 OPTIC_KEYS = {
     "mirror": _COMMON + ("roc", "reflectivity", "absorption", "fold", "substrate"),
     "lens": _COMMON + ("focal_length", "absorption"),
-    "crystal": _COMMON + ("length", "index", "faces", "thermal_lens", "thermal_lens_t", "thermal_lens_s", "absorption"),
-    "plate": _COMMON + ("thickness", "index", "aoi", "faces", "reflectivity", "absorption"),
+    "crystal": _COMMON + ("length", "index", "group_index", "faces", "thermal_lens", "thermal_lens_t", "thermal_lens_s",
+                          "absorption"),
+    "plate": _COMMON + ("thickness", "index", "group_index", "aoi", "faces", "reflectivity", "absorption"),
     "aperture": _COMMON,
     "splitter": _COMMON + ("reflectivity", "absorption", "fold", "substrate"),
     "dump": _COMMON + ("max_power_w",),
@@ -538,6 +539,8 @@ class _Reader:
         if kind in ("crystal", "plate"):
             fields["index"] = self.number(self.require(value, "index", path, f"{kind} \"{ident}\""),
                                           p("index"), "", low=1.0)
+            if "group_index" in value:
+                fields["group_index"] = self.number(value["group_index"], p("group_index"), "", low=1.0)
             if "faces" in value:
                 fields["faces"] = self.string(value["faces"], p("faces"), FACES)
         if "aoi" in value:

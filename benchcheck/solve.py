@@ -99,6 +99,7 @@ class CavityResult:
     #: plane -> free-propagation pieces on the way out (empty where the plane has no mode)
     profile: dict = field(default_factory=dict)
     enhancement: Enhancement | None = None    # passive cavities only
+    round_trip_s: float | None = None         # round-trip time, with the group index where given
 
     def stable(self, plane: str) -> bool:
         return self.modes[plane].stable
@@ -268,6 +269,25 @@ def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):
     return at_marks, waists, pieces
 
 
+#: Far-field half-angle divergence (rad) above which a focus is beyond the paraxial regime.
+PARAXIAL_LIMIT_RAD = 0.1
+
+
+def paraxial_notes(waists: list[WaistResult], wavelength: float, m2: dict, who: str) -> list[str]:
+    """Notes for waists focused beyond the paraxial regime: theta = M^2 lambda / (pi w0)
+    above about 0.1 rad (a waist of about three wavelengths), where the paraxial Gaussian
+    beam stops describing the focus well (Siegman, Lasers, ch. 17, from memory)."""
+    out = []
+    for w in waists:
+        theta = m2.get(w.plane, 1.0) * wavelength / (math.pi * w.w) if w.w > 0 else math.inf
+        if theta > PARAXIAL_LIMIT_RAD:
+            out.append(f"{who} is focused beyond the paraxial regime: in the {w.plane} plane the waist at s = "
+                       f"{w.s:.2f} mm is {w.w * 1e3:.3g} um ({w.w / wavelength:.2g} wavelengths), a far-field "
+                       f"divergence of {theta:.2f} rad (above about {PARAXIAL_LIMIT_RAD:g} rad); the Gaussian-beam "
+                       "model's radii and intensities near that focus are estimates")
+    return out
+
+
 def _dedupe_waists(plane: str, raw, tol: float = 1e-6) -> list[WaistResult]:
     out: list[WaistResult] = []
     for s, w in sorted(raw):
@@ -356,10 +376,19 @@ def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | N
         if t <= 0:
             raise LayoutError(f"output coupler \"{oc.id}\" transmits nothing at {wl:g} nm (reflectivity 1)",
                               oc.where("reflectivity"))
-        return cav.output_power_w / t
+        return cav.output_power_w / (t * output_beams(cav, path))
     if cav.input_power_w is None:
         return None
     return cav.input_power_w * passive_terms(layout, cav, path).buildup
+
+
+def output_beams(cav: Cavity, path: PathTrace) -> int:
+    """How many beams leave through the output coupler: two where a linear cavity folds on
+    it (the circulating beam meets it going out and coming back), else one.  The layout's
+    output_power_w is their sum."""
+    ids = [h.optic for h in path.hits]
+    k = ids.index(cav.output_coupler)
+    return 2 if cav.kind == "linear" and 0 < k < len(ids) - 1 else 1
 
 
 @dataclass(frozen=True)
@@ -492,8 +521,16 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
                              "reproduces itself and there is no unique mode")
         notes += train.notes
     waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
-    round_trip = sum(st.length * st.index for st in trains[TANGENTIAL].steps if isinstance(st, Space))
-    fsr = SPEED_OF_LIGHT_MM_S / round_trip if round_trip > 0 else math.inf
+    notes += paraxial_notes(waists, wavelength, {}, f"the mode of cavity \"{cav.id}\"")
+    spaces = [st for st in trains[TANGENTIAL].steps if isinstance(st, Space)]
+    round_trip = sum(st.length * st.index for st in spaces)
+    group_path = sum(st.length * (st.group or st.index) for st in spaces)
+    fsr = SPEED_OF_LIGHT_MM_S / group_path if group_path > 0 else math.inf
+    phase_only = sorted({h.optic for h in path.hits if layout.optics[h.optic].kind in ("crystal", "plate")
+                         and layout.optics[h.optic].group_index is None})
+    if phase_only:
+        notes.append("the FSR and round-trip time use the phase index of " + ", ".join(phase_only)
+                     + " (no group_index given; the group index of a dispersive medium is larger)")
     p_circ = circulating_power(layout, cav, path)
     pulsed = cav.rep_hz is not None
     hits = [HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action,
@@ -501,8 +538,13 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
             for i, hit in enumerate(path.hits)]
     thermal = _thermal_scan(layout, path, trains)
     result = CavityResult(cav.id, cav.kind, modes, round_trip, fsr, p_circ, hits, waists, thermal, trains,
-                          passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)), profile=profile)
+                          passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)), profile=profile,
+                          round_trip_s=group_path / SPEED_OF_LIGHT_MM_S)
     _set_power(result, cav, p_circ)
+    if cav.output_power_w is not None and output_beams(cav, path) == 2:
+        result.notes.append(f"the output coupler \"{cav.output_coupler}\" is a fold mirror: it emits two beams, one "
+                            f"each way, and output_power_w = {cav.output_power_w:g} W is their sum, so each carries "
+                            f"{cav.output_power_w / 2:g} W and the circulating power is output_power_w / (2 T)")
     if cav.passive:
         terms = passive_terms(layout, cav, path)
         result.enhancement = Enhancement(
@@ -627,6 +669,7 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         trains[plane] = train
         q_last[plane] = _q_at_marker(train, complex(q0[plane]), len(path.hits) - 1)
     waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
+    notes += paraxial_notes(waists, wavelength, m2, f"beam \"{path.id}\"")
     match = None
     if path.into is not None:
         match = mode_match(layout, path, q_last, cavities[path.into], traced, notes)
