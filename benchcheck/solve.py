@@ -307,8 +307,8 @@ def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan 
     of degree in each power the number of times the round trip passes that lens (two in a
     linear cavity, one in a ring).  It is evaluated at (degree + 1) powers per lens and
     bounded over the whole range box in the Bernstein form (``bernstein``): the extremes
-    of m are found to 1e-12 with a proof that nothing in the box lies beyond them, for any
-    number of lenses.  Where an extreme reaches |m| = 1, the round trip there is classified
+    of m are found (to 1e-12 at an isolated extreme) with a proven bound that nothing in the
+    box lies beyond, for any number of lenses.  Where an extreme reaches |m| = 1, the round trip there is classified
     like any cavity: touching the boundary with a round trip of +-I (the confocal-like
     point) retraces every ray and does not break the range.
     """

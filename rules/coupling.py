@@ -8,6 +8,7 @@ with the cavity's eigenmode at the input coupler (beam table, ``ends.mode_match`
 from __future__ import annotations
 
 from benchcheck.findings import WARNING, Finding, Option, Rule
+from benchcheck.solve import SEED_POWER_TOLERANCE
 
 
 def check_mode_match(bench, options):
@@ -70,7 +71,9 @@ RULES = (
         check=check_seed_power,
         severity=WARNING,
         options=(
-            Option("tolerance", 0.01, "accepted relative difference between declared and delivered power",
+            Option("tolerance", SEED_POWER_TOLERANCE,
+                   "accepted relative difference between declared and delivered power (the beam table notes "
+                   "a difference above 1 %)",
                    "fraction"),
         ),
     ),
