@@ -92,6 +92,9 @@ def test_losses_on_the_way_reduce_what_the_seed_delivers():
     assert c["enhancement"]["delivered_w"] == pytest.approx(2.7, rel=1e-12)
     assert c["circulating_w"] == pytest.approx(2.7 * buildup(0.99, 0.999), rel=1e-9)
     assert any("input_power_w = 3 W" in n and "2.7 W" in n for n in c["notes"])
+    # what leaves the input coupler backwards is at most what the seed brings (off resonance)
+    (back,) = [st for st in solved(text)["strays"] if st["optic"] == "IC"]
+    assert back["power_w"] == pytest.approx(2.7, rel=1e-9) and back["power_is_upper_bound"]
     (f,) = findings(text, "seed-power")
     assert f.value == pytest.approx(3.0) and f.limit == pytest.approx(2.7) and f.unit == "W"
     assert findings(seeded(0.99, 0.999, 3.0, 3.0), "seed-power") == []
