@@ -39,10 +39,11 @@ class HitResult:
     power_w: float | None
     peak_w_cm2: float | None
     peak_j_cm2: float | None = None
-    counter_propagating: bool = False
     #: where the pulse duration is known: the pulse's own spatial peak intensity,
     #: 2E/(pi w_t w_s tau) (W/cm^2), beside ``peak_w_cm2`` that the average power gives
     pulse_peak_w_cm2: float | None = None
+    counter_propagating: bool = False
+    energy_j: float | None = None      # pulse energy arriving here (pulsed paths only)
 
 
 @dataclass
@@ -125,6 +126,7 @@ class BeamResult:
     into: str | None = None             # the passive cavity this beam is coupled into
     mode_match: float | None = None     # fraction of its power in that cavity's mode
     profile: dict = field(default_factory=dict)   # plane -> free-propagation pieces
+    energy_j: float | None = None       # pulse energy at the origin (pulsed beams only)
 
 
 @dataclass
@@ -164,6 +166,10 @@ def solve_layout(layout: Layout) -> Solution:
     for bid, path in traced.beams.items():
         if path.origin in fed:      # a beam out of a cavity whose power changed
             beams[bid] = solve_beam(layout, path, cavities, traced)
+    for b in beams.values():
+        origin = layout.sources.get(b.origin) or layout.cavities[b.origin]
+        for h in b.hits:
+            h.pulse_peak_w_cm2 = _in_pulse(h.peak_j_cm2, origin.pulse_s)
     strays = [stray_power(layout, st, cavities, beams) for st in traced.strays]
     return Solution(layout, placement, traced, cavities, beams, notes, strays)
 
@@ -533,9 +539,14 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
                      + " (no group_index given; the group index of a dispersive medium is larger)")
     p_circ = circulating_power(layout, cav, path)
     pulsed = cav.rep_hz is not None
-    hits = [HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action,
-                      {p: radii[p].get(i) for p in PLANES}, None, None, counter_propagating=cav.kind == "linear")
-            for i, hit in enumerate(path.hits)]
+    hits = []
+    for i, hit in enumerate(path.hits):
+        w = {p: radii[p].get(i) for p in PLANES}
+        peak = _peak(p_circ, w[TANGENTIAL], w[SAGITTAL])
+        energy = p_circ / cav.rep_hz if pulsed and p_circ is not None else None
+        fluence = _peak(energy, w[TANGENTIAL], w[SAGITTAL])
+        hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p_circ, peak,
+                              fluence, counter_propagating=cav.kind == "linear", energy_j=energy))
     thermal = _thermal_scan(layout, path, trains)
     result = CavityResult(cav.id, cav.kind, modes, round_trip, fsr, p_circ, hits, waists, thermal, trains,
                           passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)), profile=profile,
@@ -561,6 +572,7 @@ def _set_power(result: CavityResult, cav: Cavity, p_circ: float | None) -> None:
         h.power_w = p_circ
         h.peak_w_cm2 = _peak(p_circ, h.w[TANGENTIAL], h.w[SAGITTAL])
         h.peak_j_cm2 = _peak(energy, h.w[TANGENTIAL], h.w[SAGITTAL])
+        h.energy_j = energy
         h.pulse_peak_w_cm2 = _in_pulse(h.peak_j_cm2, cav.pulse_s)
 
 
@@ -619,7 +631,6 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
     wavelength = wl_nm * NM_TO_MM
     origin = path.origin
     energy = None
-    pulse_s = None
     if origin in layout.sources:
         src = layout.sources[origin]
         q0 = {TANGENTIAL: gauss.q_at_distance_from_waist(src.waist_t, -src.waist_at, wavelength, src.m2_t),
@@ -628,7 +639,6 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         power = src.power_w
         if power is None and src.pulse_energy_j is not None and src.rep_hz is not None:
             power = src.pulse_energy_j * src.rep_hz
-        pulse_s = src.pulse_s
         if src.pulse_energy_j is not None:
             energy = src.pulse_energy_j
         elif src.pulse_s is not None and src.rep_hz is not None and power is not None:
@@ -652,7 +662,6 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         power = None if result.circulating_w is None else result.circulating_w * transmission(oc, cav.wavelength_nm)
         if cav.rep_hz is not None and power is not None:
             energy = power / cav.rep_hz
-            pulse_s = cav.pulse_s
         if any(v is None for v in q0.values()):
             notes.append(f"cavity \"{origin}\" has no mode in every plane, so beam \"{path.id}\" has no size there")
     radii, waists, trains, q_last, profile = {}, [], {}, {}, {}
@@ -679,16 +688,17 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         optic = layout.optics[hit.optic]
         w = {pl: radii[pl].get(i) for pl in PLANES}
         p = None if power is None else power * kept
-        fluence = None if energy is None else _peak(energy * kept, w[TANGENTIAL], w[SAGITTAL])
+        e = None if energy is None else energy * kept
         hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p,
-                              _peak(p, w[TANGENTIAL], w[SAGITTAL]), fluence,
-                              pulse_peak_w_cm2=_in_pulse(fluence, pulse_s)))
+                              _peak(p, w[TANGENTIAL], w[SAGITTAL]), _peak(e, w[TANGENTIAL], w[SAGITTAL]),
+                              energy_j=e))
         if hit.action != "end":
             if optic.kind == "mirror" and hit.action == TRANSMIT and optic.reflectivity is None:
                 notes.append(f"\"{optic.id}\" gives no reflectivity, so it is taken as a perfect reflector and "
                              f"beam \"{path.id}\" passes it with no power")
             kept *= pass_factor(optic, hit.action, wl_nm)
-    return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)), path.tail, path.into, match, profile)
+    return BeamResult(path.id, origin, hits, waists, power, sorted(set(notes)), path.tail, path.into, match, profile,
+                      energy_j=energy)
 
 
 def _q_at_marker(train: Train, q0: complex, hit_index: int, after: bool = False) -> complex:
