@@ -25,8 +25,6 @@ ROUNDING = 1e-13
 #: A round trip on the boundary whose entries (B, C scaled by the cavity length) are this
 #: close to +-I retraces every ray.
 RETRACE_TOL = 1e-9
-#: Kept for callers that compare |m| with 1 directly.
-BOUNDARY_TOL = 1e-9
 
 STABLE = "stable"
 UNSTABLE = "unstable"
