@@ -225,7 +225,7 @@ def cavity_text(c: CavityResult) -> list[str]:
             lines.append(f"    {STATUS_TEXT[mode.status]}")
     lines.append(f"  round trip {c.round_trip_mm:.3f} mm (optical)  FSR {fmt_si(c.fsr_hz, 'Hz')}  "
                  + (f"circulating {c.circulating_w:.4g} W one-way" if c.circulating_w is not None
-                    else "circulating power not given (no output or input power in the layout)"))
+                    else "circulating power not given (no output or input power in the layout, no seed beam with a power)"))
     if c.enhancement is not None:
         lines += _enhancement_lines(c)
     if c.thermal is not None:

@@ -715,8 +715,9 @@ class _Reader:
                                   "(passive cavity), not both")
         if active and "output_coupler" not in f:
             raise self.fail(p("output_power_w"), f"{what}: output_power_w needs output_coupler, the mirror it leaves by")
-        if ("input_coupler" in f) != ("input_power_w" in f):
-            raise self.fail(path, f"{what}: a passive cavity needs both input_coupler and input_power_w")
+        if "input_power_w" in f and "input_coupler" not in f:
+            raise self.fail(p("input_power_w"), f"{what}: input_power_w needs input_coupler, the mirror the light "
+                                                "enters by")
         if "loss" in f and not passive:
             raise self.fail(p("loss"), f"{what}: 'loss' (extra round-trip loss) applies to passive cavities")
         if ("rep_hz" in f) != ("pulse_s" in f):

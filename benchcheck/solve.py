@@ -598,8 +598,10 @@ def follow_seeds(layout: Layout, result: CavityResult, beams: dict) -> bool:
     delivered = [b.hits[-1].power_w for b in seeds]
     names = ", ".join(f"\"{b.id}\"" for b in seeds)
     if any(p is None for p in delivered):
+        declared = ("uses input_power_w = " + f"{cav.input_power_w:g} W" if cav.input_power_w is not None
+                    else "is not known (no input_power_w either)")
         result.notes.append(f"beam {names} feeds this cavity but its power is not given, so the circulating power "
-                            f"uses input_power_w = {cav.input_power_w:g} W")
+                            f"{declared}")
         return False
     total = sum(delivered)
     matches = [b.mode_match for b in seeds]
@@ -615,7 +617,7 @@ def follow_seeds(layout: Layout, result: CavityResult, beams: dict) -> bool:
     enh.delivered_w, enh.mode_match, enh.input_w = total, match, in_mode
     result.notes.append(f"the circulating power follows the seed: beam {names} delivers {total:.4g} W to "
                         f"\"{cav.input_coupler}\"; {how}")
-    if abs(cav.input_power_w - total) > SEED_POWER_TOLERANCE * max(abs(total), 1e-300):
+    if cav.input_power_w is not None and abs(cav.input_power_w - total) > SEED_POWER_TOLERANCE * max(total, 1e-300):
         result.notes.append(f"input_power_w = {cav.input_power_w:g} W, but beam {names} delivers {total:.4g} W to "
                             f"\"{cav.input_coupler}\"; the delivered power is used")
     _set_power(result, cav, in_mode * enh.buildup)

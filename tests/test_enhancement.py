@@ -153,3 +153,32 @@ def test_mode_match_rule(ratio, fires):
         (f,) = found
         assert f.value == pytest.approx((2 * ratio / (1 + ratio**2)) ** 2, rel=1e-9) and f.limit == 0.8
         assert f.targets == ("seed", "enh")
+
+
+def test_input_power_may_be_left_to_the_seed():
+    text = seeded(0.99, 0.999, 3.0, 3.0).replace("input_power_w = 3.0\n", "")
+    assert "input_power_w" not in text
+    c = cavity_entry(solved(text))
+    assert c["circulating_w"] == pytest.approx(3.0 * buildup(0.99, 0.999), rel=1e-9)
+    assert c["enhancement"]["declared_input_w"] is None
+    assert findings(text, "seed-power") == []
+
+
+def test_without_seed_power_or_input_power_the_circulating_power_is_unknown():
+    text = seeded(0.99, 0.999, None, 3.0).replace("input_power_w = 3.0\n", "")
+    c = cavity_entry(solved(text))
+    assert c["circulating_w"] is None
+    assert any("is not known" in n for n in c["notes"])
+    from benchcheck.beamtable import solution_text
+    assert "circulating power not given" in solution_text(solve_text(text))
+
+
+def test_input_power_without_an_input_coupler_is_an_error(tmp_path, capsys):
+    from benchcheck.cli import main
+    text = seeded(0.99, 0.999, 3.0, 3.0).replace('input_coupler = "IC"\n', "")
+    path = tmp_path / "bad.toml"
+    path.write_text(text)
+    line = next(i for i, s in enumerate(text.splitlines(), 1) if s.startswith("input_power_w"))
+    assert main(["beams", str(path)]) == 2
+    err = capsys.readouterr().err.strip()
+    assert err.startswith(f"{path}:{line}:") and "input_coupler" in err
