@@ -48,6 +48,8 @@ def _hit_json(h: HitResult) -> dict:
     }
     if h.peak_j_cm2 is not None:
         out["peak_j_cm2"] = _num(h.peak_j_cm2)
+    if h.pulse_peak_w_cm2 is not None:
+        out["pulse_peak_w_cm2"] = _num(h.pulse_peak_w_cm2)
     if h.counter_propagating:
         out["counter_propagating"] = True
     return out
@@ -65,6 +67,7 @@ def cavity_json(c: CavityResult) -> dict:
         "m": {p: _num(c.modes[p].m, 12) for p in PLANES},
         "status": {p: c.modes[p].status for p in PLANES},
         "round_trip_mm": _num(c.round_trip_mm),
+        "round_trip_s": _num(c.round_trip_s),
         "fsr_hz": _num(c.fsr_hz),
         "gouy_deg": {p: _num(c.gouy_deg(p)) for p in PLANES},
         "tms_hz": {p: _num(c.tms_hz(p)) for p in PLANES},
@@ -74,6 +77,16 @@ def cavity_json(c: CavityResult) -> dict:
         "waists": _waists_json(c.waists),
         "notes": list(c.notes),
     }
+    if c.enhancement is not None:
+        e = c.enhancement
+        out["enhancement"] = {
+            "finesse": _num(e.finesse), "linewidth_hz": _num(e.linewidth_hz),
+            "input_transmission": _num(e.input_transmission), "rest_loss": _num(e.rest_loss),
+            "coupling": e.coupling, "buildup": _num(e.buildup),
+            "reflected_fraction": _num(e.reflected), "transmitted_fraction": _num(e.transmitted),
+            "input_w": _num(e.input_w), "seeds": list(e.seeds), "delivered_w": _num(e.delivered_w),
+            "mode_match": _num(e.mode_match), "declared_input_w": _num(e.declared_w),
+        }
     if c.thermal is not None:
         t = c.thermal
         out["thermal_lens"] = {
@@ -173,8 +186,10 @@ def fmt_si(x: float | None, unit: str, none: str = "-") -> str:
 
 
 def _hits_table(hits: list[HitResult], pulsed: bool) -> list[str]:
-    head = ["optic", "s [mm]", "AOI [deg]", "w_t [um]", "w_s [um]", "w_t/w_s", "P [W]",
-            "peak [W/cm^2]"] + (["peak [J/cm^2]"] if pulsed else [])
+    in_pulse = any(h.pulse_peak_w_cm2 is not None for h in hits)
+    head = (["optic", "s [mm]", "AOI [deg]", "w_t [um]", "w_s [um]", "w_t/w_s", "P [W]"]
+            + (["peak of avg P [W/cm^2]", "peak fluence [J/cm^2]"] if pulsed else ["peak [W/cm^2]"])
+            + (["peak in pulse [W/cm^2]"] if in_pulse else []))
     rows = []
     for h in hits:
         wt, ws = h.w.get(TANGENTIAL), h.w.get(SAGITTAL)
@@ -184,6 +199,8 @@ def _hits_table(hits: list[HitResult], pulsed: bool) -> list[str]:
                fmt(h.peak_w_cm2, ".3e")]
         if pulsed:
             row.append(fmt(h.peak_j_cm2, ".3e"))
+        if in_pulse:
+            row.append(fmt(h.pulse_peak_w_cm2, ".3e"))
         rows.append(row)
     return _grid(head, rows)
 
@@ -209,12 +226,14 @@ def cavity_text(c: CavityResult) -> list[str]:
         shown = f"{margin:.4f}" if abs(margin) >= 1e-4 or margin == 0.0 else f"{margin:.2e}"
         state = STATUS_LABEL[mode.status]
         lines.append(f"  {name:<10}  m = {mode.m:+.6f}  margin 1-|m| = {shown}  {state}"
-                     + (f"  Gouy {c.gouy_deg(p):.2f} deg  TMS {fmt_si(c.tms_hz(p), 'Hz')}" if mode.gouy is not None else ""))
+                     + (f"  Gouy {c.gouy_deg(p):.2f} deg (mod 360)  TMS {fmt_si(c.tms_hz(p), 'Hz')}" if mode.gouy is not None else ""))
         if mode.status != "stable":
             lines.append(f"    {STATUS_TEXT[mode.status]}")
     lines.append(f"  round trip {c.round_trip_mm:.3f} mm (optical)  FSR {fmt_si(c.fsr_hz, 'Hz')}  "
                  + (f"circulating {c.circulating_w:.4g} W one-way" if c.circulating_w is not None
-                    else "circulating power not given (no output or input power in the layout)"))
+                    else "circulating power not given (no output or input power in the layout, no seed beam with a power)"))
+    if c.enhancement is not None:
+        lines += _enhancement_lines(c)
     if c.thermal is not None:
         t = c.thermal
         for p in PLANES:
@@ -227,6 +246,18 @@ def cavity_text(c: CavityResult) -> list[str]:
     lines += _waist_lines(c.waists)
     lines += [f"  note: {n}" for n in c.notes]
     return lines
+
+
+def _enhancement_lines(c: CavityResult) -> list[str]:
+    e = c.enhancement
+    fed = (f"{e.input_w:.4g} W in the cavity's mode" if e.input_w is not None else "no input power")
+    return [
+        f"  on resonance: finesse {fmt(e.finesse, '.1f')}, linewidth {fmt_si(e.linewidth_hz, 'Hz')} (FWHM), "
+        f"build-up {fmt(e.buildup, '.4g')} ({fed})",
+        f"  input coupler T {e.input_transmission * 100:.3g} % against the rest of the round-trip loss "
+        f"{e.rest_loss * 100:.3g} %: {e.coupling}; of the mode-matched light {fmt(e.reflected * 100, '.3g')} % is "
+        f"reflected and {fmt(e.transmitted * 100, '.3g')} % leaves through the other mirrors",
+    ]
 
 
 def _end_text(b: BeamResult) -> str:

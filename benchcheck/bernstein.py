@@ -22,7 +22,7 @@ import numpy as np
 #: Stop refining once the bound is within this of the best value found.
 TOLERANCE = 1e-12
 #: Coefficients kept per refinement level (boxes x coefficients per box).
-BUDGET = 400_000
+BUDGET = 100_000
 MAX_LEVELS = 400
 
 

@@ -35,8 +35,9 @@ _COMMON = ("id", "kind", "at", "diameter", "mount", "lidt", "note")
 OPTIC_KEYS = {
     "mirror": _COMMON + ("roc", "reflectivity", "absorption", "fold", "substrate"),
     "lens": _COMMON + ("focal_length", "absorption"),
-    "crystal": _COMMON + ("length", "index", "faces", "thermal_lens", "thermal_lens_t", "thermal_lens_s", "absorption"),
-    "plate": _COMMON + ("thickness", "index", "aoi", "faces", "reflectivity", "absorption"),
+    "crystal": _COMMON + ("length", "index", "group_index", "faces", "thermal_lens", "thermal_lens_t", "thermal_lens_s",
+                          "absorption"),
+    "plate": _COMMON + ("thickness", "index", "group_index", "aoi", "faces", "reflectivity", "absorption"),
     "aperture": _COMMON,
     "splitter": _COMMON + ("reflectivity", "absorption", "fold", "substrate"),
     "dump": _COMMON + ("max_power_w",),
@@ -545,6 +546,8 @@ class _Reader:
         if kind in ("crystal", "plate"):
             fields["index"] = self.number(self.require(value, "index", path, f"{kind} \"{ident}\""),
                                           p("index"), "", low=1.0)
+            if "group_index" in value:
+                fields["group_index"] = self.number(value["group_index"], p("group_index"), "", low=1.0)
             if "faces" in value:
                 fields["faces"] = self.string(value["faces"], p("faces"), FACES)
         if "aoi" in value:
@@ -779,8 +782,9 @@ class _Reader:
                                   "(passive cavity), not both")
         if active and "output_coupler" not in f:
             raise self.fail(p("output_power_w"), f"{what}: output_power_w needs output_coupler, the mirror it leaves by")
-        if ("input_coupler" in f) != ("input_power_w" in f):
-            raise self.fail(path, f"{what}: a passive cavity needs both input_coupler and input_power_w")
+        if "input_power_w" in f and "input_coupler" not in f:
+            raise self.fail(p("input_power_w"), f"{what}: input_power_w needs input_coupler, the mirror the light "
+                                                "enters by")
         if "loss" in f and not passive:
             raise self.fail(p("loss"), f"{what}: 'loss' (extra round-trip loss) applies to passive cavities")
         if ("rep_hz" in f) != ("pulse_s" in f):

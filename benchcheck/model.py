@@ -94,6 +94,7 @@ class Optic:
     substrate_index: float | None = None
     length: float | None = None                 # crystal, along the beam inside
     index: float | None = None                  # crystal, plate
+    group_index: float | None = None            # crystal, plate: for FSR and round-trip time
     faces: str = "normal"                       # crystal, plate: "normal" | "brewster"
     thermal_lens: tuple[float, ...] | None = None       # focal lengths (mm): one value or a range
     thermal_lens_t: tuple[float, ...] | None = None

@@ -8,7 +8,8 @@ References: stability |m| < 1 with m = (A+D)/2 and the eigenmode
 1/q^ = (D-A)/(2B) - i sqrt(1-m^2)/|B| (Kogelnik & Li 1966; Siegman, "Lasers", ch. 21,
 from memory); round-trip Gouy phase arccos(m) for B > 0 and 2*pi - arccos(m) for B < 0
 (the sign of B is the same at every reference plane: Courant-Snyder form B = beta sin
-theta with beta > 0).
+theta with beta > 0).  With det = 1, 1 - m^2 = -((A-D)/2)^2 - BC: the stability test
+and sqrt(1 - m^2) are taken in that form, which stays accurate near +-I.
 """
 
 from __future__ import annotations
@@ -25,8 +26,6 @@ ROUNDING = 1e-13
 #: A round trip on the boundary whose entries (B, C scaled by the cavity length) are this
 #: close to +-I retraces every ray.
 RETRACE_TOL = 1e-9
-#: Kept for callers that compare |m| with 1 directly.
-BOUNDARY_TOL = 1e-9
 
 STABLE = "stable"
 UNSTABLE = "unstable"

@@ -116,6 +116,7 @@ _OPTIC = {
     "focal_length": _num("focal length, negative diverges", "mm", nonzero=True),
     "length": _num("length along the beam inside", "mm", low=0.0, low_open=True),
     "index": _num("refractive index", low=1.0),
+    "group_index": _num("group index, for the FSR and the round-trip time (default: index)", low=1.0),
     "faces": _str("cut of the faces", L.FACES),
     "thermal_lens": _focal("thermal lens, the same in both planes"),
     "thermal_lens_t": _focal("thermal lens, tangential plane (with thermal_lens_s)"),

@@ -39,6 +39,9 @@ class HitResult:
     power_w: float | None
     peak_w_cm2: float | None
     peak_j_cm2: float | None = None
+    #: where the pulse duration is known: the pulse's own spatial peak intensity,
+    #: 2E/(pi w_t w_s tau) (W/cm^2), beside ``peak_w_cm2`` that the average power gives
+    pulse_peak_w_cm2: float | None = None
     counter_propagating: bool = False
     energy_j: float | None = None      # pulse energy arriving here (pulsed paths only)
 
@@ -61,6 +64,25 @@ class ThermalScan:
 
 
 @dataclass
+class Enhancement:
+    """What a passive cavity is tuned by, on resonance (see ``PassiveTerms``)."""
+
+    finesse: float
+    linewidth_hz: float        # FWHM of the resonance
+    input_transmission: float  # T_in
+    rest_loss: float           # 1 - R_rest (1 - loss): every other loss of one round trip
+    coupling: str              # "impedance-matched" | "under-coupled" | "over-coupled"
+    buildup: float             # circulating / mode-matched input power
+    reflected: float           # of the mode-matched input power, reflected on resonance
+    transmitted: float         # of it, leaving through the other mirrors' transmission
+    input_w: float | None      # power in the cavity's mode used for the circulating power (W)
+    seeds: tuple = ()          # ids of the beams that feed the cavity
+    delivered_w: float | None = None   # what those beams bring to the input coupler (W)
+    mode_match: float | None = None    # their mode match (power-weighted where several)
+    declared_w: float | None = None    # the layout's input_power_w
+
+
+@dataclass
 class CavityResult:
     id: str
     kind: str
@@ -77,6 +99,8 @@ class CavityResult:
     notes: list[str] = field(default_factory=list)
     #: plane -> free-propagation pieces on the way out (empty where the plane has no mode)
     profile: dict = field(default_factory=dict)
+    enhancement: Enhancement | None = None    # passive cavities only
+    round_trip_s: float | None = None         # round-trip time, with the group index where given
 
     def stable(self, plane: str) -> bool:
         return self.modes[plane].stable
@@ -143,6 +167,14 @@ def solve_layout(layout: Layout) -> Solution:
     for bid, path in traced.beams.items():
         beams[bid] = solve_beam(layout, path, cavities, traced)
         notes += overlap_issues(layout, path)
+    fed = [cid for cid in cavities if follow_seeds(layout, cavities[cid], beams)]
+    for bid, path in traced.beams.items():
+        if path.origin in fed:      # a beam out of a cavity whose power changed
+            beams[bid] = solve_beam(layout, path, cavities, traced)
+    for b in beams.values():
+        origin = layout.sources.get(b.origin) or layout.cavities[b.origin]
+        for h in b.hits:
+            h.pulse_peak_w_cm2 = _in_pulse(h.peak_j_cm2, origin.pulse_s)
     strays = [stray_power(layout, st, cavities, beams) for st in traced.strays]
     return Solution(layout, placement, traced, cavities, beams, notes, strays)
 
@@ -157,8 +189,9 @@ def stray_power(layout: Layout, st: Stray, cavities: dict, beams: dict) -> Stray
     if st.from_cavity:
         cav = layout.cavities[st.parent]
         if st.input_reflection:
-            p = cav.input_power_w
-            return StrayResult(st, None if p is None else p * st.start_fraction, at_most=True)
+            enh = cavities[st.parent].enhancement
+            seeded = enh.delivered_w if enh is not None and enh.delivered_w is not None else cav.input_power_w
+            return StrayResult(st, None if seeded is None else seeded * st.start_fraction, at_most=True)
         p = cavities[st.parent].circulating_w
     else:
         p = beams[st.parent].hits[st.hit].power_w
@@ -251,6 +284,25 @@ def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):
     return at_marks, waists, pieces
 
 
+#: Far-field half-angle divergence (rad) above which a focus is beyond the paraxial regime.
+PARAXIAL_LIMIT_RAD = 0.1
+
+
+def paraxial_notes(waists: list[WaistResult], wavelength: float, m2: dict, who: str) -> list[str]:
+    """Notes for waists focused beyond the paraxial regime: theta = M^2 lambda / (pi w0)
+    above about 0.1 rad (a waist of about three wavelengths), where the paraxial Gaussian
+    beam stops describing the focus well (Siegman, Lasers, ch. 17, from memory)."""
+    out = []
+    for w in waists:
+        theta = m2.get(w.plane, 1.0) * wavelength / (math.pi * w.w) if w.w > 0 else math.inf
+        if theta > PARAXIAL_LIMIT_RAD:
+            out.append(f"{who} is focused beyond the paraxial regime: in the {w.plane} plane the waist at s = "
+                       f"{w.s:.2f} mm is {w.w * 1e3:.3g} um ({w.w / wavelength:.2g} wavelengths), a far-field "
+                       f"divergence of {theta:.2f} rad (above about {PARAXIAL_LIMIT_RAD:g} rad); the Gaussian-beam "
+                       "model's radii and intensities near that focus are estimates")
+    return out
+
+
 def _dedupe_waists(plane: str, raw, tol: float = 1e-6) -> list[WaistResult]:
     out: list[WaistResult] = []
     for s, w in sorted(raw):
@@ -270,8 +322,8 @@ def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan 
     of degree in each power the number of times the round trip passes that lens (two in a
     linear cavity, one in a ring).  It is evaluated at (degree + 1) powers per lens and
     bounded over the whole range box in the Bernstein form (``bernstein``): the extremes
-    of m are found to 1e-12 with a proof that nothing in the box lies beyond them, for any
-    number of lenses.  Where an extreme reaches |m| = 1, the round trip there is classified
+    of m are found (to 1e-12 at an isolated extreme) with a proven bound that nothing in the
+    box lies beyond, for any number of lenses.  Where an extreme reaches |m| = 1, the round trip there is classified
     like any cavity: touching the boundary with a round trip of +-I (the confocal-like
     point) retraces every ray and does not break the range.
     """
@@ -329,7 +381,8 @@ def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | N
     with R_rest the product of every other pass factor of one round trip (mirror
     reflectivities, fold mirrors twice in a linear cavity, single-pass transmission of
     crystals, plates and lenses) (Siegman, "Lasers", ch. 11, from memory; the field sum
-    E_c = t1 E_in / (1 - r1 r_rest)).
+    E_c = t1 E_in / (1 - r1 r_rest)).  Here P_in is the declared ``input_power_w``; where a
+    beam feeds the cavity, ``solve_layout`` replaces it with what that beam delivers.
     """
     wl = cav.wavelength_nm
     if cav.output_power_w is not None:
@@ -338,9 +391,86 @@ def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | N
         if t <= 0:
             raise LayoutError(f"output coupler \"{oc.id}\" transmits nothing at {wl:g} nm (reflectivity 1)",
                               oc.where("reflectivity"))
-        return cav.output_power_w / t
+        return cav.output_power_w / (t * output_beams(cav, path))
     if cav.input_power_w is None:
         return None
+    return cav.input_power_w * passive_terms(layout, cav, path).buildup
+
+
+def output_beams(cav: Cavity, path: PathTrace) -> int:
+    """How many beams leave through the output coupler: two where a linear cavity folds on
+    it (the circulating beam meets it going out and coming back), else one.  The layout's
+    output_power_w is their sum."""
+    ids = [h.optic for h in path.hits]
+    k = ids.index(cav.output_coupler)
+    return 2 if cav.kind == "linear" and 0 < k < len(ids) - 1 else 1
+
+
+@dataclass(frozen=True)
+class PassiveTerms:
+    """A passive cavity on resonance, per unit of power in its mode at the input coupler.
+
+    With the input coupler's amplitude reflectivity r1 = sqrt(R_in) and the rest of the
+    round trip's amplitude factor g = sqrt(R_rest (1 - loss)), the fields sum to
+    E_c = t1 E_in / (1 - r1 g) inside and E_r = (g (R_in + T_in) - r1) E_in / (1 - r1 g)
+    reflected (Siegman, "Lasers", 1986, ch. 11, from memory; R_in + T_in < 1 where the
+    coupler absorbs).  Impedance matching is r1 = g: T_in equal to the rest of the
+    round-trip loss, and nothing reflected.
+    """
+
+    r_in: float
+    t_in: float
+    rest: float                # R_rest (1 - loss): what the rest of one round trip keeps
+    out_t: float               # sum of T over the other mirrors' reflections in one round trip
+
+    @property
+    def rho(self) -> float:
+        """Round-trip amplitude factor r1 g."""
+        return math.sqrt(self.r_in * self.rest)
+
+    @property
+    def buildup(self) -> float:
+        d = (1.0 - self.rho) ** 2
+        return self.t_in / d if d > 0 else math.inf
+
+    @property
+    def reflected(self) -> float:
+        d = (1.0 - self.rho) ** 2
+        g = math.sqrt(self.rest)
+        return (g * (self.r_in + self.t_in) - math.sqrt(self.r_in)) ** 2 / d if d > 0 else 1.0
+
+    @property
+    def transmitted(self) -> float:
+        return self.buildup * self.out_t if math.isfinite(self.buildup) else math.inf
+
+    @property
+    def rest_loss(self) -> float:
+        return 1.0 - self.rest
+
+    @property
+    def finesse(self) -> float:
+        """pi sqrt(rho) / (1 - rho) (Siegman ch. 11, from memory)."""
+        return math.pi * math.sqrt(self.rho) / (1.0 - self.rho) if self.rho < 1 else math.inf
+
+    def linewidth(self, fsr_hz: float) -> float:
+        """Full width at half maximum of the Airy resonance, (2 FSR / pi) arcsin((1 - rho) /
+        (2 sqrt(rho))) (Siegman ch. 11, from memory); about FSR / finesse when narrow."""
+        x = (1.0 - self.rho) / (2.0 * math.sqrt(self.rho)) if self.rho > 0 else math.inf
+        return 2.0 * fsr_hz / math.pi * math.asin(x) if x <= 1.0 else fsr_hz
+
+    @property
+    def coupling(self) -> str:
+        """Impedance matching: T_in against the rest of the round-trip loss, within 10 %."""
+        if self.rest_loss <= 0:
+            return "over-coupled"
+        ratio = self.t_in / self.rest_loss
+        if 0.9 <= ratio <= 1.1:
+            return "impedance-matched"
+        return "over-coupled" if ratio > 1.0 else "under-coupled"
+
+
+def passive_terms(layout: Layout, cav: Cavity, path: PathTrace) -> PassiveTerms:
+    wl = cav.wavelength_nm
     ic = layout.optics[cav.input_coupler]
     r_in = reflectivity_at(ic, wl, None)
     if r_in is None:
@@ -349,7 +479,7 @@ def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | N
     if t_in <= 0:
         raise LayoutError(f"input coupler \"{ic.id}\" transmits nothing at {wl:g} nm, so no light enters "
                           f"cavity \"{cav.id}\"", ic.where("reflectivity"))
-    rest = 1.0
+    rest, out_t = 1.0, 0.0
     passes = 2 if cav.kind == "linear" else 1
     for i, hit in enumerate(path.hits):
         if hit.optic == cav.input_coupler:
@@ -357,8 +487,9 @@ def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | N
         optic = layout.optics[hit.optic]
         n = 1 if (cav.kind == "ring" or i in (0, len(path.hits) - 1)) else passes
         rest *= pass_factor(optic, hit.action, wl) ** n
-    denom = (1.0 - math.sqrt(r_in * rest * (1.0 - cav.loss))) ** 2
-    return cav.input_power_w * t_in / denom if denom > 0 else math.inf
+        if optic.kind in ("mirror", "splitter") and hit.action == REFLECT:
+            out_t += n * transmission(optic, wl)
+    return PassiveTerms(r_in, t_in, rest * (1.0 - cav.loss), out_t)
 
 
 def _peak(power, w_t, w_s):
@@ -405,8 +536,16 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
                              "reproduces itself and there is no unique mode")
         notes += train.notes
     waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
-    round_trip = sum(st.length * st.index for st in trains[TANGENTIAL].steps if isinstance(st, Space))
-    fsr = SPEED_OF_LIGHT_MM_S / round_trip if round_trip > 0 else math.inf
+    notes += paraxial_notes(waists, wavelength, {}, f"the mode of cavity \"{cav.id}\"")
+    spaces = [st for st in trains[TANGENTIAL].steps if isinstance(st, Space)]
+    round_trip = sum(st.length * st.index for st in spaces)
+    group_path = sum(st.length * (st.group or st.index) for st in spaces)
+    fsr = SPEED_OF_LIGHT_MM_S / group_path if group_path > 0 else math.inf
+    phase_only = sorted({h.optic for h in path.hits if layout.optics[h.optic].kind in ("crystal", "plate")
+                         and layout.optics[h.optic].group_index is None})
+    if phase_only:
+        notes.append("the FSR and round-trip time use the phase index of " + ", ".join(phase_only)
+                     + " (no group_index given; the group index of a dispersive medium is larger)")
     p_circ = circulating_power(layout, cav, path)
     pulsed = cav.rep_hz is not None
     hits = []
@@ -418,8 +557,80 @@ def solve_cavity(layout: Layout, cav: Cavity, path: PathTrace) -> CavityResult:
         hits.append(HitResult(hit.optic, hit.kind, hit.s, math.degrees(hit.aoi), hit.action, w, p_circ, peak,
                               fluence, counter_propagating=cav.kind == "linear", energy_j=energy))
     thermal = _thermal_scan(layout, path, trains)
-    return CavityResult(cav.id, cav.kind, modes, round_trip, fsr, p_circ, hits, waists, thermal, trains,
-                        passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)), profile=profile)
+    result = CavityResult(cav.id, cav.kind, modes, round_trip, fsr, p_circ, hits, waists, thermal, trains,
+                          passive=cav.passive, pulsed=pulsed, notes=sorted(set(notes)), profile=profile,
+                          round_trip_s=group_path / SPEED_OF_LIGHT_MM_S)
+    _set_power(result, cav, p_circ)
+    if cav.output_power_w is not None and output_beams(cav, path) == 2:
+        result.notes.append(f"the output coupler \"{cav.output_coupler}\" is a fold mirror: it emits two beams, one "
+                            f"each way, and output_power_w = {cav.output_power_w:g} W is their sum, so each carries "
+                            f"{cav.output_power_w / 2:g} W and the circulating power is output_power_w / (2 T)")
+    if cav.passive:
+        terms = passive_terms(layout, cav, path)
+        result.enhancement = Enhancement(
+            terms.finesse, terms.linewidth(fsr), terms.t_in, terms.rest_loss, terms.coupling, terms.buildup,
+            terms.reflected, terms.transmitted, cav.input_power_w, declared_w=cav.input_power_w)
+    return result
+
+
+def _set_power(result: CavityResult, cav: Cavity, p_circ: float | None) -> None:
+    """Circulating power, and each hit's power, peak intensity and fluence from it."""
+    result.circulating_w = p_circ
+    energy = None if p_circ is None or cav.rep_hz is None else p_circ / cav.rep_hz
+    for h in result.hits:
+        h.power_w = p_circ
+        h.peak_w_cm2 = _peak(p_circ, h.w[TANGENTIAL], h.w[SAGITTAL])
+        h.peak_j_cm2 = _peak(energy, h.w[TANGENTIAL], h.w[SAGITTAL])
+        h.energy_j = energy
+        h.pulse_peak_w_cm2 = _in_pulse(h.peak_j_cm2, cav.pulse_s)
+
+
+def _in_pulse(fluence: float | None, pulse_s: float | None) -> float | None:
+    """Peak intensity within the pulse: peak fluence / duration (a pulse whose peak power is
+    E / tau; a Gaussian pulse of full width tau peaks about 0.94 E / tau, from memory)."""
+    return None if fluence is None or not pulse_s else fluence / pulse_s
+
+
+#: A declared input_power_w further than this (relative) from what the seed delivers is noted.
+SEED_POWER_TOLERANCE = 0.01
+
+
+def follow_seeds(layout: Layout, result: CavityResult, beams: dict) -> bool:
+    """Where declared beams end on a passive cavity's input coupler, its circulating power
+    follows them: the power they deliver there times their mode match (the rest of their
+    power is not in the cavity's mode and does not build up).  True where it changed."""
+    cav = layout.cavities[result.id]
+    enh = result.enhancement
+    seeds = [b for b in beams.values() if b.into == result.id]
+    if enh is None or not seeds:
+        return False
+    delivered = [b.hits[-1].power_w for b in seeds]
+    names = ", ".join(f"\"{b.id}\"" for b in seeds)
+    if any(p is None for p in delivered):
+        declared = ("uses input_power_w = " + f"{cav.input_power_w:g} W" if cav.input_power_w is not None
+                    else "is not known (no input_power_w either)")
+        result.notes.append(f"beam {names} feeds this cavity but its power is not given, so the circulating power "
+                            f"{declared}")
+        return False
+    total = sum(delivered)
+    matches = [b.mode_match for b in seeds]
+    if any(m is None for m in matches):
+        in_mode = total
+        how = "its mode match is not known, so all of it is taken as coupled (an upper bound)"
+        match = None
+    else:
+        in_mode = sum(p * m for p, m in zip(delivered, matches))
+        match = in_mode / total if total > 0 else None
+        how = f"mode match {match:.4f}, so {in_mode:.4g} W is in the cavity's mode"
+    enh.seeds = tuple(b.id for b in seeds)
+    enh.delivered_w, enh.mode_match, enh.input_w = total, match, in_mode
+    result.notes.append(f"the circulating power follows the seed: beam {names} delivers {total:.4g} W to "
+                        f"\"{cav.input_coupler}\"; {how}")
+    if cav.input_power_w is not None and abs(cav.input_power_w - total) > SEED_POWER_TOLERANCE * max(total, 1e-300):
+        result.notes.append(f"input_power_w = {cav.input_power_w:g} W, but beam {names} delivers {total:.4g} W to "
+                            f"\"{cav.input_coupler}\"; the delivered power is used")
+    _set_power(result, cav, in_mode * enh.buildup)
+    return True
 
 
 # --- beams ------------------------------------------------------------------------------
@@ -478,6 +689,7 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
         trains[plane] = train
         q_last[plane] = _q_at_marker(train, complex(q0[plane]), len(path.hits) - 1)
     waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
+    notes += paraxial_notes(waists, wavelength, m2, f"beam \"{path.id}\"")
     match = None
     if path.into is not None:
         match = mode_match(layout, path, q_last, cavities[path.into], traced, notes)

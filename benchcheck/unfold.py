@@ -37,6 +37,8 @@ class Space:
     #: for the air between two elements: the index of that gap along the path (the gap
     #: after hit i is gap i), so a rule can vary one spacing, out and back together
     gap: int | None = None
+    #: group index of the medium where given (FSR, round-trip time); None: use ``index``
+    group: float | None = None
 
     def matrix(self) -> np.ndarray:
         return abcd.free_space(self.length * self.k)
@@ -144,7 +146,7 @@ def element_steps(hit: Hit, optic: Optic, plane: str, thermal_powers: dict, note
     if kind in ("crystal", "plate"):
         k, scale = medium_factors(optic.index, hit.aoi, plane)
         half = internal_length(optic, hit.aoi) / 2.0
-        pre = [Space(half, k, scale, optic.index, hit.s - half)]
+        pre = [Space(half, k, scale, optic.index, hit.s - half, group=optic.group_index)]
         post = []
         if kind == "crystal" and thermal_range(optic, plane):
             power = thermal_powers.get((optic.id, plane))
@@ -154,7 +156,7 @@ def element_steps(hit: Hit, optic: Optic, plane: str, thermal_powers: dict, note
             # tangential coordinates (heights smaller by 1/scale) its power grows by scale^2
             post.append(Thin(abcd.lens_power(np.asarray(power) * scale**2), f"thermal lens {optic.id}",
                              thermal=optic.id))
-        post.append(Space(half, k, scale, optic.index, hit.s))
+        post.append(Space(half, k, scale, optic.index, hit.s, group=optic.group_index))
         return pre, post, scale
     return [], [], 1.0   # aperture, dump, detector: no action on the beam's shape
 
@@ -214,7 +216,7 @@ def _reversed_steps(steps: list) -> list:
     out = []
     for st in reversed(steps):
         if isinstance(st, Space):
-            out.append(Space(st.length, st.k, st.scale, st.index, st.s0, False))
+            out.append(Space(st.length, st.k, st.scale, st.index, st.s0, False, group=st.group))
         elif isinstance(st, Thin):
             m = st.m.copy()
             m[..., 0, 0], m[..., 1, 1] = st.m[..., 1, 1], st.m[..., 0, 0]
@@ -260,7 +262,7 @@ def cavity_train(layout: Layout, path: PathTrace, plane: str, thermal_powers: di
                 pre, mark, post, _ = parts[j]
                 steps += pre + [mark] + post
         perimeter = sum(path.segments)
-        steps += [Space(st.length, st.k, st.scale, st.index, st.s0 + perimeter, st.forward)
+        steps += [Space(st.length, st.k, st.scale, st.index, st.s0 + perimeter, st.forward, group=st.group)
                   if isinstance(st, Space) else st for st in pre0]
     train.steps = steps
     return train

@@ -8,6 +8,14 @@ from benchcheck.resonator import MARGINAL_WALKOFF, STATUS_TEXT
 PLANE_NAMES = {"t": "tangential", "s": "sagittal"}
 
 
+def m_text(m: float, excess: float | None = None) -> str:
+    """m to four decimals, with |m| - 1 beside it where the rounding would hide it."""
+    excess = abs(m) - 1.0 if excess is None else excess
+    if excess != 0.0 and abs(excess) < 5e-5:
+        return f"{m:+.4f} (|m| - 1 = {excess:.2g})"
+    return f"{m:+.4f}"
+
+
 def check(bench, options):
     for cav in bench.solution.cavities.values():
         for plane, name in PLANE_NAMES.items():
@@ -15,7 +23,8 @@ def check(bench, options):
             if not mode.stable:
                 what = "on the boundary, rays walk off" if mode.status == MARGINAL_WALKOFF else "unstable"
                 yield Finding(
-                    f"cavity \"{cav.id}\" is {what} in the {name} plane: half-trace m = {mode.m:+.4f}, "
+                    f"cavity \"{cav.id}\" is {what} in the {name} plane: half-trace m = "
+                    f"{m_text(mode.m, None if mode.margin is None else -mode.margin)}, "
                     f"|m| must be below 1 ({STATUS_TEXT[mode.status]})",
                     (cav.id,), value=abs(mode.m), limit=1.0, unit="|m|",
                     hint="change a spacing or a mirror radius; 'benchcheck beams' shows m per plane")
@@ -26,7 +35,7 @@ def check(bench, options):
                                    for cid, r in cav.thermal.lenses.items() if r.get(plane))
                 yield Finding(
                     f"cavity \"{cav.id}\" is stable at the design thermal lens but not over the whole range "
-                    f"({lenses}) in the {name} plane: m reaches {worst:+.4f}",
+                    f"({lenses}) in the {name} plane: m reaches {m_text(worst)}",
                     (cav.id,), value=abs(worst), limit=1.0, unit="|m|",
                     hint="the cavity must stay stable from cold to full pump: shorten the arm that the "
                          "thermal lens destabilises, or narrow the range with better cooling")

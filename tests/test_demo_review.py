@@ -15,6 +15,7 @@ ROOT = Path(__file__).resolve().parent.parent
 GOOD = sorted((ROOT / "layouts").glob("*.toml"))
 FLAWED = ROOT / "layouts" / "flawed" / "every-rule-fires.toml"
 BUILTIN = {"layout-geometry", "cavity-unstable", "stability-margin", "aperture-clipping", "beam-obstructed",
+           "mode-match", "seed-power",
            "mode-astigmatism", "coating-damage", "intracavity-power", "leak-beam", "beam-unterminated",
            "keepout-zone", "open-beam", "undeclared-output"}
 

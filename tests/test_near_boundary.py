@@ -115,3 +115,19 @@ def test_exact_confocal_and_exact_hemispherical_stay_on_the_boundary():
     assert cavity_entry(solved(two_mirror(R, R, R)))["status"]["t"] == "marginal-retrace"
     assert cavity_entry(solved(two_mirror(None, R, R)))["status"]["t"] == "marginal-walkoff"
     assert cavity_entry(solved(two_mirror(R, R, 2 * R)))["status"]["t"] == "marginal-walkoff"
+
+
+def test_cavity_unstable_shows_an_excess_that_rounding_would_hide():
+    """L = R (1 + 1e-9) hemispherical: g1 g2 = -1e-9 < 0, unstable (Kogelnik & Li 1966);
+    m = 2 g1 g2 - 1, so |m| - 1 = 2e-9, computed here."""
+    from benchcheck import solve_text
+    from benchcheck.config import Config
+    from benchcheck.findings import Bench
+    from benchcheck.plugins import load_rules
+
+    rule = load_rules(entry_points=False).rules["cavity-unstable"][0]
+    sol = solve_text(two_mirror(None, R, R * (1 + 1e-9)))
+    found = list(rule.check(Bench(sol.layout, sol, Config().limits), rule.defaults()))
+    assert len(found) == 2
+    for f in found:
+        assert "m = -1.0000 (|m| - 1 = 2e-09)" in f.message

@@ -141,3 +141,38 @@ def test_only_fixed_lenses_give_the_single_value():
     scan = cavity_entry(solved(flat_lenses_flat(spacings, [800.0, 600.0])))["thermal_lens"]
     assert scan["m_range"]["t"] == pytest.approx([expected, expected], abs=1e-12)
     assert scan["stable_over_range"] == {"t": True, "s": True}
+
+
+def ring_m(leg: float, side: float, powers) -> np.ndarray:
+    """Half-trace (A + D)/2 of a rectangular ring of flat mirrors (legs ``leg`` and ``side``)
+    with a thin lens in the middle of each long leg, from the first corner: the test's own
+    matrix product (flat mirrors act as nothing on the ray)."""
+    powers = np.atleast_2d(powers)
+    out = []
+    for p1, p2 in powers:
+        s = lambda d: np.array([[1.0, d], [0.0, 1.0]])          # noqa: E731
+        lens = lambda p: np.array([[1.0, 0.0], [-p, 1.0]])      # noqa: E731
+        m = s(side) @ s(leg / 2) @ lens(p2) @ s(leg / 2) @ s(side) @ s(leg / 2) @ lens(p1) @ s(leg / 2)
+        out.append((m[0, 0] + m[1, 1]) / 2.0)
+    return np.array(out)
+
+
+@pytest.mark.parametrize("f_range, stable", [([400.0, 900.0], True), ([150.0, 900.0], False)])
+def test_ring_with_two_ranges_against_a_dense_grid(f_range, stable):
+    """Ring: each lens is passed once, m is linear in each power and its extremes are at the
+    corners of the box; a 101 x 101 grid (with the corners) is the reference."""
+    leg, side = 400.0, 60.0
+    tables = [
+        mirror("M1", None, at=[100.0, 100.0]), mirror("M2", None, at=[100.0 + leg, 100.0]),
+        mirror("M3", None, at=[100.0 + leg, 100.0 + side]), mirror("M4", None, at=[100.0, 100.0 + side]),
+        optic("X1", "crystal", at=[100.0 + leg / 2, 100.0], length=0.001, index=1.0, thermal_lens=f_range),
+        optic("X2", "crystal", at=[100.0 + leg / 2, 100.0 + side], length=0.001, index=1.0, thermal_lens=f_range),
+        cavity("r", "ring", ["M1", "X1", "M2", "M3", "X2", "M4"], WL_NM),
+    ]
+    axis = np.linspace(1.0 / max(f_range), 1.0 / min(f_range), 101)
+    grid = np.stack(np.meshgrid(axis, axis, indexing="ij"), axis=-1).reshape(-1, 2)
+    m = ring_m(leg, side, grid)
+    assert bool(np.all(np.abs(m) < 1.0)) == stable
+    scan = cavity_entry(solved(layout(*tables)))["thermal_lens"]
+    assert scan["stable_over_range"] == {"t": stable, "s": stable}
+    assert scan["m_range"]["t"] == pytest.approx([m.min(), m.max()], abs=1e-9)
