@@ -29,6 +29,7 @@ from typing import Any
 
 from .findings import SEVERITIES
 from .model import LayoutError, Loc
+from . import tolspec
 from .tomlpos import key_positions
 
 if sys.version_info >= (3, 11):
@@ -45,7 +46,7 @@ LIMITS = {
     "stray_power_w": (0.001, "W", "leak, secondary and unterminated beams above this power must end on a dump, "
                                   "a detector or inside an enclosure (1 mW: the visible Class 2 limit, from memory)"),
 }
-TOP_KEYS = ("fail_on", "plugins", "limits", "rules")
+TOP_KEYS = ("fail_on", "plugins", "limits", "rules", "tolerances")
 RULE_KEYS = ("enabled", "severity")
 
 
@@ -57,6 +58,8 @@ class Config:
     limits: dict[str, float] = field(default_factory=lambda: {k: v[0] for k, v in LIMITS.items()})
     #: rule id -> {"enabled": bool, "severity": str | None, "options": {...}, "loc": Loc}
     rules: dict[str, dict] = field(default_factory=dict)
+    #: the lab's build tolerances ([tolerances]); source "none" when the section is absent
+    tolerances: tolspec.Tolerances = field(default_factory=tolspec.Tolerances)
 
     def enabled(self, rule_id: str) -> bool:
         return self.rules.get(rule_id, {}).get("enabled", True)
@@ -170,4 +173,36 @@ def _parse(doc: dict, file: str, positions: dict, prefix: tuple) -> Config:
                 entry["options"][key] = value
                 entry["option_locs"][key] = loc("rules", rule_id, key)
         cfg.rules[rule_id] = entry
+    if "tolerances" in doc:
+        cfg.tolerances = _tolerances(doc["tolerances"], fail, unknown)
     return cfg
+
+
+def _tolerances(table, fail, unknown) -> tolspec.Tolerances:
+    """[tolerances]: the lab's build capability; keys not given take benchcheck's defaults."""
+    where = ("tolerances",)
+    if not isinstance(table, dict):
+        raise fail(where, "[tolerances] must be a table, e.g. position_mm = 0.2")
+    values = {k.name: k.default for k in tolspec.KEYS.values()}
+    distribution = tolspec.UNIFORM
+    margin = tolspec.MARGIN_KEY.default
+    for key, value in table.items():
+        path = where + (key,)
+        if key == tolspec.DISTRIBUTION_KEY.name:
+            if value not in tolspec.DISTRIBUTIONS:
+                raise fail(path, "tolerances.distribution must be \"uniform\" (on [-t, t]) or \"normal\" "
+                                 f"(sigma = t/2), found {value!r}")
+            distribution = value
+        elif key == tolspec.MARGIN_KEY.name:
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0.0 < value <= 1.0:
+                raise fail(path, f"tolerances.{key} must be a number in (0, 1] (|half-trace|), found {value!r}")
+            margin = float(value)
+        elif key in tolspec.KEYS:
+            try:
+                values[key] = tolspec.check_value(tolspec.KEYS[key], value, f"tolerances.{key}")
+            except ValueError as exc:
+                raise fail(path, str(exc)) from None
+        else:
+            raise unknown(key, tolspec.SECTION_KEYS, "[tolerances]", path)
+    return tolspec.Tolerances(values, distribution, margin, tolspec.FROM_CONFIG)
+
