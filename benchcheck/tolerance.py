@@ -205,7 +205,8 @@ def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set
                     with np.errstate(invalid="ignore"):
                         r[:, st.hit] = st.scale * gauss.radius(q, wavelength)
                 continue
-            q = gauss.propagate(m, q)
+            with np.errstate(invalid="ignore"):
+                q = gauss.propagate(m, q)
         radii[plane] = r
     return Chunk(ms, radii)
 
@@ -221,7 +222,9 @@ def wilson_interval(k: int, n: int, z: float = Z95) -> tuple[float, float]:
     denom = 1.0 + z * z / n
     centre = (p + z * z / (2.0 * n)) / denom
     half = z * math.sqrt(p * (1.0 - p) / n + z * z / (4.0 * n * n)) / denom
-    return max(0.0, centre - half), min(1.0, centre + half)
+    lo = 0.0 if k == 0 else max(0.0, centre - half)
+    hi = 1.0 if k == n else min(1.0, centre + half)
+    return lo, hi
 
 
 class Sensitivity:
@@ -230,7 +233,8 @@ class Sensitivity:
     chunk (normal equations), and share_j = b_j^2 var(x_j) / var(y).
 
     For independent parameters and a response that is linear over the tolerance box the
-    shares add up to the fit's R^2 (reported), the rest being curvature and interactions.
+    shares add up to the fit's R^2 (reported), the rest being curvature and interactions;
+    where they add up to more, the kept builds have made the parameters correlated.
     Limits: a response that is not monotonic over the box (a quantity at an extremum, the
     mode near the edge of stability) has a small linear share however strongly it depends
     on the parameter; the builds kept are only the stable ones, which correlates the
@@ -268,7 +272,9 @@ class Sensitivity:
             if not var_y[o] > 1e-300:
                 continue
             share = coef[1:, o] ** 2 * var_x / var_y[o]
-            fit[name] = float(min(1.0, share.sum()))
+            b = coef[:, o]
+            residual = self.y2[o] - 2.0 * b @ self.xy[:, o] + b @ self.xx @ b
+            fit[name] = float(np.clip(1.0 - residual / (var_y[o] * n), 0.0, 1.0))
             for j in np.argsort(-share):
                 rows.append({"parameter": params[j].label, "output": name, "share": float(share[j])})
         return rows, fit
