@@ -176,7 +176,7 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
     except Exception as exc:  # noqa: BLE001
         return FileResult(name, errors=[f"{name}: internal error while solving ({type(exc).__name__}: {exc}); "
                                         "please report it with this layout"])
-    bench = Bench(layout, solution, dict(config.limits))
+    bench = Bench(layout, solution, dict(config.limits), tolerances=config.tolerances)
     result = run_rules(bench, config, ruleset, today)
     # plugin and configuration problems are not this layout's: said once, whatever the file
     result.errors = [f"error: {e}" for e in ruleset.errors] + problems + result.errors

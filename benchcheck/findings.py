@@ -124,12 +124,15 @@ class Bench:
     - ``placement``: positions, orientations and mount footprints (shapely polygons);
     - ``trace``: hits, segments, geometric issues, leak and secondary beams (``strays``);
     - ``solution``: cavity modes, beam sizes and powers (``benchcheck.solve``);
-    - ``limits``: the repository's safety limits (``[limits]`` in the configuration).
+    - ``limits``: the repository's safety limits (``[limits]`` in the configuration);
+    - ``tolerances``: the lab's build tolerances (``[tolerances]``; ``benchcheck.tolspec``),
+      None where the caller gives none.
     """
 
     layout: Layout
     solution: Solution
     limits: Mapping[str, Any] = field(default_factory=dict)
+    tolerances: Any = None
 
     @property
     def placement(self):

@@ -8,9 +8,9 @@ from __future__ import annotations
 
 from benchcheck.hookspecs import hookimpl
 
-from . import astigmatism, clipping, damage, geometry, margin, obstruction, safety, stability
+from . import astigmatism, clipping, damage, geometry, margin, obstruction, safety, stability, tolerance
 
-MODULES = (geometry, stability, margin, astigmatism, obstruction, clipping, damage, safety)
+MODULES = (geometry, stability, margin, astigmatism, obstruction, clipping, damage, safety, tolerance)
 
 
 @hookimpl

@@ -54,6 +54,9 @@ path = [{ id = "D1", distance = 300.0 }]
 
 OPEN_LAB = """[limits]
 intracavity_power_w = 100.0
+
+[tolerances]
+position_mm = 0.2
 """
 
 
@@ -119,7 +122,8 @@ def test_default_limits_without_configuration(tmp_path, capsys):
 
 
 def test_pyproject_tool_table_is_found_walking_up(tmp_path, capsys):
-    cfg = '[project]\nname = "x"\n[tool.benchcheck.limits]\nintracavity_power_w = 100.0\nstray_power_w = 1.0\n'
+    cfg = ('[project]\nname = "x"\n[tool.benchcheck.limits]\nintracavity_power_w = 100.0\nstray_power_w = 1.0\n'
+           '[tool.benchcheck.tolerances]\nposition_mm = 0.2\n')
     path = write(tmp_path, config=cfg, config_name="pyproject.toml")
     _, doc = json_findings(capsys, path)
     assert doc["findings"] == []

@@ -16,7 +16,7 @@ GOOD = sorted((ROOT / "layouts").glob("*.toml"))
 FLAWED = ROOT / "layouts" / "flawed" / "every-rule-fires.toml"
 BUILTIN = {"layout-geometry", "cavity-unstable", "stability-margin", "aperture-clipping", "beam-obstructed",
            "mode-astigmatism", "coating-damage", "intracavity-power", "leak-beam", "beam-unterminated",
-           "keepout-zone"}
+           "keepout-zone", "build-yield", "alignment-sensitivity"}
 
 
 @pytest.fixture(autouse=True)
