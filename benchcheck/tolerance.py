@@ -38,6 +38,10 @@ from .unfold import Marker, cavity_train, thermal_range
 
 #: Rows evaluated at once.  Fixed, so that a seed gives the same samples on every machine.
 CHUNK = 16384
+#: Builds that enter the sensitivity regression at most: its shares are then known to well
+#: under 1 % (the builds are independent, so the first ones are a fair subsample), and its
+#: cost no longer grows with --samples.
+REGRESSION_MAX = 20_000
 #: 95 % two-sided standard normal quantile (common practice).
 Z95 = 1.959963984540054
 PERCENTILES = (5.0, 50.0, 95.0)
@@ -229,8 +233,9 @@ def wilson_interval(k: int, n: int, z: float = Z95) -> tuple[float, float]:
 
 class Sensitivity:
     """Share of each output's spread explained by each parameter: a least-squares fit
-    y = b0 + sum_j b_j x_j over the builds stable in both planes, accumulated chunk by
-    chunk (normal equations), and share_j = b_j^2 var(x_j) / var(y).
+    y = b0 + sum_j b_j x_j over the builds stable in both planes (the first
+    ``REGRESSION_MAX`` of them), accumulated chunk by chunk (normal equations), and
+    share_j = b_j^2 var(x_j) / var(y).
 
     For independent parameters and a response that is linear over the tolerance box the
     shares add up to the fit's R^2 (reported), the rest being curvature and interactions;
@@ -251,7 +256,9 @@ class Sensitivity:
 
     def add(self, x: np.ndarray, y: np.ndarray) -> None:
         keep = np.all(np.isfinite(y), axis=1)
-        x, y = x[keep], y[keep]
+        x, y = x[keep][:REGRESSION_MAX - self.n], y[keep][:REGRESSION_MAX - self.n]
+        if not len(x):
+            return
         xa = np.hstack([np.ones((len(x), 1)), x])
         self.xx += xa.T @ xa
         self.xy += xa.T @ y
