@@ -107,6 +107,14 @@ def tolerance_section(bench) -> str:
         parts.append(_table(["builds", "share", "95 % interval (Wilson)"], [
             ["stable in both planes", _pct(res.yield_stable), f"{_pct(lo)} – {_pct(hi)}"],
             [f"stable with |m| ≤ {res.margin_max_abs_m:g}", _pct(res.yield_margin), f"{_pct(mlo)} – {_pct(mhi)}"]]))
+        if res.coupling:
+            v = res.coupling["mode_match"]
+            line = (f'<p>Mode match of beam {escape(res.coupling["beam"])} (5th / 50th / 95th percentile): '
+                    f'{v[0]:.4f} / {v[1]:.4f} / {v[2]:.4f}')
+            if "circulating_w" in res.coupling:
+                c = res.coupling["circulating_w"]
+                line += f'; circulating power in the mode {c[0]:.4g} / {c[1]:.4g} / {c[2]:.4g} W'
+            parts.append(line + ".</p>")
         hist = _histogram_svg(res.focus)
         if hist:
             parts.append(f'<figure class="narrow">{hist}<figcaption>Mode radius over the stable builds at '

@@ -34,7 +34,7 @@ import numpy as np
 from . import gauss, resonator, tolspec
 from .abcd import PLANES, SAGITTAL, TANGENTIAL
 from .trace import REFLECT
-from .unfold import Marker, cavity_train, thermal_range
+from .unfold import Marker, Space, beam_train, cavity_train, thermal_range
 
 #: Rows evaluated at once.  Fixed, so that a seed gives the same samples on every machine.
 CHUNK = 16384
@@ -63,10 +63,11 @@ class Parameter:
         return f"{self.optic} {self.what}"
 
 
-def parameters(layout, path, tolerances: tolspec.Tolerances) -> list[Parameter]:
-    """The toleranced quantities of one cavity, in path order (each optic once)."""
+def parameters(layout, path, tolerances: tolspec.Tolerances, extra=()) -> list[Parameter]:
+    """The toleranced quantities of one cavity, in path order (each optic once), then those
+    of the optics in ``extra`` (ids: a seed beam's path) not on the cavity."""
     out = []
-    for oid in dict.fromkeys(h.optic for h in path.hits):
+    for oid in dict.fromkeys([h.optic for h in path.hits] + list(extra)):
         optic = layout.optics[oid]
         tol = tolerances.for_optic(optic)
         if tol.get("position_mm", 0.0) > 0:
@@ -118,7 +119,7 @@ def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: s
     zero = np.zeros(len(x))
     optics = dict(layout.optics)
     thermal = {}
-    for oid in dict.fromkeys(h.optic for h in path.hits):
+    for oid in dict.fromkeys([h.optic for h in path.hits] + [p.optic for p in params]):
         o = layout.optics[oid]
         changes = {}
         if (oid, "roc") in col:
@@ -143,17 +144,25 @@ def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: s
     pts = [np.stack([h.point[0] + col.get((h.optic, "x"), zero), h.point[1] + col.get((h.optic, "y"), zero)], -1)
            for h in path.hits]
     n = len(pts)
-    if path.role == "linear":
+    if path.role == "beam":
+        pts = [np.broadcast_to(np.asarray(path.start, dtype=float), pts[0].shape)] + pts
+        segs = [np.linalg.norm(pts[i + 1] - pts[i], axis=-1) for i in range(n)]
+    elif path.role == "linear":
         segs = [np.linalg.norm(pts[i + 1] - pts[i], axis=-1) for i in range(n - 1)]
     else:
         segs = [np.linalg.norm(pts[(i + 1) % n] - pts[i], axis=-1) for i in range(n)]
     hits = []
     for i, h in enumerate(path.hits):
         aoi = h.aoi
-        end = path.role == "linear" and i in (0, n - 1)
-        if h.action == REFLECT and not end and h.optic in oriented:
-            d_in = _unit(pts[i] - pts[i - 1])
-            d_out = _unit(pts[(i + 1) % n] - pts[i])
+        if path.role == "beam":
+            j, last = i + 1, i == n - 1       # pts[0] is the beam's start
+            turns = not last
+        else:
+            j, last = i, False
+            turns = not (path.role == "linear" and i in (0, n - 1))
+        if h.action == REFLECT and turns and h.optic in oriented:
+            d_in = _unit(pts[j] - pts[j - 1])
+            d_out = _unit(pts[(j + 1) % len(pts)] - pts[j])
             cos_fold = np.clip(-np.sum(d_in * d_out, axis=-1), -1.0, 1.0)
             aoi = 0.5 * np.arccos(cos_fold)
         elif (h.optic, "tilt") in col:
@@ -180,17 +189,20 @@ def _chain(mats):
 @dataclass
 class Chunk:
     """Outputs of a chunk of builds: half-traces (plane -> (n,)) and physical radii (mm) at
-    every hit (plane -> (n, hits)); NaN where a plane has no mode."""
+    every hit (plane -> (n, hits)); NaN where a plane has no mode.  ``q_after``: q^ of the
+    mode just after the action of the hit asked for (plane -> (n,)), else empty."""
 
     m: dict
     radius: dict
+    q_after: dict = field(default_factory=dict)
 
 
-def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set) -> Chunk:
+def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set,
+             q_after: int | None = None) -> Chunk:
     lay, pth, thermal = _perturbed(layout, path, params, x, oriented)
     wavelength = path.wavelength_nm * NM_TO_MM
     n = len(x)
-    ms, radii = {}, {}
+    ms, radii, q_out = {}, {}, {}
     for plane in PLANES:
         train = cavity_train(lay, pth, plane, thermal)
         mats = [None if isinstance(st, Marker) else st.matrix() for st in train.steps]
@@ -202,17 +214,41 @@ def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set
         q = np.where(ok, q, np.nan + 1j * np.nan)
         r = np.full((n, len(path.hits)), np.nan)
         seen = set()
+        waiting = False
         for st, m in zip(train.steps, mats):
             if m is None:
                 if st.hit not in seen:
                     seen.add(st.hit)
                     with np.errstate(invalid="ignore"):
                         r[:, st.hit] = st.scale * gauss.radius(q, wavelength)
+                    waiting = st.hit == q_after
                 continue
+            if waiting and isinstance(st, Space):
+                q_out[plane] = np.broadcast_to(q, (n,))
+                waiting = False
             with np.errstate(invalid="ignore"):
                 q = gauss.propagate(m, q)
         radii[plane] = r
-    return Chunk(ms, radii)
+    return Chunk(ms, radii, q_out)
+
+
+def seed_q(layout, path, params: list[Parameter], x: np.ndarray, oriented: set, source) -> dict:
+    """q^ of a source's beam arriving at its last hit (plane -> (n,)), for each build."""
+    lay, pth, _ = _perturbed(layout, path, params, x, oriented)
+    wavelength = path.wavelength_nm * NM_TO_MM
+    out = {}
+    for plane in PLANES:
+        w0, m2 = (source.waist_t, source.m2_t) if plane == TANGENTIAL else (source.waist_s, source.m2_s)
+        q = gauss.q_at_distance_from_waist(w0, -source.waist_at, wavelength, m2)
+        last = len(path.hits) - 1
+        for st in beam_train(lay, pth, plane).steps:
+            if isinstance(st, Marker):
+                if st.hit == last:
+                    break
+                continue
+            q = gauss.propagate(st.matrix(), q)
+        out[plane] = np.broadcast_to(q, (len(x),))
+    return out
 
 
 # --- statistics ----------------------------------------------------------------------------
@@ -306,6 +342,8 @@ class CavityTolerance:
     focus: dict = field(default_factory=dict)
     margin_max_abs_m: float = 0.95
     alignment: list = field(default_factory=list)
+    #: a passive cavity's seed: {"beam", "mode_match": [p5, p50, p95], "circulating_w": [...]}
+    coupling: dict = field(default_factory=dict)
 
     @property
     def yield_stable(self) -> float:
@@ -314,6 +352,46 @@ class CavityTolerance:
     @property
     def yield_margin(self) -> float:
         return self.with_margin / self.samples if self.samples else 0.0
+
+
+@dataclass
+class Seed:
+    """A source's beam coupled into a passive cavity: its traced path, the index of the
+    input coupler in the cavity's path, the optics it orients, the tilt between seed and mode."""
+
+    path: object
+    source: object
+    at: int
+    oriented: set
+    tilt: float
+
+    def match(self, layout, params, x, chunk: Chunk) -> np.ndarray:
+        """Mode match of each build: the product of the tangential and sagittal overlaps of
+        the seed with the cavity's mode just inside the input coupler (as ``solve.mode_match``)."""
+        qs = seed_q(layout, self.path, params, x, self.oriented, self.source)
+        wavelength = self.path.wavelength_nm * NM_TO_MM
+        eta = np.ones(len(x))
+        for p in PLANES:
+            with np.errstate(invalid="ignore"):
+                eta = eta * gauss.overlap_1d(qs[p], chunk.q_after[p], wavelength,
+                                             self.tilt if p == TANGENTIAL else 0.0)
+        return eta
+
+
+def seed_beam(solution, cavity_id: str) -> Seed | None:
+    """The first beam from a source (M^2 = 1) that ends on this passive cavity's input
+    coupler, as the solver couples it; None where there is none."""
+    layout = solution.layout
+    cpath = solution.trace.cavities[cavity_id]
+    for bid, bpath in solution.trace.beams.items():
+        src = layout.sources.get(bpath.origin)
+        if bpath.into != cavity_id or src is None or src.m2_t != 1.0 or src.m2_s != 1.0:
+            continue
+        k = [h.optic for h in cpath.hits].index(bpath.hits[-1].optic)
+        tilt = math.acos(max(-1.0, min(1.0, float(np.dot(bpath.hits[-1].d_in, cpath.hits[k].d_out)))))
+        oriented = {oid for oid, p in solution.placement.optics.items() if p.oriented_by == bid}
+        return Seed(bpath, src, k, oriented, tilt)
+    return None
 
 
 def focus_optics(layout, path, cavity) -> list[str]:
@@ -336,21 +414,23 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
     layout = solution.layout
     path = solution.trace.cavities[cavity_id]
     cavity = solution.cavities[cavity_id]
-    params = parameters(layout, path, tolerances)
-    oriented = {oid for oid, p in solution.placement.optics.items() if p.oriented_by == cavity_id}
     hit_optics = [h.optic for h in path.hits]
+    seed = seed_beam(solution, cavity_id)
+    params = parameters(layout, path, tolerances, [h.optic for h in seed.path.hits] if seed else ())
+    oriented = {oid for oid, p in solution.placement.optics.items() if p.oriented_by == cavity_id}
     first = {oid: hit_optics.index(oid) for oid in dict.fromkeys(hit_optics)}
     crystals = [oid for oid in first if layout.optics[oid].kind == "crystal"]
     focus = focus_optics(layout, path, cavity)
-    outputs = ["m_t", "m_s"] + [f"w_{p}@{oid}" for oid in focus for p in PLANES]
+    outputs = ["m_t", "m_s"] + [f"w_{p}@{oid}" for oid in focus for p in PLANES] + (["mode_match"] if seed else [])
     sens = Sensitivity(len(params), outputs)
     kept = {p: [] for p in PLANES}
+    matches = []
     stable = margin = 0
     done = 0
     while done < samples:
         n = min(CHUNK, samples - done)
         x = draw(params, n, rng, tolerances.distribution)
-        ch = evaluate(layout, path, params, x, oriented)
+        ch = evaluate(layout, path, params, x, oriented, seed.at if seed else None)
         both = np.ones(n, bool)
         inside = np.ones(n, bool)
         for p in PLANES:
@@ -359,6 +439,10 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
         stable += int(both.sum())
         margin += int((both & inside).sum())
         y = [ch.m[TANGENTIAL], ch.m[SAGITTAL]] + [ch.radius[p][:, first[oid]] * 1e3 for oid in focus for p in PLANES]
+        if seed:
+            eta = seed.match(layout, params, x, ch)
+            y.append(eta)
+            matches.append(eta[both].astype(np.float32))
         y = np.stack(y, -1)
         y[~both] = np.nan
         sens.add(x, y)
@@ -385,8 +469,15 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
             r = all_r[TANGENTIAL][:, i].astype(float) / all_r[SAGITTAL][:, i].astype(float)
             ratio[oid] = [float(v) for v in np.percentile(r, PERCENTILES)]
     rows, fit = sens.shares(params)
+    coupling = {}
+    if seed and matches:
+        eta = np.concatenate(matches).astype(float)
+        if len(eta) and np.all(np.isfinite(eta)):
+            coupling = {"beam": seed.path.id, "mode_match": [float(v) for v in np.percentile(eta, PERCENTILES)]}
+            if cavity.circulating_w is not None and math.isfinite(cavity.circulating_w):
+                coupling["circulating_w"] = [float(v) for v in np.percentile(eta * cavity.circulating_w, PERCENTILES)]
     return CavityTolerance(cavity_id, samples, stable, margin, params, radius_um, ratio, rows, fit,
-                           focus_samples, tolerances.margin_max_abs_m)
+                           focus_samples, tolerances.margin_max_abs_m, coupling=coupling)
 
 
 def run(solution, tolerances: tolspec.Tolerances, samples: int, seed: int, progress=None,

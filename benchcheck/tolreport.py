@@ -39,6 +39,8 @@ def cavity_json(res) -> dict:
                         for r in res.sensitivity],
         "sensitivity_fit_r2": {k: _r(v, 4) for k, v in res.fit_r2.items()},
         "alignment": alignment_json(res.alignment),
+        **({"seed": {k: (_trio(v) if isinstance(v, list) else v) for k, v in res.coupling.items()}}
+           if res.coupling else {}),
     }
 
 
@@ -85,6 +87,12 @@ def tolerance_text(file: str, results: list, samples: int, seed: int, tolerances
                 lines.append(f"    {oid:<10} {cells[0]:>26} {cells[1]:>26}")
         for oid, v in res.ratio.items():
             lines.append(f"  w_t/w_s at {oid}: {v[0]:.3f} / {v[1]:.3f} / {v[2]:.3f}")
+        if res.coupling:
+            v = res.coupling["mode_match"]
+            lines.append(f"  mode match of beam {res.coupling['beam']}: {v[0]:.4f} / {v[1]:.4f} / {v[2]:.4f}")
+            if "circulating_w" in res.coupling:
+                v = res.coupling["circulating_w"]
+                lines.append(f"  circulating power x mode match (W): {v[0]:.4g} / {v[1]:.4g} / {v[2]:.4g}")
         if res.sensitivity:
             lines.append("  what drives the spread (share of the variance, linear regression; R^2 of the fit):")
             by_output: dict = {}

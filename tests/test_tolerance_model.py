@@ -130,3 +130,74 @@ def test_thermal_lens_in_its_range():
     power = lo + u * (hi - lo)
     assert_same(one_build({("X1", "thermal_lens"): u}, thermal="thermal_lens = [400.0, 1.0e6]"),
                 text(thermal=f"thermal_lens = {1.0 / power!r}"))
+
+
+def seeded(l1=(300.0, 500.0), f=300.0, roc=500.0) -> str:
+    """A passive linear cavity (flat input coupler, concave M2) seeded through a lens."""
+    return f"""format = 1
+[bench]
+name = "seeded"
+size = [1000, 1000]
+[[optic]]
+id = "IC"
+kind = "mirror"
+at = [500.0, 500.0]
+reflectivity = 0.99
+[[optic]]
+id = "M2"
+kind = "mirror"
+at = [800.0, 500.0]
+roc = {roc!r}
+[[optic]]
+id = "L1"
+kind = "lens"
+at = [{l1[0]!r}, {l1[1]!r}]
+focal_length = {f!r}
+[[source]]
+id = "S"
+at = [100.0, 500.0]
+heading = 0.0
+wavelength_nm = 1064
+power_w = 1.0
+waist = 0.3
+[[cavity]]
+id = "cav"
+kind = "linear"
+path = ["IC", "M2"]
+wavelength_nm = 1064
+input_coupler = "IC"
+input_power_w = 1.0
+[[beam]]
+id = "seed"
+from = "S"
+path = ["L1", "IC"]
+"""
+
+
+def test_mode_match_of_a_seed_beam():
+    """The mode match of one perturbed build equals the solver's for the edited layout, and
+    the circulating power is the cavity's times that match.  The lens moves along the beam
+    only: a sideways move would tilt the seed in the edited layout, while the Monte Carlo
+    takes the seed as aligned onto the cavity's axis (README)."""
+    from benchcheck import tolspec
+    from benchcheck.tolerance import seed_beam
+
+    sol = solve_text(seeded())
+    path = sol.trace.cavities["cav"]
+    seed = seed_beam(sol, "cav")
+    assert seed is not None and seed.path.id == "seed"
+    dev = {("L1", "x"): 0.5, ("L1", "focal_length"): 0.01, ("M2", "roc"): -0.01}
+    params = [Parameter(o, w, 1.0, "") for (o, w) in dev]
+    x = np.array([list(dev.values())])
+    oriented = {oid for oid, p in sol.placement.optics.items() if p.oriented_by == "cav"}
+    chunk = evaluate(sol.layout, path, params, x, oriented, seed.at)
+    eta = seed.match(sol.layout, params, x, chunk)
+    edited = solve_text(seeded(l1=(300.5, 500.0), f=303.0, roc=495.0))
+    assert eta[0] == pytest.approx(edited.beams["seed"].mode_match, rel=1e-9)
+    # the run reports the match and P_circ x match
+    from benchcheck.tolerance import run
+    lab = tolspec.Tolerances(source=tolspec.FROM_DEFAULTS)
+    res = run(sol, lab, 2000, 1, with_alignment=False)[0]
+    lo, mid, hi = res.coupling["mode_match"]
+    assert 0 < lo <= mid <= hi <= 1
+    assert res.coupling["circulating_w"][1] == pytest.approx(mid * sol.cavities["cav"].circulating_w, rel=1e-3)
