@@ -19,6 +19,10 @@ How a tolerance perturbs the placed bench (README, "Tolerances and alignment"):
   ``tilt_deg``: its angle of incidence (a Brewster face or a tilted plate away from plan).
 - ``thermal_lens_range``: the thermal lens power uniform in its declared range.
 
+A source's beam that seeds a passive cavity is perturbed with it (``Seed``): the optics on
+its path take draws like the cavity's, and its overlap with each build's mode gives the
+mode match; the seed is taken as aligned onto the cavity's axis.
+
 Statistics: yields with the Wilson score interval at 95 %; percentiles over the builds
 stable in both planes; the sensitivity ranking by a linear regression of each output on
 the sampled deviations over those builds (see ``Sensitivity``).
