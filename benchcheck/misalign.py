@@ -45,9 +45,24 @@ def mirror_tilt_kick(tilt, aoi, plane: str):
     return 2.0 * tilt if plane == TANGENTIAL else 2.0 * tilt * np.cos(np.asarray(aoi, dtype=float))
 
 
-def kick(amount) -> np.ndarray:
-    """A thin misalignment of zero length that changes the slope by ``amount``."""
-    return augment(np.eye(2), 0.0, amount)
+def plate_tilt_offset(thickness, index, aoi):
+    """Sideways shift (mm per radian of tilt) of a ray leaving a plane-parallel element of
+    ``thickness`` turned about an axis across the plane of incidence, at incidence ``aoi``:
+    the derivative of the plate's displacement d = t (sin a - cos a tan a') with Snell's law
+    (da'/da = cos a / (n cos a')); t (1 - 1/n) at normal incidence.  The ray's direction does
+    not change."""
+    t = np.asarray(thickness, dtype=float)
+    n = np.asarray(index, dtype=float)
+    a = np.asarray(aoi, dtype=float)
+    a2 = np.arcsin(np.sin(a) / n)
+    da2 = np.cos(a) / (n * np.cos(a2))
+    return t * (np.cos(a) + np.sin(a) * np.tan(a2) - np.cos(a) / np.cos(a2) ** 2 * da2)
+
+
+def kick(amount, offset=0.0) -> np.ndarray:
+    """A thin misalignment of zero length: the slope changes by ``amount``, the height by
+    ``offset``."""
+    return augment(np.eye(2), offset, amount)
 
 
 def axis_ray(round_trip3) -> np.ndarray:

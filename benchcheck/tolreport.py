@@ -104,7 +104,7 @@ def tolerance_text(file: str, results: list, samples: int, seed: int, tolerances
         elif res.stable < res.samples:
             lines.append("  too few stable builds for a sensitivity ranking")
         if res.alignment:
-            lines.append("  axis shift (um per urad of mirror tilt), largest over the cavity's optics:")
+            lines.append("  axis shift (um per urad of tilt of each mirror, plate or crystal), largest over the cavity's optics:")
             for r in res.alignment:
                 worst = max(r.shift_um_per_urad.items(), key=lambda kv: abs(kv[1]))
                 lines.append(f"    {r.mirror:<10} {r.plane}: {abs(worst[1]):.3g} at {worst[0]}")

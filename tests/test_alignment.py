@@ -13,7 +13,7 @@ from sympy.physics.optics import FreeSpace, ThinLens
 
 from benchcheck import misalign, solve_text
 from benchcheck.alignment import cavity_alignment
-from layouts_util import cavity, layout, mirror, rel, two_mirror
+from layouts_util import cavity, layout, mirror, optic, rel, two_mirror
 
 UM_PER_URAD = 1e-3   # mm per rad -> um per urad
 
@@ -150,3 +150,53 @@ def test_axis_ray_of_a_known_round_trip():
     assert misalign.axis_ray(rt) == pytest.approx([0.5, -0.5])
     # m = +1 (free space): no unique axis
     assert np.all(np.isnan(misalign.axis_ray(misalign.augment(np.array([[1.0, 5.0], [0.0, 1.0]]), 0.0, 1.0))))
+
+
+def plate_cavity(r1, r2, d, thickness, index, aoi=0.0) -> str:
+    return layout(
+        mirror("M1", r1, at=[1000.0, 10000.0]),
+        mirror("M2", r2),
+        optic("P1", "plate", thickness=thickness, index=index, aoi=aoi),
+        cavity("cav", "linear", ["M1", rel("P1", d / 3), rel("M2", 2 * d / 3)], 1064.0, heading=0.0),
+    )
+
+
+@pytest.mark.parametrize("r1, r2, d", [(500.0, 300.0, 200.0), (1000.0, 1000.0, 300.0)])
+def test_tilted_plate_jogs_the_axis_between_the_centres_of_curvature(r1, r2, d):
+    """Derived here: a plate of thickness t and index n tilted by e shifts a ray crossing
+    it at angle u to its normal by -c (u - e), c = t (1 - 1/n) (small angles, Snell's law).
+    The axis meets each mirror along its normal, so its segment on the M1 side lies on a
+    line x = s (z - R1) through the centre of curvature C1, the one on the M2 side on
+    x = s (z - (d - R2)); the jog between them, s (R1 + R2 - d), equals -c (s - e):
+    s = c e / (R1 + R2 - d + c), and the axis meets M1 at -s R1 and M2 at s R2."""
+    t, n = 6.0, 1.5
+    res = responses(plate_cavity(r1, r2, d, t, n))
+    c = t * (1 - 1 / n)
+    s = c / (r1 + r2 - d + c)
+    for plane in ("t", "s"):
+        r = res[("P1", plane)]
+        assert abs(r.shift_um_per_urad["M1"]) == pytest.approx(s * r1 * UM_PER_URAD, rel=1e-9)
+        assert abs(r.shift_um_per_urad["M2"]) == pytest.approx(s * r2 * UM_PER_URAD, rel=1e-9)
+        assert r.shift_um_per_urad["M1"] * r.shift_um_per_urad["M2"] < 0
+        assert abs(r.tilt_urad_per_urad["M2"]) == pytest.approx(s, rel=1e-9)
+
+
+def test_plate_tilt_offset_is_the_derivative_of_the_displacement():
+    """d(a) = t sin(a - a')/cos a' (the displacement of a ray by a plane-parallel plate,
+    Snell's law), differentiated numerically here; t (1 - 1/n) at normal incidence."""
+    t, n = 3.0, 1.45
+    assert float(misalign.plate_tilt_offset(t, n, 0.0)) == pytest.approx(t * (1 - 1 / n), rel=1e-12)
+    for aoi_deg in (10.0, 30.0, 55.0):
+        a = math.radians(aoi_deg)
+
+        def disp(x):
+            x2 = math.asin(math.sin(x) / n)
+            return t * math.sin(x - x2) / math.cos(x2)
+        h = 1e-6
+        numeric = (disp(a + h) - disp(a - h)) / (2 * h)
+        assert float(misalign.plate_tilt_offset(t, n, a)) == pytest.approx(numeric, rel=1e-7)
+
+
+def test_tilted_plate_off_normal_has_no_sagittal_entry():
+    res = responses(plate_cavity(500.0, 300.0, 200.0, 3.0, 1.45, aoi=20.0))
+    assert ("P1", "t") in res and ("P1", "s") not in res
