@@ -39,7 +39,7 @@ def cavity_json(res) -> dict:
                         for r in res.sensitivity],
         "sensitivity_fit_r2": {k: _r(v, 4) for k, v in res.fit_r2.items()},
         "alignment": alignment_json(res.alignment),
-        **({"seed": {k: (_trio(v) if isinstance(v, list) else v) for k, v in res.coupling.items()}}
+        **({"seed_beam": {k: (_trio(v) if isinstance(v, list) else v) for k, v in res.coupling.items()}}
            if res.coupling else {}),
     }
 

@@ -273,3 +273,14 @@ def test_progress_only_on_a_terminal():
     p.start -= 10.0
     p("cav", 5, 10)
     assert "5/10" in tty.getvalue()
+
+
+def test_json_of_a_passive_cavity_has_its_seed_beam(tmp_path, capsys):
+    from pathlib import Path
+    from benchcheck.cli import main
+    demo = Path(__file__).resolve().parent.parent / "layouts" / "bowtie-enhancement.toml"
+    assert main(["tolerance", str(demo), "--samples", "300", "--format", "json"]) == 0
+    cav = json.loads(capsys.readouterr().out)["cavities"][0]
+    seed = cav["seed_beam"]
+    assert seed["beam"] == "seed" and len(seed["mode_match"]) == 3 and len(seed["circulating_w"]) == 3
+    assert 0 < seed["mode_match"][0] <= seed["mode_match"][2] <= 1
