@@ -19,6 +19,9 @@ REPORT_SAMPLES = 10_000
 REPORT_SEED = 1
 #: parameters shown per output in the sensitivity chart
 TOP = 6
+#: the planes told apart by line style as well as colour (the drawings read in greyscale)
+LINE = {"t": dict(color="#0b5fa5", linestyle="-", linewidth=1.6),
+        "s": dict(color="#c2571a", linestyle="--", linewidth=1.6)}
 
 
 def _pct(x: float) -> str:
@@ -27,7 +30,7 @@ def _pct(x: float) -> str:
 
 def _histogram_svg(focus: dict) -> str | None:
     """Mode radius at the focus optics (crystals, else the tightest mode), both planes."""
-    from .plots import S_STYLE, T_STYLE, _pyplot, _svg
+    from .plots import _pyplot, _svg
 
     if not focus:
         return None
@@ -36,8 +39,8 @@ def _histogram_svg(focus: dict) -> str | None:
     for ax, (optic, planes) in zip(axes[0], focus.items()):
         both = np.concatenate([planes["t"], planes["s"]])
         bins = np.linspace(both.min(), both.max(), 41) if both.max() > both.min() else 10
-        ax.hist(planes["t"], bins=bins, histtype="step", label="tangential", **T_STYLE)
-        ax.hist(planes["s"], bins=bins, histtype="step", label="sagittal", **S_STYLE)
+        ax.hist(planes["t"], bins=bins, histtype="step", label="tangential", **LINE["t"])
+        ax.hist(planes["s"], bins=bins, histtype="step", label="sagittal", **LINE["s"])
         ax.set_xlabel(f"mode radius at {optic} (µm)")
         ax.set_ylabel("builds")
         ax.legend(fontsize=7, frameon=False)
