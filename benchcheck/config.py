@@ -46,6 +46,7 @@ from typing import Any
 from .findings import SEVERITIES
 from .hazards import MpeOverride, Policy
 from .model import LayoutError, Loc
+from . import tolspec
 from .tomlpos import key_positions
 
 if sys.version_info >= (3, 11):
@@ -75,7 +76,7 @@ EXPOSURE = {
     "invisible_s": (10.0, "s", "exposure duration outside 400-700 nm (common practice for unintended viewing)"),
 }
 MPE_KEYS = {"w_cm2": "W/cm^2", "j_cm2": "J/cm^2", "aperture_mm": "mm"}
-TOP_KEYS = ("fail_on", "plugins", "limits", "exposure", "rules", "rule_timeout_s")
+TOP_KEYS = ("fail_on", "plugins", "limits", "exposure", "rules", "rule_timeout_s", "tolerances")
 #: a configuration is a few KiB; anything far larger is not one (and is not read into memory)
 MAX_CONFIG_BYTES = 1024 * 1024
 #: how long one plugin step (an import, the hook, one rule on one layout) may take, s
@@ -97,6 +98,8 @@ class Config:
     rule_timeout_s: float = RULE_TIMEOUT_S
     #: where ``plugins`` is written, for messages about the modules it lists
     plugins_loc: Loc | None = None
+    #: the lab's build tolerances ([tolerances]); source "none" when the section is absent
+    tolerances: tolspec.Tolerances = field(default_factory=tolspec.Tolerances)
 
     def enabled(self, rule_id: str) -> bool:
         return self.rules.get(rule_id, {}).get("enabled", True)
@@ -276,6 +279,8 @@ def _parse(doc: dict, file: str, positions: dict, prefix: tuple) -> Config:
                 entry["options"][key] = value
                 entry["option_locs"][key] = loc("rules", rule_id, key)
         cfg.rules[rule_id] = entry
+    if "tolerances" in doc:
+        cfg.tolerances = _tolerances(doc["tolerances"], fail, unknown)
     return cfg
 
 
@@ -321,3 +326,31 @@ def _exposure(table, fail, unknown) -> Policy:
         else:
             raise unknown(key, tuple(EXPOSURE) + ("mpe",), "[exposure]", ("exposure", key))
     return Policy(values["visible_s"], values["invisible_s"], tuple(overrides))
+def _tolerances(table, fail, unknown) -> tolspec.Tolerances:
+    """[tolerances]: the lab's build capability; keys not given take benchcheck's defaults."""
+    where = ("tolerances",)
+    if not isinstance(table, dict):
+        raise fail(where, "[tolerances] must be a table, e.g. position_mm = 0.2")
+    values = {k.name: k.default for k in tolspec.KEYS.values()}
+    distribution = tolspec.UNIFORM
+    margin = tolspec.MARGIN_KEY.default
+    for key, value in table.items():
+        path = where + (key,)
+        if key == tolspec.DISTRIBUTION_KEY.name:
+            if value not in tolspec.DISTRIBUTIONS:
+                raise fail(path, "tolerances.distribution must be \"uniform\" (on [-t, t]) or \"normal\" "
+                                 f"(sigma = t/2), found {value!r}")
+            distribution = value
+        elif key == tolspec.MARGIN_KEY.name:
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0.0 < value <= 1.0:
+                raise fail(path, f"tolerances.{key} must be a number in (0, 1] (|half-trace|), found {value!r}")
+            margin = float(value)
+        elif key in tolspec.KEYS:
+            try:
+                values[key] = tolspec.check_value(tolspec.KEYS[key], value, f"tolerances.{key}")
+            except ValueError as exc:
+                raise fail(path, str(exc)) from None
+        else:
+            raise unknown(key, tolspec.SECTION_KEYS, "[tolerances]", path)
+    return tolspec.Tolerances(values, distribution, margin, tolspec.FROM_CONFIG)
+

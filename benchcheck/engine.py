@@ -301,7 +301,7 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
     except Exception as exc:  # noqa: BLE001
         return FileResult(name, errors=[f"{name}: internal error while solving ({type(exc).__name__}: {exc}); "
                                         "please report it with this layout"], unreadable=True)
-    bench = Bench(layout, solution, dict(config.limits), config.exposure)
+    bench = Bench(layout, solution, dict(config.limits), config.exposure, tolerances=config.tolerances)
     result = run_rules(bench, config, ruleset, today, skip=skip, progress=progress)
     # plugin and configuration problems are not this layout's: said once, whatever the file
     result.errors = list(ruleset.errors) + problems + result.errors

@@ -133,6 +133,8 @@ class Bench:
     - ``exposure``: how exposures are judged (``[exposure]``, a ``hazards.Policy``);
     - ``hazards``: every segment of beam judged against the exposure limits
       (``benchcheck.hazards.Assessment``), computed once on first use.
+    - ``tolerances``: the lab's build tolerances (``[tolerances]``; ``benchcheck.tolspec``),
+      None where the caller gives none.
     """
 
     layout: Layout
@@ -144,6 +146,7 @@ class Bench:
     def hazards(self):
         from .hazards import assess
         return assess(self.solution, self.exposure)
+    tolerances: Any = None
 
     @property
     def placement(self):

@@ -21,6 +21,7 @@ from .model import (
     Beam, Bench, Cavity, Coaxial, Layout, LayoutError, Lidt, Loc, Optic, PathEntry, Source, Spectral,
     Waiver, Zone,
 )
+from . import tolspec
 from .tomlpos import key_positions
 
 if sys.version_info >= (3, 11):
@@ -31,7 +32,7 @@ else:  # pragma: no cover - exercised only on Python 3.10
 FORMAT_VERSION = 1
 
 OPTIC_KINDS = ("mirror", "lens", "crystal", "plate", "aperture", "splitter", "dump", "detector", "obstacle")
-_COMMON = ("id", "kind", "at", "diameter", "mount", "lidt", "note")
+_COMMON = ("id", "kind", "at", "diameter", "mount", "lidt", "note", "tolerance")
 OPTIC_KEYS = {
     "mirror": _COMMON + ("roc", "reflectivity", "absorption", "fold", "substrate"),
     "lens": _COMMON + ("focal_length", "absorption"),
@@ -521,6 +522,8 @@ class _Reader:
                                               "[width, depth] in mm", positive=True)
         if "lidt" in value:
             fields["lidt"] = self.lidt(value["lidt"], p("lidt"), ident)
+        if "tolerance" in value:
+            fields["tolerance"] = self.tolerance(value["tolerance"], p("tolerance"), ident, kind)
         if "roc" in value:
             fields["roc"] = self.number(value["roc"], p("roc"), "mm", nonzero=True, tiny=MIN_FOCAL_MM)
         for key in ("reflectivity", "absorption"):
@@ -595,6 +598,22 @@ class _Reader:
         if not any(k in out for k in ("w_cm", "w_cm2", "j_cm2")):
             raise self.fail(path, f"the LIDT of \"{ident}\" needs w_cm, w_cm2 or j_cm2")
         return Lidt(**out)
+
+    def tolerance(self, value: Any, path: tuple, ident: str, kind: str) -> dict:
+        """An optic's own build tolerances, over the lab's [tolerances] (README, "Tolerances
+        and alignment"): only keys that apply to its kind."""
+        allowed = tuple(k for k, key in tolspec.KEYS.items() if kind in key.kinds)
+        what = f"the tolerance of \"{ident}\" ({kind})"
+        if not allowed:
+            raise self.fail(path, f"a {kind} takes no tolerance (optic \"{ident}\")")
+        t = self.table(value, path, allowed, what)
+        out = {}
+        for key, v in t.items():
+            try:
+                out[key] = tolspec.check_value(tolspec.KEYS[key], v, f"optic \"{ident}\" tolerance.{key}")
+            except ValueError as exc:
+                raise self.fail(path + (key,), str(exc)) from None
+        return out
 
     def source(self, value: dict, path: tuple) -> Source:
         t = self.table(value, path, SOURCE_KEYS, "a [[source]]")

@@ -107,6 +107,8 @@ class Optic:
     angle: float = 0.0                                       # obstacle rotation (deg)
     max_power_w: float | None = None            # dump, detector rating
     note: str | None = None
+    #: this optic's own build tolerances over the lab's (keys of ``tolspec.KEYS``, their units)
+    tolerance: Mapping[str, float | bool] | None = None
 
     def where(self, key: str) -> Loc:
         return self.key_locs.get(key, self.loc)

@@ -133,6 +133,7 @@ class Report:
     # -- sections ----------------------------------------------------------------------
     def html(self, generated: _dt.datetime | None = None) -> str:
         from . import plots
+        from .report_tolerance import tolerance_section
 
         generated = generated or _dt.datetime.now().replace(microsecond=0)
         sol = self.solution
@@ -156,7 +157,8 @@ class Report:
             f'{generated.isoformat(sep=" ")}</p>'
             f'<p class="summary">{summary}</p></header>',
             '<nav><a href="#safety">Safety</a> · <a href="#plan">Plan view</a> · <a href="#findings">Findings</a>'
-            ' · <a href="#cavities">Cavities</a> · <a href="#beams">Beams</a> · <a href="#optics">Optics</a></nav>',
+            ' · <a href="#cavities">Cavities</a> · <a href="#beams">Beams</a> · <a href="#optics">Optics</a>'
+            ' · <a href="#tolerances">Tolerances</a></nav>',
             self._safety(),
             '<section id="plan"><h2>Plan view</h2>',
             f'<figure class="wide">{plan_svg(sol, self.numbered, self.bench.hazards)}<figcaption>{self._legend()}'
@@ -166,6 +168,7 @@ class Report:
             self._cavities(plots),
             self._beams(plots),
             self._optics(),
+            tolerance_section(self.bench),
             f'<footer><p>{escape(SAFETY_CAUTION)}</p></footer>',
             "</body></html>",
         ]

@@ -14,6 +14,7 @@ import json
 from importlib import resources
 
 from . import loader as L
+from . import tolspec
 
 SCHEMA_DIALECT = "http://json-schema.org/draft-07/schema#"
 #: The generated schema as shipped inside the package (kept equal by a test).
@@ -104,6 +105,11 @@ _OPTIC = {
     }, "laser-induced damage threshold: w_cm, w_cm2, or j_cm2 with pulse_s"),
         "anyOf": [{"required": ["w_cm"]}, {"required": ["w_cm2"]}, {"required": ["j_cm2", "pulse_s"]}]},
     "note": _NOTE,
+    "tolerance": _table(tuple(tolspec.KEYS), {
+        k.name: ({"type": "boolean", "description": k.help} if isinstance(k.default, bool)
+                 else _num(k.help, k.unit, low=0.0))
+        for k in tolspec.KEYS.values()},
+        "this optic's own build tolerances over the lab's [tolerances] (only the keys that apply to its kind)"),
     "roc": _num("radius of curvature: > 0 concave, < 0 convex, absent = flat", "mm", nonzero=True),
     "reflectivity": _fraction("reflectivity"),
     "absorption": _fraction("absorption (single pass)"),

@@ -84,25 +84,30 @@ def thermal_range(optic: Optic, plane: str) -> tuple[float, ...] | None:
     return optic.thermal_lens
 
 
-def medium_factors(index: float, aoi: float, plane: str) -> tuple[float, float]:
+def _num(x):
+    """A 0-d result as a plain float; arrays (many perturbed benches at once) unchanged."""
+    return float(x) if np.ndim(x) == 0 else x
+
+
+def medium_factors(index, aoi, plane: str):
     """(k, scale) of a medium entered from air at angle ``aoi`` through a flat face.
 
     k_s = 1/n, k_t = cos^2 t1 / (n cos^2 t2); scale_t = cos t2 / cos t1 (Kogelnik et al.
-    1972, from memory; the plate formulas d = k * t / cos t2 follow).
+    1972, from memory; the plate formulas d = k * t / cos t2 follow).  Broadcasts over
+    arrays of index and aoi.
     """
-    t2 = math.asin(math.sin(aoi) / index)
+    t2 = abcd.refraction_angle(aoi, 1.0, index)
     if plane == SAGITTAL:
-        return 1.0 / index, 1.0
-    c1, c2 = math.cos(aoi), math.cos(t2)
-    return c1 * c1 / (index * c2 * c2), c2 / c1
+        return _num(1.0 / np.asarray(index, dtype=float)), 1.0
+    c1, c2 = np.cos(aoi), np.cos(t2)
+    return _num(c1 * c1 / (index * c2 * c2)), _num(c2 / c1)
 
 
-def internal_length(optic: Optic, aoi: float) -> float:
+def internal_length(optic: Optic, aoi):
     """Geometric length (mm) a beam travels inside a crystal or plate."""
     if optic.kind == "crystal":
         return optic.length
-    t2 = math.asin(math.sin(aoi) / optic.index)
-    return optic.thickness / math.cos(t2)
+    return _num(optic.thickness / np.cos(abcd.refraction_angle(aoi, 1.0, optic.index)))
 
 
 def substrate_length(hit: Hit, optic: Optic) -> float:
@@ -193,8 +198,8 @@ def substrate_steps(hit: Hit, optic: Optic, plane: str, notes: list) -> list:
     return [Thin(first, f"substrate face {optic.id}"), inside, Thin(last, f"substrate face {optic.id}")]
 
 
-def _air(length: float, s0: float, forward: bool = True, gap: int | None = None) -> Space:
-    return Space(max(length, 0.0), 1.0, 1.0, 1.0, s0, forward, gap)
+def _air(length, s0, forward: bool = True, gap: int | None = None) -> Space:
+    return Space(_num(np.maximum(length, 0.0)), 1.0, 1.0, 1.0, s0, forward, gap)
 
 
 def _element_parts(layout: Layout, path: PathTrace, plane: str, thermal_powers: dict, notes: list):

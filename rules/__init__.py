@@ -8,9 +8,9 @@ from __future__ import annotations
 
 from benchcheck.hookspecs import hookimpl
 
-from . import astigmatism, clipping, coupling, damage, geometry, margin, obstruction, safety, stability
+from . import astigmatism, clipping, coupling, damage, geometry, margin, obstruction, safety, stability, tolerance
 
-MODULES = (geometry, stability, margin, astigmatism, obstruction, clipping, damage, safety, coupling)
+MODULES = (geometry, stability, margin, astigmatism, obstruction, clipping, damage, safety, coupling, tolerance)
 
 
 @hookimpl

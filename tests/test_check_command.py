@@ -68,6 +68,9 @@ intracavity_power_w = 100.0
 intracavity_error_power_w = 100.0
 [rules.open-beam]
 enabled = false
+
+[tolerances]
+position_mm = 0.2
 """
 
 
@@ -150,7 +153,8 @@ def test_intracavity_power_between_the_two_limits_is_a_warning(tmp_path, capsys)
 
 def test_pyproject_tool_table_is_found_walking_up(tmp_path, capsys):
     cfg = ('[project]\nname = "x"\n[tool.benchcheck.limits]\nintracavity_power_w = 100.0\nstray_power_w = 1.0\n'
-           '[tool.benchcheck.rules.open-beam]\nenabled = false\n')
+           '[tool.benchcheck.rules.open-beam]\nenabled = false\n'
+           '[tool.benchcheck.tolerances]\nposition_mm = 0.2\n')
     path = write(tmp_path, config=cfg, config_name="pyproject.toml")
     _, doc = json_findings(capsys, path)
     # its limits apply: no intracavity finding, and the leak is judged against 1 W, not 1 mW

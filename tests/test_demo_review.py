@@ -17,7 +17,8 @@ FLAWED = ROOT / "layouts" / "flawed" / "every-rule-fires.toml"
 BUILTIN = {"layout-geometry", "cavity-unstable", "stability-margin", "aperture-clipping", "beam-obstructed",
            "mode-match", "seed-power",
            "mode-astigmatism", "coating-damage", "intracavity-power", "leak-beam", "beam-unterminated",
-           "keepout-zone", "open-beam", "undeclared-output"}
+           "keepout-zone", "open-beam", "undeclared-output",
+           "build-yield", "alignment-sensitivity"}
 
 
 @pytest.fixture(autouse=True)
