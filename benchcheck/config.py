@@ -45,7 +45,22 @@ LIMITS = {
     "stray_power_w": (0.001, "W", "leak, secondary and unterminated beams above this power must end on a dump, "
                                   "a detector or inside an enclosure (1 mW: the visible Class 2 limit, from memory)"),
 }
-TOP_KEYS = ("fail_on", "plugins", "limits", "rules")
+#: ``benchcheck diff`` shows a change of a number only when it exceeds both the relative
+#: threshold (a fraction of the larger of the old and new value) and the absolute one of
+#: its unit.  Defaults and meaning; set in [diff] and [diff.absolute].
+DIFF_RELATIVE = (0.01, "fraction of the larger of the old and new value")
+DIFF_ABSOLUTE = {
+    "fraction": (1e-4, "half-trace m, margin 1-|m|, mode match, load over LIDT"),
+    "um": (0.1, "mode and beam radii, waist radii"),
+    "mm": (0.01, "positions of optics, waists and beam ends; round-trip length"),
+    "deg": (0.01, "folds, facing of optics, Gouy phase"),
+    "hz": (0.0, "free spectral range"),
+    "w": (0.0, "powers"),
+    "w_cm2": (0.0, "peak intensities"),
+    "w_cm": (0.0, "linear power densities"),
+    "j_cm2": (0.0, "peak fluences"),
+}
+TOP_KEYS = ("fail_on", "plugins", "limits", "rules", "diff")
 RULE_KEYS = ("enabled", "severity")
 
 
@@ -57,6 +72,9 @@ class Config:
     limits: dict[str, float] = field(default_factory=lambda: {k: v[0] for k, v in LIMITS.items()})
     #: rule id -> {"enabled": bool, "severity": str | None, "options": {...}, "loc": Loc}
     rules: dict[str, dict] = field(default_factory=dict)
+    #: thresholds of ``benchcheck diff``: {"relative": float, "absolute": {unit: float}}
+    diff: dict = field(default_factory=lambda: {"relative": DIFF_RELATIVE[0],
+                                                "absolute": {k: v[0] for k, v in DIFF_ABSOLUTE.items()}})
 
     def enabled(self, rule_id: str) -> bool:
         return self.rules.get(rule_id, {}).get("enabled", True)
@@ -150,6 +168,7 @@ def _parse(doc: dict, file: str, positions: dict, prefix: tuple) -> Config:
         if isinstance(value, bool) or not isinstance(value, (int, float)) or not value >= 0 or value == float("inf"):
             raise fail(("limits", key), f"limits.{key} must be a non-negative number in {LIMITS[key][1]}")
         cfg.limits[key] = float(value)
+    _parse_diff(doc.get("diff", {}), cfg, fail, unknown)
     rules = doc.get("rules", {})
     if not isinstance(rules, dict):
         raise fail(("rules",), "[rules] must hold one table per rule id, e.g. [rules.coating-damage]")
@@ -171,3 +190,26 @@ def _parse(doc: dict, file: str, positions: dict, prefix: tuple) -> Config:
                 entry["option_locs"][key] = loc("rules", rule_id, key)
         cfg.rules[rule_id] = entry
     return cfg
+
+
+def _parse_diff(table, cfg: Config, fail, unknown) -> None:
+    def number(value, path: tuple, what: str) -> float:
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not value >= 0 or value == float("inf"):
+            raise fail(path, f"{what} must be a non-negative number")
+        return float(value)
+
+    if not isinstance(table, dict):
+        raise fail(("diff",), "[diff] must be a table")
+    for key, value in table.items():
+        if key == "relative":
+            cfg.diff["relative"] = number(value, ("diff", key), f"diff.relative ({DIFF_RELATIVE[1]})")
+        elif key == "absolute":
+            if not isinstance(value, dict):
+                raise fail(("diff", key), "[diff.absolute] must be a table of thresholds by unit")
+            for unit, v in value.items():
+                if unit not in DIFF_ABSOLUTE:
+                    raise unknown(unit, DIFF_ABSOLUTE, "[diff.absolute]", ("diff", key, unit))
+                cfg.diff["absolute"][unit] = number(v, ("diff", key, unit),
+                                                    f"diff.absolute.{unit} ({DIFF_ABSOLUTE[unit][1]})")
+        else:
+            raise unknown(key, ("relative", "absolute"), "[diff]", ("diff", key))

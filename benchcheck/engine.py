@@ -15,7 +15,7 @@ from typing import Any
 
 from .config import Config, find_config, load_config
 from .findings import WARNING, Bench, Finding, Rule
-from .loader import load_path
+from .loader import load_bytes, load_path, load_text
 from .model import LayoutError
 from .plugins import RuleSet, load_rules
 from .solve import solve_layout
@@ -160,14 +160,27 @@ def apply_waivers(findings: list[Finding], bench: Bench, today: _dt.date) -> lis
 def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None = None,
                today: _dt.date | None = None) -> FileResult:
     """Load, solve and check one layout; unusable input is an error, never an exception."""
-    name = str(path)
+    return _check(str(path), lambda: load_path(path), Path(path), config, ruleset, today)
+
+
+def check_text(data: str | bytes, file: str, config: Config | None = None, ruleset: RuleSet | None = None,
+               today: _dt.date | None = None) -> FileResult:
+    """The same for a layout that is not a file of the working tree (a git revision's
+    text): ``file`` names it in messages; the configuration is the caller's (default: the
+    built-in one), since a text has no folder to find one from."""
+    load = (lambda: load_bytes(data, file)) if isinstance(data, bytes) else (lambda: load_text(data, file))
+    return _check(file, load, None, config or Config(), ruleset, today)
+
+
+def _check(name: str, load, path: Path | None, config: Config | None, ruleset: RuleSet | None,
+           today: _dt.date | None) -> FileResult:
     try:
         if config is None:
             config = load_config(find_config(path))
         if ruleset is None:
             ruleset = load_rules(config.plugins, search_path=config_folder(config))
         problems = [str(p) for p in validate_options(config, ruleset)]
-        layout = load_path(path)
+        layout = load()
         solution = solve_layout(layout)
     except LayoutError as exc:
         return FileResult(name, errors=[str(exc)])
