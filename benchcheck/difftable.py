@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import math
+from dataclasses import dataclass
 
 from .findings import SAFETY_CAUTION, SEVERITY_RANK, Finding
 from .revdiff import Change, GroupDiff, LayoutDiff, exit_status
@@ -39,11 +40,24 @@ def _value(c: Change, v) -> str:
         return v
     if c.quantity.point:
         return f"({v[0]:.2f}, {v[1]:.2f})"
+    v = v * _scale(c)
     if c.quantity.key == "m":
         return f"{v:+.6f}"
     if c.quantity.key == "margin":
         return f"{v:.6f}"
     return f"{v:.6g}"
+
+
+#: units shown to people where the JSON unit reads badly (FSR in MHz, not 7.49e+08 Hz)
+_SHOWN = {"Hz": (1e-6, "MHz")}
+
+
+def _scale(c: Change) -> float:
+    return _SHOWN.get(c.quantity.unit, (1.0, ""))[0]
+
+
+def _unit(c: Change) -> str:
+    return _SHOWN.get(c.quantity.unit, (1.0, c.quantity.unit))[1]
 
 
 def _delta(c: Change) -> float | None:
@@ -55,19 +69,42 @@ def _delta(c: Change) -> float | None:
 
 
 def _change_text(c: Change) -> str:
-    unit = f" {c.quantity.unit}" if c.quantity.unit else ""
+    unit = f" {_unit(c)}" if _unit(c) else ""
     if c.quantity.point and c.old is not None and c.new is not None:
         return f"moved {math.dist(c.old, c.new):.3g}{unit}"
     d = _delta(c)
     if d is None:
         return ""
     rel = f", {100.0 * d / abs(c.old):+.3g} %" if c.old and not c.quantity.circular else ""
-    return f"{d:+.3g}{unit}{rel}"
+    return f"{d * _scale(c):+.3g}{unit}{rel}"
 
 
-def _where(g: GroupDiff, c: Change) -> str:
+@dataclass
+class _Row:
+    """A change as people read it: a tangential and a sagittal change that print the same
+    (a round beam) are one row, plane "t, s"."""
+
+    change: Change
+    plane: str
+
+
+def _rows(g: GroupDiff) -> list[_Row]:
+    out: list[_Row] = []
+    for c in g.changes:
+        prev = out[-1].change if out else None
+        if (prev is not None and prev.plane == "t" and c.plane == "s" and out[-1].plane == "t"
+                and (prev.item, prev.at, prev.quantity) == (c.item, c.at, c.quantity)
+                and (_value(c, prev.old), _value(c, prev.new)) == (_value(c, c.old), _value(c, c.new))):
+            out[-1].plane = "t, s"
+            continue
+        out.append(_Row(c, c.plane or ""))
+    return out
+
+
+def _where(g: GroupDiff, r: _Row) -> str:
+    c = r.change
     at = f" {g.comparator.at_word} {c.at}" if c.at else ""
-    plane = f" ({c.plane})" if c.plane else ""
+    plane = f" ({r.plane})" if r.plane else ""
     return f"{g.comparator.noun} {c.item}{at}{plane}"
 
 
@@ -143,10 +180,11 @@ def text_report(diffs: list[LayoutDiff]) -> str:
             for what, ids in (("added", g.added), ("removed", g.removed)):
                 if ids:
                     lines.append(f"    {what} {g.comparator.noun}{'s' if len(ids) > 1 else ''}: {', '.join(ids)}")
-            for c in g.changes:
-                unit = f" {c.quantity.unit}" if c.quantity.unit else ""
+            for r in _rows(g):
+                c = r.change
+                unit = f" {_unit(c)}" if _unit(c) else ""
                 delta = _change_text(c)
-                lines.append(f"    {_where(g, c)}: {c.quantity.label} {_value(c, c.old)} -> {_value(c, c.new)}{unit}"
+                lines.append(f"    {_where(g, r)}: {c.quantity.label} {_value(c, c.old)} -> {_value(c, c.new)}{unit}"
                              + (f" ({delta})" if delta else ""))
         fd = d.findings
         if not fd.empty:
@@ -260,8 +298,10 @@ def _md_group(g: GroupDiff) -> list[str]:
     if g.changes:
         if g.added or g.removed:
             out.append("")
-        rows = [[c.item, c.at or "", c.plane or "", c.quantity.label + (f" [{c.quantity.unit}]" if c.quantity.unit else ""),
-                 _value(c, c.old), _value(c, c.new), _change_text(c)] for c in g.changes]
+        rows = [[r.change.item, r.change.at or "", r.plane,
+                 r.change.quantity.label + (f" [{_unit(r.change)}]" if _unit(r.change) else ""),
+                 _value(r.change, r.change.old), _value(r.change, r.change.new), _change_text(r.change)]
+                for r in _rows(g)]
         out += _table([comp.noun, comp.at_word, "plane", "quantity", "old", "new", "change"], rows,
                       f"{_n(len(rows), 'change')}")
     if g.power:

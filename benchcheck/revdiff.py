@@ -40,7 +40,7 @@ class Quantity:
     unit: str = ""
     tol: str | None = "fraction"
     power: bool = False
-    #: a direction in degrees: compared modulo 360
+    #: an angle in degrees (a direction, a fold): compared modulo 360, absolute threshold only
     circular: bool = False
     #: a point [x, y]: compared by the distance between old and new
     point: bool = False
@@ -60,7 +60,7 @@ def quantity(*args, **kwargs) -> Quantity:
 
 AT_MM = quantity("at_mm", "position", "mm", "mm", point=True)
 FACING = quantity("facing_deg", "facing", "deg", "deg", circular=True)
-FOLD = quantity("fold_deg", "fold", "deg", "deg")
+FOLD = quantity("fold_deg", "fold", "deg", "deg", circular=True)
 M = quantity("m", "half-trace m")
 MARGIN = quantity("margin", "margin 1-|m|")
 STATUS = quantity("status", "status", tol=None)
@@ -161,11 +161,15 @@ def _path_figures(result) -> Figures:
         for p in PLANES:
             out[(label, p, W.key)] = _um(h.w.get(p))
     count = {p: 0 for p in PLANES}
+    waists: dict[str, dict] = {}          # "waist n" -> plane -> WaistResult, in order
     for waist in result.waists:
         count[waist.plane] += 1
-        at = f"waist {count[waist.plane]}"
-        out[(at, waist.plane, W.key)] = _um(waist.w)
-        out[(at, waist.plane, S.key)] = waist.s
+        waists.setdefault(f"waist {count[waist.plane]}", {})[waist.plane] = waist
+    for at, by_plane in waists.items():
+        for q, value in ((W, lambda w: _um(w.w)), (S, lambda w: w.s)):
+            for p in PLANES:
+                if p in by_plane:
+                    out[(at, p, q.key)] = value(by_plane[p])
     return out
 
 
@@ -189,10 +193,12 @@ def cavity_figures(bench: Bench) -> dict[str, Figures]:
     for cid, c in bench.solution.cavities.items():
         figs: Figures = {}
         for p in PLANES:
-            m = c.modes[p].m
-            figs[(None, p, M.key)] = m
-            figs[(None, p, MARGIN.key)] = 1.0 - abs(m)
             figs[(None, p, STATUS.key)] = c.modes[p].status
+        for p in PLANES:
+            figs[(None, p, M.key)] = c.modes[p].m
+        for p in PLANES:
+            figs[(None, p, MARGIN.key)] = 1.0 - abs(c.modes[p].m)
+        for p in PLANES:
             figs[(None, p, GOUY.key)] = c.gouy_deg(p)
         figs[(None, None, FSR.key)] = c.fsr_hz
         figs[(None, None, ROUND_TRIP.key)] = c.round_trip_mm

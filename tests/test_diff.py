@@ -308,11 +308,21 @@ def test_power_figures_carry_the_caution(tmp_path, capsys):
 
 
 def test_long_tables_fold_into_details(tmp_path, capsys):
+    """The folded demo with its curved mirror M3 moved 0.5 mm closer to the crystal: an
+    astigmatic cavity, so the two planes change differently and the table is long."""
+    demo = ROOT / "layouts" / "folded-brewster.toml"
+    text = demo.read_text()
+    edited = text.replace('{ id = "M3", distance = 54.0, fold = -22.4 }', '{ id = "M3", distance = 53.5, fold = -22.4 }')
+    assert edited != text
+    new = write(tmp_path, "folded.toml", edited)
+    code, out, _ = run(capsys, demo, new, "--format", "markdown", "--config", ROOT / "benchcheck.toml")
+    assert "<details>" in out and "</details>" in out
+    assert out.index("<details>") < out.index("| osc |")
+    # a short table stays open
     old = write(tmp_path, "old.toml", plano_concave(200.0))
     new = write(tmp_path, "new.toml", plano_concave(240.0))
     code, out, _ = run(capsys, old, new, "--format", "markdown")
-    assert "<details>" in out and "</details>" in out
-    assert out.index("<details>") < out.index("| laser |")
+    assert "<details>" not in out and "| laser | HR | t, s | radius w [um] |" in out
 
 
 def test_unusable_input_exits_2(tmp_path, capsys):
@@ -423,3 +433,21 @@ def test_git_errors(repo, capsys, tmp_path):
     code, out, err = run(capsys, "--rev", "HEAD")
     assert code == 2 and "not inside a git repository" in err
     assert "Traceback" not in err
+
+
+def test_a_fold_change(tmp_path, capsys):
+    """The folded demo with the fold at M3 opened from 22.4 to 23.0 degrees: M3's fold on
+    the cavity changes by the same amount (the layout places HR relatively, so the
+    geometric fold is the declared one) and HR, placed after it, moves."""
+    demo = ROOT / "layouts" / "folded-brewster.toml"
+    text = demo.read_text()
+    edited = text.replace('{ id = "M3", distance = 54.0, fold = -22.4 }', '{ id = "M3", distance = 54.0, fold = -23.0 }')
+    assert edited != text
+    new = write(tmp_path, "folded.toml", edited)
+    code, doc, _ = run_json(capsys, demo, new, "--config", ROOT / "benchcheck.toml")
+    fold = one(doc, "placement", "fold_deg", at="osc", ident="M3")
+    assert (fold["old"], fold["new"]) == (pytest.approx(-22.4, abs=1e-6), pytest.approx(-23.0, abs=1e-6))
+    assert fold["delta"] == pytest.approx(-0.6, abs=1e-6)
+    hr = one(doc, "placement", "at_mm", ident="HR")
+    # HR is 700 mm beyond M3: turning the leg by 0.6 deg moves it by 2 x 700 x sin(0.3 deg) (chord)
+    assert hr["moved_mm"] == pytest.approx(2 * 700.0 * math.sin(math.radians(0.3)), rel=1e-6)
