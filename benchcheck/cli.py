@@ -209,6 +209,7 @@ def cmd_report(args) -> int:
 
 
 def cmd_diff(args) -> int:
+    from .config import DIFF_ABSOLUTE
     from .difftable import json_report, markdown_report, text_report
     from .revdiff import Options, diff_revision, diff_specs, exit_status
 
@@ -218,8 +219,14 @@ def cmd_diff(args) -> int:
         try:
             absolute[unit.strip()] = float(value)
         except ValueError:
-            print(f"error: --absolute {item}: expected UNIT=NUMBER, e.g. um=0.5", file=sys.stderr)
+            absolute[unit.strip()] = -1.0
+        if unit.strip() not in DIFF_ABSOLUTE or not 0.0 <= absolute[unit.strip()] < float("inf"):
+            print(f"error: --absolute {item}: expected UNIT=NUMBER >= 0 with UNIT one of {', '.join(DIFF_ABSOLUTE)}",
+                  file=sys.stderr)
             return EXIT_BAD_INPUT
+    if args.relative is not None and not 0.0 <= args.relative < float("inf"):
+        print(f"error: --relative {args.relative}: expected a fraction >= 0, e.g. 0.01", file=sys.stderr)
+        return EXIT_BAD_INPUT
     opts = Options(args.config, args.relative, absolute, args.fail_on)
     if args.rev is not None:
         diffs = diff_revision(args.rev, args.specs, opts)

@@ -58,6 +58,7 @@ def quantity(*args, **kwargs) -> Quantity:
     return q
 
 
+KIND = quantity("kind", "kind", tol=None)
 AT_MM = quantity("at_mm", "position", "mm", "mm", point=True)
 FACING = quantity("facing_deg", "facing", "deg", "deg", circular=True)
 FOLD = quantity("fold_deg", "fold", "deg", "deg", circular=True)
@@ -65,6 +66,8 @@ M = quantity("m", "half-trace m")
 MARGIN = quantity("margin", "margin 1-|m|")
 STATUS = quantity("status", "status", tol=None)
 GOUY = quantity("gouy_deg", "Gouy phase", "deg", "deg")
+THERMAL_LO = quantity("m_thermal_min", "lowest m over the thermal-lens range")
+THERMAL_HI = quantity("m_thermal_max", "highest m over the thermal-lens range")
 FSR = quantity("fsr_hz", "FSR", "Hz", "hz")
 ROUND_TRIP = quantity("round_trip_mm", "round trip", "mm", "mm")
 CIRCULATING = quantity("circulating_w", "circulating power", "W", "w", power=True)
@@ -176,7 +179,8 @@ def _path_figures(result) -> Figures:
 def placement_figures(bench: Bench) -> dict[str, Figures]:
     out: dict[str, Figures] = {}
     for oid, placed in bench.placement.optics.items():
-        figs: Figures = {(None, None, AT_MM.key): (float(placed.point[0]), float(placed.point[1]))}
+        figs: Figures = {(None, None, KIND.key): placed.optic.kind,
+                         (None, None, AT_MM.key): (float(placed.point[0]), float(placed.point[1]))}
         if placed.optic.kind != "obstacle":
             figs[(None, None, FACING.key)] = heading_of(placed.direction) % 360.0
         out[oid] = figs
@@ -200,6 +204,9 @@ def cavity_figures(bench: Bench) -> dict[str, Figures]:
             figs[(None, p, MARGIN.key)] = 1.0 - abs(c.modes[p].m)
         for p in PLANES:
             figs[(None, p, GOUY.key)] = c.gouy_deg(p)
+        if c.thermal is not None:
+            for p in PLANES:
+                figs[(None, p, THERMAL_LO.key)], figs[(None, p, THERMAL_HI.key)] = c.thermal.m_range[p]
         figs[(None, None, FSR.key)] = c.fsr_hz
         figs[(None, None, ROUND_TRIP.key)] = c.round_trip_mm
         figs[(None, None, CIRCULATING.key)] = c.circulating_w
@@ -233,6 +240,19 @@ def beam_figures(bench: Bench) -> dict[str, Figures]:
             figs[(None, None, MODE_MATCH.key)] = b.mode_match
         figs.update(_path_figures(b))
         out[bid] = figs
+    return out
+
+
+def stray_figures(bench: Bench) -> dict[str, Figures]:
+    """Leak and secondary beams: their power and where they go."""
+    out: dict[str, Figures] = {}
+    for r in bench.solution.strays:
+        end = r.stray.end
+        out[r.stray.id] = {(None, None, POWER.key): r.power_w,
+                           (None, None, ENDS.key): end.zone_kind or end.kind,
+                           (None, None, END_ID.key): end.id,
+                           (None, None, END_S.key): end.length,
+                           (None, None, END_AT.key): (float(end.point[0]), float(end.point[1]))}
     return out
 
 
@@ -282,6 +302,7 @@ COMPARATORS: list[Comparator] = [
                at_word="on"),
     Comparator("cavities", "Cavities", "cavity", cavity_figures),
     Comparator("beams", "Beams", "beam", beam_figures),
+    Comparator("strays", "Leak and secondary beams", "leak beam", stray_figures),
     Comparator("optics", "Load on optics", "optic", optic_load_figures, optic_ids=True, lists_items=False),
 ]
 

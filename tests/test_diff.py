@@ -451,3 +451,21 @@ def test_a_fold_change(tmp_path, capsys):
     hr = one(doc, "placement", "at_mm", ident="HR")
     # HR is 700 mm beyond M3: turning the leg by 0.6 deg moves it by 2 x 700 x sin(0.3 deg) (chord)
     assert hr["moved_mm"] == pytest.approx(2 * 700.0 * math.sin(math.radians(0.3)), rel=1e-6)
+
+
+def test_a_leak_beam_gets_stronger(tmp_path, capsys):
+    """HR reflectivity 0.9995 -> 0.999 with 10 W circulating (1 W out of a 10 % coupler):
+    the leak through HR goes from 5 mW to 10 mW (P_circ x T, T = 1 - R; the beam-power
+    convention of the README)."""
+    old = write(tmp_path, "old.toml", plano_concave(200.0).replace("roc = 300.0", "roc = 300.0\nreflectivity = 0.9995"))
+    new = write(tmp_path, "new.toml", plano_concave(200.0).replace("roc = 300.0", "roc = 300.0\nreflectivity = 0.999"))
+    code, doc, _ = run_json(capsys, old, new)
+    leak = one(doc, "strays", "power_w", ident="laser/HR")
+    assert (leak["old"], leak["new"]) == (pytest.approx(10.0 * 0.0005), pytest.approx(10.0 * 0.001))
+
+
+def test_bad_threshold_options(tmp_path, capsys):
+    lay = write(tmp_path, "a.toml", plano_concave(200.0))
+    for args in (("--absolute", "microns=1"), ("--absolute", "um=-1"), ("--absolute", "um"), ("--relative", "-0.1")):
+        code, out, err = run(capsys, lay, lay, *args)
+        assert code == 2 and err.startswith("error: --") and "Traceback" not in err
