@@ -127,15 +127,16 @@ Figures = dict[tuple[str | None, str | None, str], Any]
 @dataclass(frozen=True)
 class Comparator:
     """One group of quantities: ``extract(bench)`` gives {item id: Figures} for a solved
-    bench.  ``noun`` names an item ("cavity"); ``optic_ids``: the items are optics (a
-    renamed optic is matched under its new id); ``at_optics``: the ``at`` keys are optic
-    ids (renames apply to them too); ``at_word`` joins item and ``at`` in text."""
+    bench.  ``noun`` names an item ("cavity"); ``rename(id, renames)`` gives an old item's
+    id after optics were renamed (None: ids are not optic ids); ``at_optics``: the ``at``
+    keys are optic ids (renames apply to them too); ``at_word`` joins item and ``at`` in
+    text."""
 
     key: str
     title: str
     noun: str
     extract: Callable[[Bench], dict[str, Figures]]
-    optic_ids: bool = False
+    rename: Callable[[str, Mapping[str, str]], str] | None = None
     at_optics: bool = True
     at_word: str = "at"
     #: items one side lacks are listed as added or removed; else (items that merely have
@@ -243,6 +244,18 @@ def beam_figures(bench: Bench) -> dict[str, Figures]:
     return out
 
 
+def _optic_id(ident: str, renames: Mapping[str, str]) -> str:
+    return renames.get(ident, ident)
+
+
+def _stray_id(ident: str, renames: Mapping[str, str]) -> str:
+    """A leak's id is parent/optic (and /out or /back): the optic part may be renamed."""
+    parts = ident.split("/")
+    if len(parts) > 1:
+        parts[1] = renames.get(parts[1], parts[1])
+    return "/".join(parts)
+
+
 def stray_figures(bench: Bench) -> dict[str, Figures]:
     """Leak and secondary beams: their power and where they go."""
     out: dict[str, Figures] = {}
@@ -298,12 +311,12 @@ def optic_load_figures(bench: Bench) -> dict[str, Figures]:
 #: The groups compared, in the order reports show them.  The laser-hazard figures, once
 #: the solved bench has them, are one more Comparator here (see the README).
 COMPARATORS: list[Comparator] = [
-    Comparator("placement", "Placement", "optic", placement_figures, optic_ids=True, at_optics=False,
+    Comparator("placement", "Placement", "optic", placement_figures, rename=_optic_id, at_optics=False,
                at_word="on"),
     Comparator("cavities", "Cavities", "cavity", cavity_figures),
     Comparator("beams", "Beams", "beam", beam_figures),
-    Comparator("strays", "Leak and secondary beams", "leak beam", stray_figures),
-    Comparator("optics", "Load on optics", "optic", optic_load_figures, optic_ids=True, lists_items=False),
+    Comparator("strays", "Leak and secondary beams", "leak beam", stray_figures, rename=_stray_id),
+    Comparator("optics", "Load on optics", "optic", optic_load_figures, rename=_optic_id, lists_items=False),
 ]
 
 
@@ -362,8 +375,8 @@ def compare_group(comp: Comparator, old: Bench | None, new: Bench | None, thresh
                   renames: Mapping[str, str]) -> GroupDiff:
     before = comp.extract(old) if old is not None else {}
     after = comp.extract(new) if new is not None else {}
-    if comp.optic_ids:
-        before = {renames.get(k, k): v for k, v in before.items()}
+    if comp.rename is not None:
+        before = {comp.rename(k, renames): v for k, v in before.items()}
     if comp.at_optics:
         before = {k: {(_rename(at, renames), p, q): v for (at, p, q), v in figs.items()}
                   for k, figs in before.items()}

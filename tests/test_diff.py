@@ -469,3 +469,16 @@ def test_bad_threshold_options(tmp_path, capsys):
     for args in (("--absolute", "microns=1"), ("--absolute", "um=-1"), ("--absolute", "um"), ("--relative", "-0.1")):
         code, out, err = run(capsys, lay, lay, *args)
         assert code == 2 and err.startswith("error: --") and "Traceback" not in err
+
+
+def test_a_renamed_mirror_keeps_its_leak(tmp_path, capsys):
+    leaky = plano_concave(200.0).replace("roc = 300.0", "roc = 300.0\nreflectivity = 0.999")
+    renamed = leaky.replace('id = "HR"', 'id = "END"').replace('path = ["HR"', 'path = ["END"')
+    assert renamed.count('"END"') == 2
+    old = write(tmp_path, "old.toml", leaky)
+    new = write(tmp_path, "new.toml", renamed)
+    code, doc, _ = run_json(capsys, old, new, *ALL_THRESHOLDS_ZERO)
+    lay = doc["layouts"][0]
+    assert lay["renamed_optics"] == [{"old": "HR", "new": "END"}]
+    assert all(g == {"added": [], "removed": [], "changes": []} for g in lay["groups"].values())
+    assert lay["findings"]["added"] == lay["findings"]["resolved"] == []
