@@ -209,25 +209,14 @@ def cmd_report(args) -> int:
 
 
 def cmd_diff(args) -> int:
-    from .config import DIFF_ABSOLUTE
     from .difftable import json_report, markdown_report, text_report
     from .revdiff import Options, diff_revision, diff_specs, exit_status
 
-    absolute = {}
-    for item in args.absolute or ():
-        unit, _, value = item.partition("=")
-        try:
-            absolute[unit.strip()] = float(value)
-        except ValueError:
-            absolute[unit.strip()] = -1.0
-        if unit.strip() not in DIFF_ABSOLUTE or not 0.0 <= absolute[unit.strip()] < float("inf"):
-            print(f"error: --absolute {item}: expected UNIT=NUMBER >= 0 with UNIT one of {', '.join(DIFF_ABSOLUTE)}",
-                  file=sys.stderr)
-            return EXIT_BAD_INPUT
-    if args.relative is not None and not 0.0 <= args.relative < float("inf"):
-        print(f"error: --relative {args.relative}: expected a fraction >= 0, e.g. 0.01", file=sys.stderr)
+    try:
+        opts = Options.from_command_line(args.config, args.relative, args.absolute or (), args.fail_on)
+    except ValueError as exc:
+        print(f"error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
-    opts = Options(args.config, args.relative, absolute, args.fail_on)
     if args.rev is not None:
         diffs = diff_revision(args.rev, args.specs, opts)
     elif len(args.specs) == 2:

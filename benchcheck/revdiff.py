@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Any, Callable, Mapping
 
 from .abcd import PLANES
-from .config import Config, find_config, load_config
+from .config import DIFF_ABSOLUTE, Config, find_config, load_config
 from .engine import FileResult, check_file, check_text, config_folder
 from .findings import SEVERITY_RANK, Bench, Finding
 from .gitread import GitError, changed_files, is_revision_spec, read_revision
@@ -269,43 +269,54 @@ def stray_figures(bench: Bench) -> dict[str, Figures]:
     return out
 
 
-def optic_load_figures(bench: Bench) -> dict[str, Figures]:
-    """Per optic, the worst one-way load any cavity or beam puts on its surfaces: peak
-    intensity 2P cos(aoi)/(pi w_t w_s), power over the smaller footprint diameter, peak
-    fluence, and the largest of these over the LIDT the optic names (as given: no safety
-    factor, no pulse-length scaling, no doubling for counter-propagating beams; the
-    coating-damage rule does those, and its findings are compared too)."""
-    from .rules.clipping import paths, surfaces
+def _hit_loads(bench: Bench, kind: str, ident: str, result, i: int) -> list[tuple[Quantity, float, float | None]]:
+    """(quantity, value on the worst surface, the LIDT figure of that kind or None) for hit
+    ``i`` of a cavity or beam: peak intensity 2P cos(aoi)/(pi w_t w_s), power over the
+    smaller footprint diameter, peak fluence; one-way, from the coating-damage rule's own
+    functions."""
+    from .plugins import _builtin_module
+
+    _builtin_module()           # the rule pack, also in a source checkout that was not installed
+    from .rules.clipping import surfaces
     from .rules.damage import _face_fluence, linear_power_density, surface_peak
 
-    worst: dict[str, dict[str, float]] = {}
+    hit = result.hits[i]
+    if hit.power_w is None and hit.peak_j_cm2 is None:
+        return []
+    faces = surfaces(bench, kind, ident, result, i)
+    if not faces:
+        return []
+    lidt = bench.layout.optics[hit.optic].lidt
+    out: list[tuple[Quantity, float, float | None]] = []
+    if hit.power_w is not None:
+        out.append((PEAK, max(surface_peak(hit.power_w, f.w_t, f.w_s, f.cos_face) for f in faces),
+                    lidt.w_cm2 if lidt else None))
+        out.append((LINEAR, max(linear_power_density(hit.power_w, f.w_t, f.w_s, f.cos_face) for f in faces),
+                    lidt.w_cm if lidt else None))
+    if hit.peak_j_cm2 is not None:
+        out.append((FLUENCE, max(_face_fluence(hit, f) for f in faces), lidt.j_cm2 if lidt else None))
+    return out
 
-    def keep(oid: str, key: str, value: float) -> None:
-        d = worst.setdefault(oid, {})
-        d[key] = max(d.get(key, value), value)
 
-    for kind, ident, result in paths(bench):
-        for i, hit in enumerate(result.hits):
-            faces = surfaces(bench, kind, ident, result, i) if (hit.power_w or hit.peak_j_cm2) else []
-            if not faces:
-                continue
-            lidt = bench.layout.optics[hit.optic].lidt
-            for f in faces:
-                if hit.power_w is not None:
-                    peak = surface_peak(hit.power_w, f.w_t, f.w_s, f.cos_face)
-                    linear = linear_power_density(hit.power_w, f.w_t, f.w_s, f.cos_face)
-                    keep(hit.optic, PEAK.key, peak)
-                    keep(hit.optic, LINEAR.key, linear)
-                    if lidt and lidt.w_cm2:
-                        keep(hit.optic, LOAD.key, peak / lidt.w_cm2)
-                    if lidt and lidt.w_cm:
-                        keep(hit.optic, LOAD.key, linear / lidt.w_cm)
-                if hit.peak_j_cm2 is not None:
-                    fluence = _face_fluence(hit, f)
-                    keep(hit.optic, FLUENCE.key, fluence)
-                    if lidt and lidt.j_cm2:
-                        keep(hit.optic, LOAD.key, fluence / lidt.j_cm2)
-    return {oid: {(None, None, k): v for k, v in d.items()} for oid, d in worst.items()}
+def optic_load_figures(bench: Bench) -> dict[str, Figures]:
+    """Per optic, the worst load any cavity or beam puts on its surfaces, and the largest of
+    these over the LIDT figure of the same kind, as given (no safety factor, no pulse-length
+    scaling, one-way: the coating-damage rule does those, and its findings are compared too)."""
+    worst: dict[str, Figures] = {}
+
+    def keep(oid: str, q: Quantity, value: float) -> None:
+        figs = worst.setdefault(oid, {})
+        key = (None, None, q.key)
+        figs[key] = max(figs.get(key, value), value)
+
+    for kind, paths in (("cavity", bench.solution.cavities), ("beam", bench.solution.beams)):
+        for ident, result in paths.items():
+            for i, hit in enumerate(result.hits):
+                for q, value, rated in _hit_loads(bench, kind, ident, result, i):
+                    keep(hit.optic, q, value)
+                    if rated:
+                        keep(hit.optic, LOAD, value / rated)
+    return worst
 
 
 #: The groups compared, in the order reports show them.  The laser-hazard figures, once
@@ -555,6 +566,25 @@ class Options:
     relative: float | None = None
     absolute: dict[str, float] = field(default_factory=dict)
     fail_on: str | None = None
+
+    @classmethod
+    def from_command_line(cls, config: str | None, relative: float | None, absolute: list[str],
+                          fail_on: str | None) -> "Options":
+        """``--absolute UNIT=VALUE`` items checked; ValueError says what was expected."""
+        limits: dict[str, float] = {}
+        for item in absolute:
+            unit, _, text = (x.strip() for x in item.partition("="))
+            try:
+                value = float(text)
+            except ValueError:
+                value = -1.0
+            if unit not in DIFF_ABSOLUTE or not 0.0 <= value < math.inf:
+                raise ValueError(f"--absolute {item}: expected UNIT=NUMBER >= 0 with UNIT one of "
+                                 f"{', '.join(DIFF_ABSOLUTE)}")
+            limits[unit] = value
+        if relative is not None and not 0.0 <= relative < math.inf:
+            raise ValueError(f"--relative {relative}: expected a fraction >= 0, e.g. 0.01")
+        return cls(config, relative, limits, fail_on)
 
 
 def _check(side: Side | None, config: Config, ruleset: RuleSet) -> FileResult | None:

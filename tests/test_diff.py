@@ -362,6 +362,16 @@ def repo(tmp_path, monkeypatch):
     return root
 
 
+def test_a_revision_against_the_same_working_tree_file_is_empty(repo, capsys):
+    code, doc, err = run_json(capsys, "HEAD:layouts/laser.toml", "layouts/laser.toml", *ALL_THRESHOLDS_ZERO)
+    assert code == 0, err
+    lay = doc["layouts"][0]
+    assert all(g == {"added": [], "removed": [], "changes": []} for g in lay["groups"].values())
+    assert lay["findings"] == {"added": [], "resolved": [], "changed": []}
+    code, doc, err = run_json(capsys, "--rev", "HEAD")
+    assert code == 0 and doc["layouts"] == []
+
+
 def test_two_revisions_of_a_file(repo, capsys):
     write(repo / "layouts", "laser.toml", plano_concave(230.0))
     git(repo, "commit", "-q", "-am", "longer cavity")
@@ -482,3 +492,20 @@ def test_a_renamed_mirror_keeps_its_leak(tmp_path, capsys):
     assert lay["renamed_optics"] == [{"old": "HR", "new": "END"}]
     assert all(g == {"added": [], "removed": [], "changes": []} for g in lay["groups"].values())
     assert lay["findings"]["added"] == lay["findings"]["resolved"] == []
+
+
+def test_load_on_the_end_mirror(tmp_path, capsys):
+    """One-way circulating power P = P_out / T_oc = 1 W / 0.1 = 10 W (README, power
+    convention); on HR at normal incidence the peak intensity of a round Gaussian is
+    2P / (pi w^2) (Siegman, Lasers 1986, ch. 17, from memory) and the linear power density
+    P / (2w) (the 1/e^2 diameter, vendor practice, from memory), w from Kogelnik & Li."""
+    old = write(tmp_path, "old.toml", plano_concave(200.0))
+    new = write(tmp_path, "new.toml", plano_concave(240.0))
+    code, doc, _ = run_json(capsys, old, new, *ALL_THRESHOLDS_ZERO)
+    power_w = 1.0 / 0.1
+    for side, length in (("old", 200.0), ("new", 240.0)):
+        w_cm = kogelnik_li(length)["w_HR"] * 1e-4
+        peak = one(doc, "optics", "peak_w_cm2", ident="HR")[side]
+        assert peak == pytest.approx(2.0 * power_w / (math.pi * w_cm ** 2), rel=1e-6)
+        load = one(doc, "optics", "load_over_lidt", ident="HR")[side]
+        assert load == pytest.approx(power_w / (2.0 * w_cm) / 1.0e4, rel=1e-6)     # LIDT 1e4 W/cm
