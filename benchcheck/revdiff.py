@@ -11,6 +11,7 @@ laser-hazard figures, say) is one extractor appended to ``COMPARATORS``.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Mapping
@@ -645,9 +646,14 @@ def diff_revision(rev: str, paths: list[str], opts: Options) -> list[LayoutDiff]
         except GitError as exc:
             out.append(LayoutDiff(f"{rev}:{ch.old}", ch.new, errors=[str(exc)]))
             continue
+        if old is not None and _FULL_HASH.fullmatch(rev):    # a merge base in CI: short, as git shows it
+            old = Side(f"{rev[:12]}:{ch.old}", old.data, old.path)
         new = None if ch.new is None else Side(_relative(root / ch.new), None, root / ch.new)
         out.append(diff_sides(old, new, opts))
     return out
+
+
+_FULL_HASH = re.compile(r"[0-9a-f]{40}|[0-9a-f]{64}")
 
 
 def _relative(path: Path) -> str:

@@ -415,6 +415,10 @@ def test_every_layout_changed_since_a_revision(repo, capsys):
     # limited to a path
     code, doc, err = run_json(capsys, "--rev", "HEAD", "layouts/laser.toml")
     assert [d["new"] for d in doc["layouts"]] == ["layouts/laser.toml"]
+    # a full commit hash (a merge base in CI) is shown short
+    sha = git(repo, "rev-parse", "HEAD").strip()
+    code, doc, err = run_json(capsys, "--rev", sha, "layouts/laser.toml")
+    assert [d["old"] for d in doc["layouts"]] == [f"{sha[:12]}:layouts/laser.toml"]
     # nothing changed there
     code, doc, err = run_json(capsys, "--rev", "HEAD", "notes.txt")
     assert code == 0 and doc["layouts"] == [] and doc["verdict"] == "No layout changed."
