@@ -11,6 +11,7 @@ import json
 import math
 from dataclasses import dataclass
 
+from .beamtable import _num as number
 from .findings import SAFETY_CAUTION, SEVERITY_RANK, Finding
 from .revdiff import Change, GroupDiff, LayoutDiff, exit_status
 
@@ -24,13 +25,13 @@ def _n(count: int, word: str, plural: str | None = None) -> str:
     return f"{count} {word if count == 1 else (plural or word + 's')}"
 
 
-def _num(x, digits: int = 9):
-    if x is None or isinstance(x, str):
+def _num(x):
+    """A JSON value: a number (9 digits, null for NaN), a point as [x, y], or a text."""
+    if isinstance(x, str):
         return x
     if isinstance(x, tuple):
-        return [_num(v, digits) for v in x]
-    x = float(x)
-    return None if math.isnan(x) or math.isinf(x) else float(f"{x:.{digits}g}")
+        return [number(v) for v in x]
+    return number(x)
 
 
 def _value(c: Change, v) -> str:
