@@ -47,11 +47,17 @@ def run_json(capsys, *args):
 def plano_concave(length: float, output_w: float = 1.0, extra: str = "", oc_id: str = "OC",
                   beam_to: str = "PM", pm_rating: float = 5.0) -> str:
     """HR (concave R1) at (100, 200); a flat output coupler ``length`` mm along +x; the
-    output goes 300 mm on to a power meter."""
+    output goes 300 mm on to a power meter.  The whole table is under a cover, so that the
+    layout is clean unless a test makes it otherwise."""
     return f"""format = 1
 [bench]
 name = "diff test"
 size = [2000, 600]
+
+[[zone]]
+id = "cover"
+kind = "enclosure"
+polygon = [[1, 1], [1999, 1], [1999, 599], [1, 599]]
 
 [[optic]]
 id = "HR"
