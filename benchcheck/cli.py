@@ -252,6 +252,29 @@ def cmd_tolerance(args) -> int:
     return tolerance_files(files, args)
 
 
+def cmd_diff(args) -> int:
+    from .difftable import json_report, markdown_report, text_report
+    from .revdiff import Options, diff_revision, diff_specs, exit_status
+
+    try:
+        opts = Options.from_command_line(args.config, args.relative, args.absolute or (), args.fail_on)
+    except ValueError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    if args.rev is not None:
+        diffs = diff_revision(args.rev, args.specs, opts)
+    elif len(args.specs) == 2:
+        diffs = [diff_specs(args.specs[0], args.specs[1], opts)]
+    else:
+        print("error: benchcheck diff takes OLD NEW (files or REV:path), or --rev REV [PATHS...]", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    for e in dict.fromkeys(e for d in diffs for e in d.errors):
+        print(e, file=sys.stderr)
+    report = {"text": text_report, "json": json_report, "markdown": markdown_report}[args.format]
+    sys.stdout.write(report(diffs))
+    return exit_status(diffs)
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="benchcheck",
@@ -341,6 +364,33 @@ def build_parser() -> argparse.ArgumentParser:
     tol.add_argument("--format", choices=("text", "json"), default="text")
     tol.add_argument("--config", metavar="FILE", help="configuration file (default: found walking up)")
     tol.set_defaults(func=cmd_tolerance)
+
+
+    diff = sub.add_parser(
+        "diff",
+        help="what an edit does: modes, margins, beam sizes, loads and findings of two revisions compared",
+        description="Compare two revisions of a layout, matched by id: placement, each cavity's half-trace, "
+                    "margin, status, Gouy phase, FSR, power, mode and waists, each beam's radii and end, the load "
+                    "on each optic, and the findings added, resolved or changed. Each side is a file or git's "
+                    "REV:path; --rev REV compares every layout changed since REV with the working tree. "
+                    "Exit status: 0, 1 when the new revision introduces a finding at or above the fail level, "
+                    "2 for unusable input.",
+    )
+    diff.add_argument("specs", nargs="*", metavar="OLD NEW | PATH",
+                      help="two layouts (file or REV:path); with --rev, the files or folders to limit it to")
+    diff.add_argument("--rev", metavar="REV", help="compare every layout changed between REV and the working tree")
+    diff.add_argument("--format", choices=("text", "json", "markdown"), default="text",
+                      help="text (default), json (format 1) or markdown (for a pull-request comment)")
+    diff.add_argument("--fail-on", choices=("error", "warning", "note"), default=None,
+                      help="lowest severity that fails (default: fail_on of the configuration, else error)")
+    diff.add_argument("--config", metavar="FILE", help="configuration for both sides (default: found walking up "
+                      "from the new side's path in the working tree)")
+    diff.add_argument("--relative", type=float, metavar="FRACTION",
+                      help="relative threshold (default: [diff] relative, else 0.01)")
+    diff.add_argument("--absolute", action="append", metavar="UNIT=VALUE",
+                      help="absolute threshold for one unit (fraction, um, mm, deg, hz, w, w_cm2, w_cm, j_cm2); "
+                           "repeatable")
+    diff.set_defaults(func=cmd_diff)
 
     rules = sub.add_parser("rules", help="list every rule with its plugin, severity, options and explanation")
     rules.add_argument("--format", choices=("text", "json"), default="text")

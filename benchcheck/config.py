@@ -76,11 +76,26 @@ EXPOSURE = {
     "invisible_s": (10.0, "s", "exposure duration outside 400-700 nm (common practice for unintended viewing)"),
 }
 MPE_KEYS = {"w_cm2": "W/cm^2", "j_cm2": "J/cm^2", "aperture_mm": "mm"}
-TOP_KEYS = ("fail_on", "plugins", "limits", "exposure", "rules", "rule_timeout_s", "tolerances")
+TOP_KEYS = ("fail_on", "plugins", "limits", "exposure", "rules", "rule_timeout_s", "tolerances", "diff")
 #: a configuration is a few KiB; anything far larger is not one (and is not read into memory)
 MAX_CONFIG_BYTES = 1024 * 1024
 #: how long one plugin step (an import, the hook, one rule on one layout) may take, s
 RULE_TIMEOUT_S = 60.0
+#: ``benchcheck diff`` shows a change of a number only when it exceeds both the relative
+#: threshold (a fraction of the larger of the old and new value) and the absolute one of
+#: its unit.  Defaults and meaning; set in [diff] and [diff.absolute].
+DIFF_RELATIVE = (0.01, "fraction of the larger of the old and new value")
+DIFF_ABSOLUTE = {
+    "fraction": (1e-4, "half-trace m, margin 1-|m|, mode match, load over LIDT"),
+    "um": (0.1, "mode and beam radii, waist radii"),
+    "mm": (0.01, "positions of optics, waists and beam ends; round-trip length"),
+    "deg": (0.01, "folds, facing of optics, Gouy phase"),
+    "hz": (0.0, "free spectral range"),
+    "w": (0.0, "powers"),
+    "w_cm2": (0.0, "peak intensities"),
+    "w_cm": (0.0, "linear power densities"),
+    "j_cm2": (0.0, "peak fluences"),
+}
 RULE_KEYS = ("enabled", "severity")
 
 
@@ -100,6 +115,9 @@ class Config:
     plugins_loc: Loc | None = None
     #: the lab's build tolerances ([tolerances]); source "none" when the section is absent
     tolerances: tolspec.Tolerances = field(default_factory=tolspec.Tolerances)
+    #: thresholds of ``benchcheck diff``: {"relative": float, "absolute": {unit: float}}
+    diff: dict = field(default_factory=lambda: {"relative": DIFF_RELATIVE[0],
+                                                "absolute": {k: v[0] for k, v in DIFF_ABSOLUTE.items()}})
 
     def enabled(self, rule_id: str) -> bool:
         return self.rules.get(rule_id, {}).get("enabled", True)
@@ -259,6 +277,7 @@ def _parse(doc: dict, file: str, positions: dict, prefix: tuple) -> Config:
             raise fail(("limits", key), f"limits.{key} must be a non-negative number in {LIMITS[key][1]}")
         cfg.limits[key] = float(value)
     cfg.exposure = _exposure(doc.get("exposure", {}), fail, unknown)
+    _parse_diff(doc.get("diff", {}), cfg, fail, unknown)
     rules = doc.get("rules", {})
     if not isinstance(rules, dict):
         raise fail(("rules",), "[rules] must hold one table per rule id, e.g. [rules.coating-damage]")
@@ -354,3 +373,25 @@ def _tolerances(table, fail, unknown) -> tolspec.Tolerances:
             raise unknown(key, tolspec.SECTION_KEYS, "[tolerances]", path)
     return tolspec.Tolerances(values, distribution, margin, tolspec.FROM_CONFIG)
 
+
+def _parse_diff(table, cfg: Config, fail, unknown) -> None:
+    def number(value, path: tuple, what: str) -> float:
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not value >= 0 or value == float("inf"):
+            raise fail(path, f"{what} must be a non-negative number")
+        return float(value)
+
+    if not isinstance(table, dict):
+        raise fail(("diff",), "[diff] must be a table")
+    for key, value in table.items():
+        if key == "relative":
+            cfg.diff["relative"] = number(value, ("diff", key), f"diff.relative ({DIFF_RELATIVE[1]})")
+        elif key == "absolute":
+            if not isinstance(value, dict):
+                raise fail(("diff", key), "[diff.absolute] must be a table of thresholds by unit")
+            for unit, v in value.items():
+                if unit not in DIFF_ABSOLUTE:
+                    raise unknown(unit, DIFF_ABSOLUTE, "[diff.absolute]", ("diff", key, unit))
+                cfg.diff["absolute"][unit] = number(v, ("diff", key, unit),
+                                                    f"diff.absolute.{unit} ({DIFF_ABSOLUTE[unit][1]})")
+        else:
+            raise unknown(key, ("relative", "absolute"), "[diff]", ("diff", key))

@@ -19,7 +19,7 @@ from typing import Any, Callable
 
 from .config import Config, find_config, load_config
 from .findings import SEVERITIES, WARNING, Bench, Finding, Rule
-from .loader import load_path
+from .loader import load_bytes, load_path, load_text
 from .model import LayoutError, Loc
 from .plugins import BUILTIN, RuleSet, describe, load_rules, raised
 from .solve import solve_layout
@@ -282,7 +282,21 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
                today: _dt.date | None = None, *, skip: frozenset[str] = frozenset(),
                progress: Callable[[str], None] | None = None) -> FileResult:
     """Load, solve and check one layout; unusable input is an error, never an exception."""
-    name = str(path)
+    return _check(str(path), lambda: load_path(path), Path(path), config, ruleset, today, skip, progress)
+
+
+def check_text(data: str | bytes, file: str, config: Config | None = None, ruleset: RuleSet | None = None,
+               today: _dt.date | None = None) -> FileResult:
+    """The same for a layout that is not a file of the working tree (a git revision's
+    text): ``file`` names it in messages; the configuration is the caller's (default: the
+    built-in one), since a text has no folder to find one from."""
+    load = (lambda: load_bytes(data, file)) if isinstance(data, bytes) else (lambda: load_text(data, file))
+    return _check(file, load, None, config or Config(), ruleset, today)
+
+
+def _check(name: str, load, path: Path | None, config: Config | None, ruleset: RuleSet | None,
+           today: _dt.date | None, skip: frozenset[str] = frozenset(),
+           progress: Callable[[str], None] | None = None) -> FileResult:
     try:
         if config is None:
             config = load_config(find_config(path))
@@ -292,7 +306,7 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
     except LayoutError as exc:      # the configuration, not the layout
         return FileResult(name, errors=[str(exc)])
     try:
-        layout = load_path(path)
+        layout = load()
         solution = solve_layout(layout)
     except LayoutError as exc:
         return FileResult(name, errors=[str(exc)], unreadable=True)
