@@ -320,8 +320,44 @@ def optic_load_figures(bench: Bench) -> dict[str, Figures]:
     return worst
 
 
-#: The groups compared, in the order reports show them.  The laser-hazard figures, once
-#: the solved bench has them, are one more Comparator here (see the README).
+RATIO = quantity("exposure_over_mpe", "exposure / MPE", power=True)
+NOHD = quantity("nohd_mm", "hazard distance (NOHD)", "mm", "mm", power=True)
+OD = quantity("od_required", "eyewear OD", tol=None, power=True)
+OPEN = quantity("inside_enclosure", "inside an enclosure", tol=None, power=True)
+PROBLEM = quantity("hazard_problem", "cannot be judged", tol=None, power=True)
+CLASS = quantity("class_estimate", "class estimate", tol=None, power=True)
+
+
+def _segment_id(ident: str, renames: Mapping[str, str]) -> str:
+    """Hazard segments are named parent:A-B (A, B optics, or the source or cavity first),
+    parent:A-onward, or like a stray parent/optic: the optic parts may be renamed."""
+    if ":" not in ident:
+        return _stray_id(ident, renames)
+    parent, rest = ident.split(":", 1)
+    if rest.endswith("-onward"):
+        return f"{parent}:{renames.get(rest[:-7], rest[:-7])}-onward"
+    for k in range(len(rest)):
+        if rest[k] == "-" and (rest[:k] in renames or rest[k + 1:] in renames):
+            return f"{parent}:{renames.get(rest[:k], rest[:k])}-{renames.get(rest[k + 1:], rest[k + 1:])}"
+    return ident
+
+
+def hazard_figures(bench: Bench) -> dict[str, Figures]:
+    """Per segment of beam (README "Laser hazards"): exposure over the MPE, eyewear OD,
+    hazard distance, whether an enclosure holds it, and why it cannot be judged; per source
+    and cavity output its class estimate."""
+    out: dict[str, Figures] = {}
+    for seg in bench.hazards.segments:
+        nohd = seg.nohd_mm if seg.nohd_mm is None or seg.nohd_mm != float("inf") else 1e12
+        out[seg.id] = {(None, None, RATIO.key): seg.ratio, (None, None, NOHD.key): nohd,
+                       (None, None, OD.key): seg.od, (None, None, OPEN.key): seg.inside_enclosure,
+                       (None, None, PROBLEM.key): seg.problem}
+    for src in bench.hazards.sources:
+        out[f"{src.id} (class)"] = {(None, None, CLASS.key): src.class_estimate}
+    return out
+
+
+#: The groups compared, in the order reports show them.
 COMPARATORS: list[Comparator] = [
     Comparator("placement", "Placement", "optic", placement_figures, rename=_optic_id, at_optics=False,
                at_word="on"),
@@ -329,6 +365,7 @@ COMPARATORS: list[Comparator] = [
     Comparator("beams", "Beams", "beam", beam_figures),
     Comparator("strays", "Leak and secondary beams", "leak beam", stray_figures, rename=_stray_id),
     Comparator("optics", "Load on optics", "optic", optic_load_figures, rename=_optic_id, lists_items=False),
+    Comparator("hazards", "Laser hazards", "segment", hazard_figures, rename=_segment_id),
 ]
 
 

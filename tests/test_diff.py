@@ -519,3 +519,22 @@ def test_load_on_the_end_mirror(tmp_path, capsys):
         assert peak == pytest.approx(2.0 * power_w / (math.pi * w_cm ** 2), rel=1e-6)
         load = one(doc, "optics", "load_over_lidt", ident="HR")[side]
         assert load == pytest.approx(power_w / (2.0 * w_cm) / 1.0e4, rel=1e-6)     # LIDT 1e4 W/cm
+
+
+def test_lifting_the_cover_shows_in_the_hazard_figures(tmp_path, capsys):
+    """The same laser with its cover removed: every segment leaves the enclosure, and the
+    output beam (1 W at 1064 nm over open bench) fails the open-beam rule, so the revision
+    introduces an error. The segment's exposure over the MPE is unchanged (the beam is the
+    same); what changes is whether it is enclosed."""
+    covered = plano_concave(200.0)
+    lifted = covered.replace('kind = "enclosure"', 'kind = "keepout"').replace(
+        "polygon = [[1, 1], [1999, 1], [1999, 599], [1, 599]]", "polygon = [[1, 560], [1999, 560], [1999, 599], [1, 599]]")
+    old = write(tmp_path, "old.toml", covered)
+    new = write(tmp_path, "new.toml", lifted)
+    code, doc, _ = run_json(capsys, old, new)
+    assert code == 1
+    enclosed = one(doc, "hazards", "inside_enclosure", ident="out:laser-PM")
+    assert (enclosed["old"], enclosed["new"]) == (True, False)
+    assert any(f["rule"] == "open-beam" for f in doc["layouts"][0]["findings"]["added"])
+    code, out, _ = run(capsys, old, new, "--format", "markdown")
+    assert "Laser hazards" in out and "laser safety officer" in out
