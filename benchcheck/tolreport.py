@@ -4,6 +4,7 @@
 from __future__ import annotations
 
 from . import tolspec
+from .findings import SAFETY_CAUTION
 from .abcd import PLANES
 from .alignment import alignment_json
 from .tolerance import PERCENTILES, wilson_interval
@@ -58,6 +59,7 @@ def tolerance_json(file: str, results: list, samples: int, seed: int, tolerances
         "sensitivity_method": METHOD,
         "cavities": [cavity_json(r) for r in results],
         "notes": notes,
+        "caution": SAFETY_CAUTION,
     }
 
 
@@ -108,4 +110,6 @@ def tolerance_text(file: str, results: list, samples: int, seed: int, tolerances
             for r in res.alignment:
                 worst = max(r.shift_um_per_urad.items(), key=lambda kv: abs(kv[1]))
                 lines.append(f"    {r.mirror:<10} {r.plane}: {abs(worst[1]):.3g} at {worst[0]}")
+    if any("circulating_w" in (res.coupling or {}) for res in results):
+        lines.append(SAFETY_CAUTION)      # power figures are shown
     return "\n".join(lines) + "\n"

@@ -449,3 +449,13 @@ def test_an_unreadable_layout_is_never_called_clean(tmp_path, capsys):
     assert main(["check", str(path), "--jobs", "1"]) == 2
     out = capsys.readouterr().out
     assert "not a safety approval" not in out and "laser safety officer" in out
+
+
+def test_tolerance_output_with_power_figures_carries_the_caution(capsys):
+    """The tolerance run of a passive cavity prints circulating-power percentiles."""
+    from pathlib import Path
+    bowtie = Path(__file__).resolve().parent.parent / "layouts" / "bowtie-enhancement.toml"
+    assert main(["tolerance", str(bowtie), "--samples", "200"]) == 0
+    assert "laser safety officer" in capsys.readouterr().out
+    assert main(["tolerance", str(bowtie), "--samples", "200", "--format", "json"]) == 0
+    assert "laser safety officer" in json.loads(capsys.readouterr().out)["caution"]
