@@ -25,13 +25,10 @@ import pytest
 
 from benchcheck import solve_text
 from benchcheck.cli import main
-from benchcheck.config import Config
-from benchcheck.findings import Bench
 from benchcheck.hazards import assess
-from benchcheck.plugins import load_rules
 from layouts_util import beam, cavity, layout, mirror, optic, rel, source
+from test_rule_safety import run  # one rule on a solved layout, limits overridden
 
-RULES = load_rules(entry_points=False).rules
 APERTURE_MM = 7.0
 
 
@@ -49,14 +46,6 @@ def through_aperture(power: float, w_mm: float, d_mm: float = APERTURE_MM) -> fl
     """Aperture-averaged irradiance (W/m^2) of a round Gaussian beam, computed here."""
     a = d_mm / 2.0
     return power * (1.0 - math.exp(-2.0 * a * a / (w_mm * w_mm))) / (math.pi * (a * 1e-3) ** 2)
-
-
-def run(rule_id: str, text: str, **limits):
-    sol = solve_text(text)
-    lim = dict(Config().limits)
-    lim.update(limits)
-    rule = RULES[rule_id][0]
-    return list(rule.check(Bench(sol.layout, sol, lim), rule.defaults()))
 
 
 WALKWAY = '[[zone]]\nid = "walkway"\nkind = "keepout"\npolygon = [[0, 0], [1200, 0], [1200, 60], [0, 60]]\n'
