@@ -12,6 +12,7 @@ import math
 from .abcd import PLANES, SAGITTAL, TANGENTIAL
 from .resonator import STATUS_LABEL, STATUS_TEXT
 from .solve import BeamResult, CavityResult, HitResult, Solution, StrayResult
+from .textsafe import one_line
 
 JSON_FORMAT = 1
 SAFETY_CAUTION = (
@@ -267,4 +268,4 @@ def solution_text(sol: Solution) -> str:
         lines += ["notes:"] + [f"  {n}" for n in sol.notes] + [""]
     if any(c.circulating_w for c in sol.cavities.values()) or any(b.power_w for b in sol.beams.values()):
         lines.append(SAFETY_CAUTION)
-    return "\n".join(lines).rstrip() + "\n"
+    return "\n".join(one_line(line) for line in lines).rstrip() + "\n"

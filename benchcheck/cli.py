@@ -15,6 +15,7 @@ from pathlib import Path
 from . import __version__
 from .beamtable import solution_json, solution_text
 from .model import LayoutError
+from .textsafe import one_line
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
@@ -138,7 +139,7 @@ def cmd_check(args) -> int:
     except LayoutError:
         rules = {}
     for e in dict.fromkeys(e for r in results for e in r.errors):   # a bad configuration once, not per file
-        print(e, file=sys.stderr)
+        print(one_line(e), file=sys.stderr)
     report = {"text": text_report, "json": json_report, "sarif": sarif_report, "github": github_report}[args.format]
     sys.stdout.write(report(results, rules))
     return exit_status(results)

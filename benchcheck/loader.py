@@ -62,7 +62,7 @@ MOUNT_KEYS = ("size",)
 LIDT_KEYS = ("w_cm", "w_cm2", "j_cm2", "pulse_s", "wavelength_nm")
 SUBSTRATE_KEYS = ("thickness", "index")
 FACES = ("normal", "brewster")
-_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.\-]*$")
+_ID = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.\-]*")
 #: Coordinates and lengths beyond this (mm) are typing errors, not benches.
 MAX_EXTENT_MM = 1.0e6
 #: Any number beyond this magnitude is rejected before it can overflow the arithmetic.
@@ -71,6 +71,10 @@ MAX_MAGNITUDE = 1.0e15
 MIN_MAGNITUDE = 1.0e-12
 #: Smallest waist radius (mm): far below it the paraxial Gaussian beam does not apply.
 MIN_WAIST_MM = 1.0e-4
+#: Largest |fold| (degrees) at a mirror or splitter: 178 is an angle of incidence of 89
+#: degrees, as for a plate's aoi.  Nearer 180 a fold is grazing incidence, and at 180 the
+#: beam would go on undeviated, as if it passed through the mirror.
+MAX_FOLD_DEG = 178.0
 #: Smallest radius of curvature or focal length (mm) taken seriously.
 MIN_FOCAL_MM = 1.0e-3
 #: Wavelengths accepted, nm: from the far UV to the far infrared.
@@ -142,6 +146,8 @@ def load_text(text: str, file: str = "<layout>") -> Layout:
         raise _syntax_error(exc, text, file) from None
     except RecursionError:  # pragma: no cover - _too_deep catches these first
         raise LayoutError("the layout is nested too deeply to read", Loc(file, 1, 1)) from None
+    except ValueError:  # an integer beyond Python's int-string limit (about 4,300 digits)
+        raise _long_integer(text, file) from None
     try:
         positions = key_positions(text)
     except Exception:  # the scanner must never turn a good file into a crash
@@ -196,6 +202,17 @@ def _too_deep(text: str):
             depth = max(0, depth - 1)
         i += 1
     return None
+
+
+def _long_integer(text: str, file: str) -> LayoutError:
+    """The error for a number too long to convert, at the first run of that many digits."""
+    limit = sys.get_int_max_str_digits() if hasattr(sys, "get_int_max_str_digits") else 4300
+    found = re.search(r"[0-9][0-9_]{%d,}" % max(limit - 1, 1), text)
+    offset = found.start() if found else 0
+    line = text.count("\n", 0, offset) + 1
+    col = offset - (text.rfind("\n", 0, offset) + 1) + 1
+    return LayoutError(f"a number with more than {limit} digits; no quantity in a layout needs that many",
+                       Loc(file, line, col))
 
 
 def _syntax_error(exc: Exception, text: str, file: str) -> LayoutError:
@@ -348,6 +365,15 @@ class _Reader:
             raise self.fail(path, f"{self.name(path)} = {x:g} nm is outside {lo:g} to {hi:g} nm")
         return x
 
+    def fold(self, value: Any, path: tuple) -> float:
+        x = self.number(value, path, "degrees")
+        if abs(x) > MAX_FOLD_DEG:
+            raise self.fail(path, f"{self.name(path)} = {value} degrees is beyond +-{MAX_FOLD_DEG:g}: the fold is the "
+                                  "full angle between the arriving and leaving beam (0 sends it back, 90 is a 45-degree "
+                                  f"mirror); +-180 would pass the beam on undeviated and beyond +-{MAX_FOLD_DEG:g} the "
+                                  f"incidence is grazing (over {MAX_FOLD_DEG / 2:g} degrees)")
+        return x
+
     def string(self, value: Any, path: tuple, choices: tuple | None = None) -> str:
         label = self.name(path)
         if not isinstance(value, str):
@@ -361,7 +387,7 @@ class _Reader:
 
     def ident(self, value: Any, path: tuple) -> str:
         s = self.string(value, path)
-        if not _ID.match(s):
+        if not _ID.fullmatch(s):
             raise self.fail(path, f"{self.name(path)} must be an id of letters, digits, '_', '-' or '.', "
                                   f"starting with a letter or digit; found \"{s}\"")
         return s
@@ -519,7 +545,7 @@ class _Reader:
             if key in value:
                 fields[key] = self.fraction(value[key], p(key))
         if "fold" in value:
-            fields["fold"] = self.number(value["fold"], p("fold"), "degrees", low=-180.0, high=180.0)
+            fields["fold"] = self.fold(value["fold"], p("fold"))
         if "substrate" in value:
             s = self.table(value["substrate"], p("substrate"), SUBSTRATE_KEYS, f"the substrate of \"{ident}\"")
             if "thickness" in s:
@@ -611,6 +637,12 @@ class _Reader:
         f["waist_t"], f["waist_s"] = self._pair(t, "waist", path, what, "mm", low=0.0, low_open=True, default=None,
                                                 tiny=MIN_WAIST_MM)
         f["m2_t"], f["m2_s"] = self._pair(t, "m2", path, what, "", low=1.0, default=1.0)
+        smallest = f["wavelength_nm"] * 1e-6
+        for key, w in (("waist", f["waist_t"]), ("waist_t", f["waist_t"]), ("waist_s", f["waist_s"])):
+            if key in t and w < smallest:
+                raise self.fail(p(key), f"{what}: {key} = {w:g} mm is smaller than the wavelength ({smallest:g} mm); "
+                                        "a Gaussian beam that small spreads too fast for the paraxial beam "
+                                        "formulas (its far-field angle lambda/(pi w0) nears a radian)")
         if "waist_at" in t:
             f["waist_at"] = self.number(t["waist_at"], p("waist_at"), "mm")
         if "note" in t:
@@ -644,7 +676,7 @@ class _Reader:
                 ident = self.ident(self.require(t, "id", ip, f"a path entry of {what}"), ip + ("id",))
                 dist = (self.number(t["distance"], ip + ("distance",), "mm", low=0.0, low_open=True, high=MAX_EXTENT_MM)
                         if "distance" in t else None)
-                fold = self.number(t["fold"], ip + ("fold",), "degrees", low=-180.0, high=180.0) if "fold" in t else None
+                fold = self.fold(t["fold"], ip + ("fold",)) if "fold" in t else None
             else:
                 ident = self.ident(item, ip)
                 dist = fold = None
