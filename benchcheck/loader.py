@@ -11,7 +11,9 @@ from __future__ import annotations
 import datetime as _dt
 import difflib
 import math
+import os
 import re
+import stat
 import sys
 from pathlib import Path
 from typing import Any, Iterable
@@ -93,15 +95,34 @@ SYNONYMS = {
 }
 
 
+#: Largest layout file read (bytes): a hand-written bench of thousands of optics is well
+#: under 1 MiB; anything far larger is not a layout and is refused before it is read.
+MAX_LAYOUT_BYTES = 8 * 1024 * 1024
+#: Most points in one polygon (zone or obstacle outline).
+MAX_POLYGON_POINTS = 1000
+
+
 def load_path(path: str | Path) -> Layout:
     """Load and validate a layout file; raises ``LayoutError`` for anything unusable."""
     name = str(path)
     try:
-        data = Path(path).read_bytes()
+        info = os.stat(path)
+        if stat.S_ISDIR(info.st_mode):
+            raise IsADirectoryError
+        if not stat.S_ISREG(info.st_mode):
+            raise LayoutError("is not a regular file (a device, pipe or socket); a layout is a TOML text file",
+                              file=name)
+        if info.st_size > MAX_LAYOUT_BYTES:
+            raise LayoutError(f"is {info.st_size / 2**20:.1f} MiB; layouts larger than "
+                              f"{MAX_LAYOUT_BYTES // 2**20} MiB are not read", file=name)
+        with open(path, "rb") as fh:
+            data = fh.read(MAX_LAYOUT_BYTES + 1)
     except IsADirectoryError:
         raise LayoutError("is a folder, not a layout file", file=name) from None
     except OSError as exc:
         raise LayoutError(f"cannot read the file: {exc.strerror or exc}", file=name) from None
+    if len(data) > MAX_LAYOUT_BYTES:   # it grew while being read
+        raise LayoutError(f"layouts larger than {MAX_LAYOUT_BYTES // 2**20} MiB are not read", file=name)
     return load_bytes(data, name)
 
 
@@ -403,6 +424,9 @@ class _Reader:
     def polygon(self, value: Any, path: tuple) -> tuple[tuple[float, float], ...]:
         if not isinstance(value, list) or len(value) < 3:
             raise self.fail(path, f"{self.name(path)} must be an array of at least 3 points [[x, y], ...] in mm")
+        if len(value) > MAX_POLYGON_POINTS:
+            raise self.fail(path, f"{self.name(path)} has {len(value)} points; at most {MAX_POLYGON_POINTS} are "
+                                  "accepted (a footprint or zone needs a few)")
         return tuple(self.point(p, path + (i,)) for i, p in enumerate(value))
 
     def array_of_tables(self, doc: dict, key: str) -> list:

@@ -131,3 +131,38 @@ def test_an_integer_of_thousands_of_digits_is_a_located_error(tmp_path):
     assert code == 2
     msg = _one_located_error(err, _line_of(text, "roc = 333"))
     assert "digits" in msg
+
+
+# -- item 6: input limits --------------------------------------------------------------------
+
+def test_a_named_fifo_is_refused_without_reading_it(tmp_path):
+    import os
+    fifo = tmp_path / "pipe.toml"
+    os.mkfifo(fifo)
+    code, out, err = run_inprocess(["beams", str(fifo)])     # would block forever if opened
+    assert code == 2
+    assert err.strip() == f"{fifo}: error: is not a regular file (a device, pipe or socket); a layout is a TOML text file"
+
+
+def test_dev_zero_is_refused():
+    code, out, err = run_inprocess(["beams", "/dev/zero"])
+    assert code == 2 and "not a regular file" in err
+
+
+def test_a_file_over_the_size_limit_is_refused_before_reading(tmp_path):
+    from benchcheck.loader import MAX_LAYOUT_BYTES
+    big = tmp_path / "big.toml"
+    with open(big, "wb") as fh:
+        fh.truncate(MAX_LAYOUT_BYTES + 1)       # sparse: nothing would be read quickly
+    code, out, err = run_inprocess(["beams", str(big)])
+    assert code == 2 and "MiB are not read" in err and len(err.splitlines()) == 1
+
+
+def test_a_polygon_with_too_many_points_is_a_located_error(tmp_path):
+    from benchcheck.loader import MAX_POLYGON_POINTS
+    pts = ", ".join(f"[{i % 800}, {(i * 7) % 280}]" for i in range(MAX_POLYGON_POINTS + 1))
+    text = one_change("polygon = [[0, 280], [800, 280], [800, 300], [0, 300]]", f"polygon = [{pts}]")
+    _, (code, out, err) = _run(tmp_path, text)
+    assert code == 2
+    msg = _one_located_error(err, _line_of(text, "polygon = [[0, 0]"))
+    assert f"at most {MAX_POLYGON_POINTS}" in msg
