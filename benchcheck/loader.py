@@ -176,53 +176,40 @@ def load_text(text: str, file: str = "<layout>") -> Layout:
     return _Reader(file, positions, doc).layout(doc)
 
 
+#: What brackets inside are not structure: comments and strings of every kind (an
+#: unterminated one runs to the end of its line, or of the file for a multi-line one).
+_NOT_STRUCTURE = re.compile(
+    r'#[^\n]*'
+    r'|"""[^"\\]*(?:(?:\\[\s\S]|"(?!""))[^"\\]*)*(?:""""{0,2}|\Z)'
+    r"|'''[^']*(?:'(?!'')[^']*)*(?:''''{0,2}|\Z)"
+    r'|"[^"\\\n]*(?:\\.[^"\\\n]*)*(?:"|\\?(?=\n)|\\?\Z)'
+    r"|'[^'\n]*(?:'|(?=\n)|\Z)"
+)
+
+
 def _too_deep(text: str):
     """(line, column) where brackets outside strings and comments first nest too deep.
 
-    A rough scan that only needs to be right for files that nest absurdly deep: it
-    follows quotes and comments well enough not to count brackets inside them.
+    A rough scan that only needs to be right for files that nest absurdly deep: strings
+    and comments are blanked with one regular expression, then the depth is a running sum
+    over the brackets (numpy), floored at zero as a stray closing bracket does not nest.
     """
-    depth = 0
-    line, col = 1, 0
-    i, n = 0, len(text)
-    quote = None
-    while i < n:
-        ch = text[i]
-        col += 1
-        if ch == "\n":
-            line, col = line + 1, 0
-            if quote in ('"', "'"):
-                quote = None
-        elif quote:
-            if ch == "\\" and quote in ('"', '"""'):
-                i += 2
-                col += 1
-                continue
-            if text.startswith(quote, i):
-                i += len(quote)
-                col += len(quote) - 1
-                quote = None
-                continue
-        elif ch == "#":
-            end = text.find("\n", i)
-            if end < 0:
-                break
-            col += end - i - 1
-            i = end
-            continue
-        elif ch in "\"'":
-            quote = ch * 3 if text.startswith(ch * 3, i) else ch
-            i += len(quote)
-            col += len(quote) - 1
-            continue
-        elif ch in "[{":
-            depth += 1
-            if depth > MAX_NESTING:
-                return line, col
-        elif ch in "]}":
-            depth = max(0, depth - 1)
-        i += 1
-    return None
+    if text.count("[") + text.count("{") <= MAX_NESTING:
+        return None
+    blanked = _NOT_STRUCTURE.sub(lambda m: " " * len(m.group()), text)
+    import numpy as np
+
+    raw = blanked.encode("utf-8")        # brackets are ASCII: one byte, never part of another character
+    chars = np.frombuffer(raw, dtype=np.uint8)
+    opens = (chars == ord("[")) | (chars == ord("{"))
+    at = np.flatnonzero(opens | (chars == ord("]")) | (chars == ord("}")))
+    total = np.cumsum(np.where(opens[at], 1, -1))
+    depth = total - np.minimum(np.minimum.accumulate(total), 0)
+    deep = np.flatnonzero(depth > MAX_NESTING)
+    if deep.size == 0:
+        return None
+    offset = len(raw[: int(at[deep[0]])].decode("utf-8"))
+    return text.count("\n", 0, offset) + 1, offset - (text.rfind("\n", 0, offset) + 1) + 1
 
 
 def _long_integer(text: str, file: str) -> LayoutError:

@@ -166,3 +166,15 @@ def test_a_polygon_with_too_many_points_is_a_located_error(tmp_path):
     assert code == 2
     msg = _one_located_error(err, _line_of(text, "polygon = [[0, 0]"))
     assert f"at most {MAX_POLYGON_POINTS}" in msg
+
+
+@pytest.mark.parametrize("quoted", ['"[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[\\"[["', "'[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[['",
+                                    '"""\n[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[\n"""', "'''[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[['''",
+                                    "0 # [[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[["])
+def test_the_nesting_check_skips_strings_and_comments(quoted):
+    from benchcheck.loader import MAX_NESTING, _too_deep
+    text = f"a = {quoted}\nb = " + "[" * MAX_NESTING + "]" * MAX_NESTING + "\n"
+    assert _too_deep(text) is None
+    deeper = text + "c = [" + "[" * MAX_NESTING + "1" + "]" * (MAX_NESTING + 1) + "\n"
+    line = deeper.count("\n")
+    assert _too_deep(deeper) == (line, 5 + MAX_NESTING)     # the first bracket past the limit
