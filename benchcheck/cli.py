@@ -13,7 +13,6 @@ import sys
 from pathlib import Path
 
 from . import __version__
-from .beamtable import solution_json, solution_text
 from .model import LayoutError
 from .textsafe import one_line
 
@@ -48,6 +47,7 @@ def _no_layouts(paths: list[str]) -> int:
 
 def cmd_beams(args) -> int:
     from .api import solve_file
+    from .beamtable import solution_json, solution_text
 
     files = _layout_files(args.layouts)
     if not files:
@@ -108,8 +108,6 @@ def _check_one(job):
 
 
 def cmd_check(args) -> int:
-    from concurrent.futures import ProcessPoolExecutor
-
     from .config import find_config, load_config
     from .engine import config_folder
     from .plugins import load_rules
@@ -124,6 +122,8 @@ def cmd_check(args) -> int:
     jobs = [(str(f), args.config, None) for f in files]
     n = min(args.jobs or workers(), len(jobs))
     if n > 1:
+        from concurrent.futures import ProcessPoolExecutor   # not needed (nor imported) for one file
+
         with ProcessPoolExecutor(max_workers=n) as pool:
             done = list(pool.map(_check_one, jobs))
     else:
