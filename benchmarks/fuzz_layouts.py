@@ -1,7 +1,7 @@
 """Fuzz `benchcheck check` with mutated demo layouts; prints what it finds; not a test.
 
 Each mutant is a demo layout with one to three random edits (a line dropped or doubled,
-a number replaced by an extreme value, a control character put into a string, a bracket
+a number replaced by an extreme value or scaled, negated or nudged, a control character put into a string, a bracket
 removed, the file cut short).  Every run must end with exit status 0, 1 or 2, print no
 traceback and no "internal error", and leave the layout file as it was.  The suite runs a
 bounded number of these with a fixed seed (tests/test_fuzz_check.py).
@@ -29,7 +29,7 @@ CONTROLS = ["\\n", "\\u001b[2J", "\\u0007", "\\r", "\\t", "\\u202e"]
 def mutate(text: str, rng: random.Random) -> str:
     for _ in range(rng.randint(1, 3)):
         lines = text.split("\n")
-        pick = rng.randrange(7)
+        pick = rng.choice([0, 1, 2, 2, 2, 3, 4, 5, 6, 7, 7, 7])
         i = rng.randrange(len(lines))
         if pick == 0:
             del lines[i]
@@ -54,6 +54,12 @@ def mutate(text: str, rng: random.Random) -> str:
         elif pick == 5:
             j = rng.randrange(len(lines))
             lines[i], lines[j] = lines[j], lines[i]
+        elif pick == 7:   # a plausible but different number: scaled, negated or nudged
+            numbers = [(k, m) for k, line in enumerate(lines) for m in re.finditer(r"-?\d+\.\d+", line)]
+            if numbers:
+                k, m = rng.choice(numbers)
+                x = float(m.group()) * rng.choice([-1.0, 0.01, 0.1, 0.5, 0.99, 1.01, 2.0, 10.0, 100.0])
+                lines[k] = lines[k][:m.start()] + repr(x) + lines[k][m.end():]
         else:
             return "\n".join(lines)[: rng.randrange(max(1, len(text)))]
         text = "\n".join(lines)
