@@ -48,6 +48,8 @@ _SCALAR = re.compile(r"[^,\]}#\n]+")  # a bare value runs up to a character it c
 _BASIC = re.compile(r'"[^"\\\n]*(?:\\.[^"\\\n]*)*"')
 _ML_BASIC = re.compile(r'"""[^"\\]*(?:(?:\\[\s\S]|"(?!""))[^"\\]*)*""""{0,2}')
 _ML_LITERAL = re.compile(r"'''[^']*(?:'(?!'')[^']*)*''''{0,2}")
+#: ``key = 1.5`` or ``key = "text"``: a bare key and a scalar or a string without escapes
+_SIMPLE_KEY_VALUE = re.compile(r'([A-Za-z0-9_-]+)[ \t]*=[ \t]*(?:"[^"\\\n]*"(?!")|[^,\]}#\n\[{"\' \t][^,\]}#\n]*)')
 
 
 def key_positions(text: str) -> dict[tuple, tuple[int, int]]:
@@ -161,6 +163,11 @@ class _Scanner:
     def key_value(self, table: tuple) -> None:
         """Read ``key = value`` belonging to the table at path *table*."""
         start = self.i
+        simple = _SIMPLE_KEY_VALUE.match(self.text, start)
+        if simple is not None:   # the common case in one match: bare key = scalar or plain string
+            self.record(table + (simple.group(1),), start)
+            self.i = simple.end()
+            return
         names = [name for name, _ in self.key()]
         self.skip_ws()
         self.expect("=")

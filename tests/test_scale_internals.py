@@ -135,3 +135,37 @@ def test_ray_along_an_edge_of_a_footprint_meets_its_near_corner():
     end = table.cast((10.0, 10.0), (1.0, 0.0))
     assert (end.kind, end.id) == (FOOTPRINT, "B")
     assert end.length == pytest.approx(30.0)   # derived: the corner (40, 10) is 30 mm along +x
+
+
+TRICKY_TOML = '''\
+a = """x = 1
+y"""
+b = ""
+c = "q\\"r"
+d = { e = 2, f = "g", "h i" = 3, j.k = 4 }
+l = [1, 2, { m = 'n' }]
+o.p = 1979-05-27T07:32:00
+q = 'lit'  # comment = 5
+[[r]]
+s = -1.5e3
+[r.t]
+u = true
+'''
+
+
+@pytest.mark.parametrize("name", ["tricky"] + [p.name for p in sorted(
+    (__import__("pathlib").Path(__file__).resolve().parents[1] / "layouts").rglob("*.toml"))])
+def test_the_one_match_path_of_the_position_scan_agrees_with_the_step_by_step_one(name, monkeypatch):
+    import re
+    from pathlib import Path
+
+    from benchcheck import tomlpos
+    if name == "tricky":
+        text = TRICKY_TOML
+    else:
+        text = next((Path(__file__).resolve().parents[1] / "layouts").rglob(name)).read_text(encoding="utf-8")
+    fast = tomlpos.key_positions(text)
+    monkeypatch.setattr(tomlpos, "_SIMPLE_KEY_VALUE", re.compile(r"(?!)"))   # never matches
+    slow = tomlpos.key_positions(text)
+    assert fast == slow
+    assert len(fast) > 10
