@@ -41,7 +41,7 @@ def _layout_files(paths: list[str]) -> list[Path]:
 
 def _no_layouts(paths: list[str]) -> int:
     for p in paths:
-        print(f"{p}: error: no layout files (*.toml) in this folder", file=sys.stderr)
+        print(one_line(f"{p}: error: no layout files (*.toml) in this folder"), file=sys.stderr)
     return EXIT_BAD_INPUT
 
 
@@ -62,12 +62,12 @@ def cmd_beams(args) -> int:
             status = EXIT_BAD_INPUT
             continue
         except RecursionError:
-            print(f"{f}: error: the layout is nested too deeply to read", file=sys.stderr)
+            print(one_line(f"{f}: error: the layout is nested too deeply to read"), file=sys.stderr)
             status = EXIT_BAD_INPUT
             continue
         except Exception as exc:  # noqa: BLE001 - the user gets a sentence, not a traceback
-            print(f"{f}: internal error while solving ({type(exc).__name__}: {exc}); please report it "
-                  "with this layout", file=sys.stderr)
+            print(one_line(f"{f}: internal error while solving ({type(exc).__name__}: {exc}); please report it "
+                           "with this layout"), file=sys.stderr)
             status = EXIT_BAD_INPUT
             continue
         results.append(sol)
@@ -117,7 +117,7 @@ def cmd_check(args) -> int:
     if not files:
         return _no_layouts(args.paths)
     if args.config and not Path(args.config).is_file():
-        print(f"{args.config}: error: no such configuration file", file=sys.stderr)
+        print(one_line(f"{args.config}: error: no such configuration file"), file=sys.stderr)
         return EXIT_BAD_INPUT
     jobs = [(str(f), args.config, None) for f in files]
     n = min(args.jobs or workers(), len(jobs))
@@ -159,7 +159,7 @@ def cmd_rules(args) -> int:
 
     ruleset = load_rules(cfg.plugins, search_path=config_folder(cfg))
     for e in ruleset.errors:
-        print(f"error: {e}", file=sys.stderr)
+        print(one_line(f"error: {e}"), file=sys.stderr)
     sys.stdout.write(rules_json(ruleset.rules) if args.format == "json" else rules_text(ruleset.rules))
     return EXIT_BAD_INPUT if ruleset.errors else EXIT_OK
 
@@ -185,7 +185,7 @@ def cmd_report(args) -> int:
         except OSError:
             head = ""
         if head != MARKER:
-            print(f"{out}: error: exists and is not a benchcheck report; choose another -o or pass --force",
+            print(one_line(f"{out}: error: exists and is not a benchcheck report; choose another -o or pass --force"),
                   file=sys.stderr)
             return EXIT_BAD_INPUT
     try:
@@ -197,7 +197,7 @@ def cmd_report(args) -> int:
     ruleset = load_rules(config.plugins, search_path=config_folder(config))
     result = check_file(layout_path, config, ruleset)
     for e in result.errors:
-        print(e, file=sys.stderr)
+        print(one_line(e), file=sys.stderr)
     if result.bench is None:
         return EXIT_BAD_INPUT
     status = EXIT_BAD_INPUT if result.errors else EXIT_OK
@@ -205,7 +205,7 @@ def cmd_report(args) -> int:
     tmp = out.with_name(out.name + ".tmp")
     tmp.write_text(html, encoding="utf-8")
     tmp.replace(out)
-    print(f"wrote {out} ({len(result.findings)} findings)")
+    print(one_line(f"wrote {out} ({len(result.findings)} findings)"))
     return status
 
 

@@ -178,3 +178,14 @@ def test_the_nesting_check_skips_strings_and_comments(quoted):
     deeper = text + "c = [" + "[" * MAX_NESTING + "1" + "]" * (MAX_NESTING + 1) + "\n"
     line = deeper.count("\n")
     assert _too_deep(deeper) == (line, 5 + MAX_NESTING)     # the first bracket past the limit
+
+
+def test_a_file_name_with_control_characters_is_echoed_on_one_line(tmp_path):
+    bad = tmp_path / "evil\n\x1b[2Jname.toml"
+    bad.write_text(one_change('id = "HR"', 'id = "H R"'), encoding="utf-8")
+    for args in (["beams", str(bad)], ["check", "--jobs", "1", str(bad)]):
+        code, out, err = run_inprocess(args)
+        assert code == 2
+        assert "\x1b" not in out + err
+        lines = err.splitlines()
+        assert len(lines) == 1 and "evil\\n\\e[2Jname.toml:" in lines[0], err
