@@ -9,7 +9,6 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from .beamtable import solution_json
 from .loader import load_path, load_text
 from .model import Layout
 from .solve import Solution, solve_layout
@@ -33,4 +32,6 @@ def solve_text(text: str, file: str = "<string>") -> Solution:
 
 def beam_table(solution: Solution) -> dict:
     """The same dictionary that ``benchcheck beams --format json`` prints."""
+    from .beamtable import solution_json   # only the beam table needs it: a quicker start for check
+
     return solution_json(solution)

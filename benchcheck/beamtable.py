@@ -12,6 +12,7 @@ import math
 from .abcd import PLANES, SAGITTAL, TANGENTIAL
 from .resonator import STATUS_LABEL, STATUS_TEXT
 from .solve import BeamResult, CavityResult, HitResult, Solution, StrayResult
+from .textsafe import one_line
 
 JSON_FORMAT = 1
 SAFETY_CAUTION = (
@@ -304,4 +305,4 @@ def solution_text(sol: Solution) -> str:
     if sol.notes:
         lines += ["notes:"] + [f"  {n}" for n in sol.notes] + [""]
     lines.append(SAFETY_CAUTION)
-    return "\n".join(lines).rstrip() + "\n"
+    return "\n".join(one_line(line) for line in lines).rstrip() + "\n"

@@ -13,8 +13,8 @@ import sys
 from pathlib import Path
 
 from . import __version__
-from .beamtable import solution_json, solution_text
 from .model import LayoutError
+from .textsafe import one_line
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
@@ -50,7 +50,7 @@ def _layout_files(paths: list[str]) -> list[Path]:
 
 def _no_layouts(paths: list[str]) -> int:
     for p in paths:
-        print(f"{p}: error: no layout files (*.toml) in this folder", file=sys.stderr)
+        print(one_line(f"{p}: error: no layout files (*.toml) in this folder"), file=sys.stderr)
     return EXIT_BAD_INPUT
 
 
@@ -61,15 +61,16 @@ def _solved(path: Path, work, what: str = "solving"):
     except LayoutError as exc:
         print(str(exc), file=sys.stderr)
     except RecursionError:
-        print(f"{path}: error: the layout is nested too deeply to read", file=sys.stderr)
+        print(one_line(f"{path}: error: the layout is nested too deeply to read"), file=sys.stderr)
     except Exception as exc:  # noqa: BLE001 - the user gets a sentence, not a traceback
-        print(f"{path}: internal error while {what} ({type(exc).__name__}: {exc}); please report it "
-              "with this layout", file=sys.stderr)
+        print(one_line(f"{path}: internal error while {what} ({type(exc).__name__}: {exc}); please report it "
+                       "with this layout"), file=sys.stderr)
     return None
 
 
 def cmd_beams(args) -> int:
     from .api import solve_file
+    from .beamtable import solution_json, solution_text
 
     files = _layout_files(args.layouts)
     if not files:
@@ -102,7 +103,7 @@ def cmd_check(args) -> int:
     if not files:
         return _no_layouts(args.paths)
     if args.config and not Path(args.config).is_file():
-        print(f"{args.config}: error: no such configuration file", file=sys.stderr)
+        print(one_line(f"{args.config}: error: no such configuration file"), file=sys.stderr)
         return EXIT_BAD_INPUT
     # plugins run only in worker processes: nothing they do ends or hides this run
     present = [f.exists() for f in files]
@@ -117,7 +118,7 @@ def cmd_check(args) -> int:
         for r in results:
             r.fail_on = args.fail_on
     for e in dict.fromkeys(e for r in results for e in r.errors):   # a bad configuration once, not per file
-        print(e, file=sys.stderr)
+        print(one_line(e), file=sys.stderr)
     report = {"text": text_report, "json": json_report, "sarif": sarif_report, "github": github_report}[args.format]
     # rule metadata from every configuration that applied, as the workers described it
     sys.stdout.write(report(results, outcome.rules))
@@ -130,7 +131,7 @@ def cmd_rules(args) -> int:
 
     outcome = run_jobs([Job(None, args.config, start=str(Path.cwd()))], 1, args.rule_timeout)
     for e in outcome.errors:
-        print(e, file=sys.stderr)
+        print(one_line(e), file=sys.stderr)
     sys.stdout.write(rules_json(outcome.rules) if args.format == "json" else rules_text(outcome.rules))
     return EXIT_BAD_INPUT if outcome.errors else EXIT_OK
 
@@ -163,7 +164,7 @@ def cmd_report(args) -> int:
     outcome = run_jobs([Job(str(layout_path), args.config, keep_bench=True)], 1, args.rule_timeout)
     result = outcome.results[0]
     for e in result.errors:
-        print(e, file=sys.stderr)
+        print(one_line(e), file=sys.stderr)
     if result.bench is None:
         return EXIT_BAD_INPUT
     status = EXIT_BAD_INPUT if result.errors else EXIT_OK
@@ -177,7 +178,7 @@ def cmd_report(args) -> int:
     except OSError as exc:
         print(f"{out}: error: cannot write the report ({exc.strerror or exc})", file=sys.stderr)
         return EXIT_BAD_INPUT
-    print(f"wrote {out} ({len(result.findings)} findings)")
+    print(one_line(f"wrote {out} ({len(result.findings)} findings)"))
     return status
 
 

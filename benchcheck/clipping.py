@@ -26,10 +26,10 @@ unit, fractions out.
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
-from numpy.polynomial.legendre import leggauss
 
 #: erfc on numpy arrays, from the standard library's correctly rounded scalar version.
 #: Vectorised by element: the quadrature needs about a hundred values per aperture.
@@ -45,7 +45,15 @@ _CUT = 9.0
 #: to about 1e-13 relative for a/w from 0.05 to 1000 in either axis (the tests compare
 #: with scipy's adaptive quad and dblquad).
 _NODES = 128
-_GL_X, _GL_W = leggauss(_NODES)
+
+
+@functools.cache
+def _gauss_legendre() -> tuple[np.ndarray, np.ndarray]:
+    """Nodes and weights, computed on first use: an eigenvalue problem of _NODES rows that
+    a check whose beams clear every aperture never needs (it cost ~20 ms at import)."""
+    from numpy.polynomial.legendre import leggauss
+
+    return leggauss(_NODES)
 
 
 def round_transmission(w, a):
@@ -103,10 +111,11 @@ def elliptical_loss(w_x: float, w_y: float, a_x: float, a_y: float) -> float:
         # the two Gaussian factors are never both above exp(-2 K^2) at once
         return tail
     half = 0.5 * (hi - lo)
-    phi = lo + half * (_GL_X + 1.0)
+    nodes, weights = _gauss_legendre()
+    phi = lo + half * (nodes + 1.0)
     c, s = np.cos(phi), np.sin(phi)
     f = c * np.exp(-2.0 * (rho_y * s) ** 2) * _erfc(math.sqrt(2.0) * rho_x * c)
-    body = 2.0 * math.sqrt(2.0 / math.pi) * rho_y * half * float(np.dot(_GL_W, f))
+    body = 2.0 * math.sqrt(2.0 / math.pi) * rho_y * half * float(np.dot(weights, f))
     return min(1.0, tail + body)
 
 

@@ -15,6 +15,7 @@ import math
 import numpy as np
 
 from .hazards import CAUTION, Assessment, Segment
+from .textsafe import one_line
 
 JSON_FORMAT = 1
 M2_TO_CM2 = 1e4
@@ -146,7 +147,7 @@ def assessment_text(layout_file: str, bench_name: str, a: Assessment) -> str:
         if s.problem:
             lines.append(f"  ! {s.id}: cannot be judged: {s.problem}")
     lines += ["", CAUTION, ""]
-    return "\n".join(lines)
+    return "\n".join(one_line(line) for line in lines)
 
 
 # --- CSV ---------------------------------------------------------------------------------

@@ -12,7 +12,9 @@ import dataclasses
 import datetime as _dt
 import difflib
 import math
+import os
 import re
+import stat
 import sys
 from pathlib import Path
 from typing import Any, Iterable
@@ -67,7 +69,7 @@ MOUNT_KEYS = ("size",)
 LIDT_KEYS = ("w_cm", "w_cm2", "j_cm2", "pulse_s", "wavelength_nm")
 SUBSTRATE_KEYS = ("thickness", "index")
 FACES = ("normal", "brewster")
-_ID = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.\-]*$")
+_ID = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.\-]*")
 #: Coordinates and lengths beyond this (mm) are typing errors, not benches.
 MAX_EXTENT_MM = 1.0e6
 #: Any number beyond this magnitude is rejected before it can overflow the arithmetic.
@@ -79,6 +81,10 @@ MIN_MAGNITUDE = 1.0e-12
 MIN_PULSE_S = 1.0e-16
 #: Smallest waist radius (mm): far below it the paraxial Gaussian beam does not apply.
 MIN_WAIST_MM = 1.0e-4
+#: Largest |fold| (degrees) at a mirror or splitter: 178 is an angle of incidence of 89
+#: degrees, as for a plate's aoi.  Nearer 180 a fold is grazing incidence, and at 180 the
+#: beam would go on undeviated, as if it passed through the mirror.
+MAX_FOLD_DEG = 178.0
 #: Smallest radius of curvature or focal length (mm) taken seriously.
 MIN_FOCAL_MM = 1.0e-3
 #: Wavelengths accepted, nm: from the far UV to the far infrared.
@@ -97,15 +103,34 @@ SYNONYMS = {
 }
 
 
+#: Largest layout file read (bytes): a hand-written bench of thousands of optics is well
+#: under 1 MiB; anything far larger is not a layout and is refused before it is read.
+MAX_LAYOUT_BYTES = 8 * 1024 * 1024
+#: Most points in one polygon (zone or obstacle outline).
+MAX_POLYGON_POINTS = 1000
+
+
 def load_path(path: str | Path) -> Layout:
     """Load and validate a layout file; raises ``LayoutError`` for anything unusable."""
     name = str(path)
     try:
-        data = Path(path).read_bytes()
+        info = os.stat(path)
+        if stat.S_ISDIR(info.st_mode):
+            raise IsADirectoryError
+        if not stat.S_ISREG(info.st_mode):
+            raise LayoutError("is not a regular file (a device, pipe or socket); a layout is a TOML text file",
+                              file=name)
+        if info.st_size > MAX_LAYOUT_BYTES:
+            raise LayoutError(f"is {info.st_size / 2**20:.1f} MiB; layouts larger than "
+                              f"{MAX_LAYOUT_BYTES // 2**20} MiB are not read", file=name)
+        with open(path, "rb") as fh:
+            data = fh.read(MAX_LAYOUT_BYTES + 1)
     except IsADirectoryError:
         raise LayoutError("is a folder, not a layout file", file=name) from None
     except OSError as exc:
         raise LayoutError(f"cannot read the file: {exc.strerror or exc}", file=name) from None
+    if len(data) > MAX_LAYOUT_BYTES:   # it grew while being read
+        raise LayoutError(f"layouts larger than {MAX_LAYOUT_BYTES // 2**20} MiB are not read", file=name)
     return load_bytes(data, name)
 
 
@@ -150,6 +175,8 @@ def load_text(text: str, file: str = "<layout>") -> Layout:
         raise _syntax_error(exc, text, file) from None
     except RecursionError:  # pragma: no cover - _too_deep catches these first
         raise LayoutError("the layout is nested too deeply to read", Loc(file, 1, 1)) from None
+    except ValueError:  # an integer beyond Python's int-string limit (about 4,300 digits)
+        raise _long_integer(text, file) from None
     try:
         positions = key_positions(text)
     except Exception:  # the scanner must never turn a good file into a crash
@@ -157,53 +184,51 @@ def load_text(text: str, file: str = "<layout>") -> Layout:
     return _Reader(file, positions, doc).layout(doc)
 
 
+#: What brackets inside are not structure: comments and strings of every kind (an
+#: unterminated one runs to the end of its line, or of the file for a multi-line one).
+_NOT_STRUCTURE = re.compile(
+    r'#[^\n]*'
+    r'|"""[^"\\]*(?:(?:\\[\s\S]|"(?!""))[^"\\]*)*(?:""""{0,2}|\Z)'
+    r"|'''[^']*(?:'(?!'')[^']*)*(?:''''{0,2}|\Z)"
+    r'|"[^"\\\n]*(?:\\.[^"\\\n]*)*(?:"|\\?(?=\n)|\\?\Z)'
+    r"|'[^'\n]*(?:'|(?=\n)|\Z)"
+)
+
+
 def _too_deep(text: str):
     """(line, column) where brackets outside strings and comments first nest too deep.
 
-    A rough scan that only needs to be right for files that nest absurdly deep: it
-    follows quotes and comments well enough not to count brackets inside them.
+    A rough scan that only needs to be right for files that nest absurdly deep: strings
+    and comments are blanked with one regular expression, then the depth is a running sum
+    over the brackets (numpy), floored at zero as a stray closing bracket does not nest.
     """
-    depth = 0
-    line, col = 1, 0
-    i, n = 0, len(text)
-    quote = None
-    while i < n:
-        ch = text[i]
-        col += 1
-        if ch == "\n":
-            line, col = line + 1, 0
-            if quote in ('"', "'"):
-                quote = None
-        elif quote:
-            if ch == "\\" and quote in ('"', '"""'):
-                i += 2
-                col += 1
-                continue
-            if text.startswith(quote, i):
-                i += len(quote)
-                col += len(quote) - 1
-                quote = None
-                continue
-        elif ch == "#":
-            end = text.find("\n", i)
-            if end < 0:
-                break
-            col += end - i - 1
-            i = end
-            continue
-        elif ch in "\"'":
-            quote = ch * 3 if text.startswith(ch * 3, i) else ch
-            i += len(quote)
-            col += len(quote) - 1
-            continue
-        elif ch in "[{":
-            depth += 1
-            if depth > MAX_NESTING:
-                return line, col
-        elif ch in "]}":
-            depth = max(0, depth - 1)
-        i += 1
-    return None
+    if text.count("[") + text.count("{") <= MAX_NESTING:
+        return None
+    blanked = _NOT_STRUCTURE.sub(lambda m: " " * len(m.group()), text)
+    import numpy as np
+
+    raw = blanked.encode("utf-8")        # brackets are ASCII: one byte, never part of another character
+    chars = np.frombuffer(raw, dtype=np.uint8)
+    opens = (chars == ord("[")) | (chars == ord("{"))
+    at = np.flatnonzero(opens | (chars == ord("]")) | (chars == ord("}")))
+    total = np.cumsum(np.where(opens[at], 1, -1))
+    depth = total - np.minimum(np.minimum.accumulate(total), 0)
+    deep = np.flatnonzero(depth > MAX_NESTING)
+    if deep.size == 0:
+        return None
+    offset = len(raw[: int(at[deep[0]])].decode("utf-8"))
+    return text.count("\n", 0, offset) + 1, offset - (text.rfind("\n", 0, offset) + 1) + 1
+
+
+def _long_integer(text: str, file: str) -> LayoutError:
+    """The error for a number too long to convert, at the first run of that many digits."""
+    limit = sys.get_int_max_str_digits() if hasattr(sys, "get_int_max_str_digits") else 4300
+    found = re.search(r"[0-9][0-9_]{%d,}" % max(limit - 1, 1), text)
+    offset = found.start() if found else 0
+    line = text.count("\n", 0, offset) + 1
+    col = offset - (text.rfind("\n", 0, offset) + 1) + 1
+    return LayoutError(f"a number with more than {limit} digits; no quantity in a layout needs that many",
+                       Loc(file, line, col))
 
 
 def _syntax_error(exc: Exception, text: str, file: str) -> LayoutError:
@@ -356,6 +381,15 @@ class _Reader:
             raise self.fail(path, f"{self.name(path)} = {x:g} nm is outside {lo:g} to {hi:g} nm")
         return x
 
+    def fold(self, value: Any, path: tuple) -> float:
+        x = self.number(value, path, "degrees")
+        if abs(x) > MAX_FOLD_DEG:
+            raise self.fail(path, f"{self.name(path)} = {value} degrees is beyond +-{MAX_FOLD_DEG:g}: the fold is the "
+                                  "full angle between the arriving and leaving beam (0 sends it back, 90 is a 45-degree "
+                                  f"mirror); +-180 would pass the beam on undeviated and beyond +-{MAX_FOLD_DEG:g} the "
+                                  f"incidence is grazing (over {MAX_FOLD_DEG / 2:g} degrees)")
+        return x
+
     def string(self, value: Any, path: tuple, choices: tuple | None = None) -> str:
         label = self.name(path)
         if not isinstance(value, str):
@@ -369,7 +403,7 @@ class _Reader:
 
     def ident(self, value: Any, path: tuple) -> str:
         s = self.string(value, path)
-        if not _ID.match(s):
+        if not _ID.fullmatch(s):
             raise self.fail(path, f"{self.name(path)} must be an id of letters, digits, '_', '-' or '.', "
                                   f"starting with a letter or digit; found \"{s}\"")
         return s
@@ -385,6 +419,9 @@ class _Reader:
     def polygon(self, value: Any, path: tuple) -> tuple[tuple[float, float], ...]:
         if not isinstance(value, list) or len(value) < 3:
             raise self.fail(path, f"{self.name(path)} must be an array of at least 3 points [[x, y], ...] in mm")
+        if len(value) > MAX_POLYGON_POINTS:
+            raise self.fail(path, f"{self.name(path)} has {len(value)} points; at most {MAX_POLYGON_POINTS} are "
+                                  "accepted (a footprint or zone needs a few)")
         return tuple(self.point(p, path + (i,)) for i, p in enumerate(value))
 
     def array_of_tables(self, doc: dict, key: str) -> list:
@@ -530,7 +567,7 @@ class _Reader:
             if key in value:
                 fields[key] = self.fraction(value[key], p(key))
         if "fold" in value:
-            fields["fold"] = self.number(value["fold"], p("fold"), "degrees", low=-180.0, high=180.0)
+            fields["fold"] = self.fold(value["fold"], p("fold"))
         if "substrate" in value:
             s = self.table(value["substrate"], p("substrate"), SUBSTRATE_KEYS, f"the substrate of \"{ident}\"")
             if "thickness" in s:
@@ -649,6 +686,12 @@ class _Reader:
         f["waist_t"], f["waist_s"] = self._pair(t, "waist", path, what, "mm", low=0.0, low_open=True, default=None,
                                                 tiny=MIN_WAIST_MM)
         f["m2_t"], f["m2_s"] = self._pair(t, "m2", path, what, "", low=1.0, default=1.0)
+        smallest = f["wavelength_nm"] * 1e-6
+        for key, w in (("waist", f["waist_t"]), ("waist_t", f["waist_t"]), ("waist_s", f["waist_s"])):
+            if key in t and w < smallest:
+                raise self.fail(p(key), f"{what}: {key} = {w:g} mm is smaller than the wavelength ({smallest:g} mm); "
+                                        "a Gaussian beam that small spreads too fast for the paraxial beam "
+                                        "formulas (its far-field angle lambda/(pi w0) nears a radian)")
         if "waist_at" in t:
             f["waist_at"] = self.number(t["waist_at"], p("waist_at"), "mm")
         if "note" in t:
@@ -730,7 +773,7 @@ class _Reader:
                 ident = self.ident(self.require(t, "id", ip, f"a path entry of {what}"), ip + ("id",))
                 dist = (self.number(t["distance"], ip + ("distance",), "mm", low=0.0, low_open=True, high=MAX_EXTENT_MM)
                         if "distance" in t else None)
-                fold = self.number(t["fold"], ip + ("fold",), "degrees", low=-180.0, high=180.0) if "fold" in t else None
+                fold = self.fold(t["fold"], ip + ("fold",)) if "fold" in t else None
             else:
                 ident = self.ident(item, ip)
                 dist = fold = None

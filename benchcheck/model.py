@@ -11,6 +11,8 @@ import datetime as _dt
 from dataclasses import dataclass, field
 from typing import Mapping
 
+from .textsafe import one_line
+
 
 @dataclass(frozen=True)
 class Loc:
@@ -32,11 +34,12 @@ class LayoutError(Exception):
         self.file = loc.file if loc else file
 
     def __str__(self) -> str:
+        """One line: control characters in the file name or message are escaped."""
         if self.loc:
-            return f"{self.loc}: error: {self.message}"
+            return one_line(f"{self.loc}: error: {self.message}")
         if self.file:
-            return f"{self.file}: error: {self.message}"
-        return f"error: {self.message}"
+            return one_line(f"{self.file}: error: {self.message}")
+        return one_line(f"error: {self.message}")
 
 
 #: A beam uses a wavelength-keyed entry within this fraction of its wavelength (docs/design.md §3).

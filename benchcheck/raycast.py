@@ -12,8 +12,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import shapely
 from shapely import STRtree
-from shapely.geometry import LineString, Point, box
+from shapely.geometry import LineString, box
 
 #: a ray starting this close (mm) to an obstacle does not count as meeting it
 START_CLEARANCE = 1e-6
@@ -33,67 +34,124 @@ class RayEnd:
 
 
 class Table:
-    """The static scene: table outline, footprints by optic id, zones by id."""
+    """The static scene: table outline, footprints by optic id, zones by id.
+
+    Every outline is also kept as a flat array of straight segments, so that a ray is
+    tested against all the candidates an STRtree query returns in one vectorised step and
+    the nearest crossing wins (no shapely call per candidate)."""
 
     def __init__(self, size: tuple[float, float], footprints: dict, zones: dict):
+        self.size = (float(size[0]), float(size[1]))
         self.outline = box(0.0, 0.0, size[0], size[1])
         self.reach = float(np.hypot(*size)) * 4.0 + 1.0
         self.ids = list(footprints)
         self.shapes = [footprints[i] for i in self.ids]
         self.tree = STRtree(self.shapes) if self.shapes else None
+        self._shape_array = np.array(self.shapes, dtype=object)
+        self._footprint_segments = _Segments(shapely.boundary(self._shape_array)) if self.shapes else None
         self.zone_ids = list(zones)
         self.zone_kinds = [zones[z][0] for z in self.zone_ids]
         self.zone_lines = [zones[z][1].exterior for z in self.zone_ids]
         self.zone_tree = STRtree(self.zone_lines) if self.zone_lines else None
+        self._zone_segments = _Segments(np.array(self.zone_lines, dtype=object)) if self.zone_lines else None
 
     def cast(self, origin, direction, exclude: frozenset | set = frozenset()) -> RayEnd:
         """First thing the ray from ``origin`` along unit ``direction`` meets."""
         o = np.asarray(origin, dtype=float)
         d = np.asarray(direction, dtype=float)
-        far = o + d * self.reach
-        ray = LineString([tuple(o), tuple(far)])
-        best = self._edge(o, d, ray)
+        ray = LineString([tuple(o), tuple(o + d * self.reach)])
+        best = self._edge(o, d)
         if self.tree is not None:
-            for k in self.tree.query(ray, predicate="intersects"):
-                ident = self.ids[int(k)]
-                if ident in exclude:
-                    continue
-                dist = _first_distance(self.shapes[int(k)].boundary.intersection(ray), o, d)
-                if self.shapes[int(k)].contains(Point(o)):
-                    continue   # starting inside a mount (one's own neighbour): not a hit
-                if dist is not None and dist > START_CLEARANCE and dist < best.length:
-                    best = RayEnd(FOOTPRINT, ident, tuple(o + d * dist), dist)
+            found = self.tree.query(ray, predicate="intersects")
+            found = np.array([k for k in found if self.ids[int(k)] not in exclude], dtype=np.intp)
+            if found.size:
+                # starting inside a mount (one's own neighbour) is not a hit on it
+                found = found[~shapely.contains_xy(self._shape_array[found], o[0], o[1])]
+            hit = self._footprint_segments.first(found, o, d, best.length)
+            if hit is not None:
+                k, dist = hit
+                best = RayEnd(FOOTPRINT, self.ids[k], tuple(o + d * dist), dist)
         if self.zone_tree is not None:
-            for k in self.zone_tree.query(ray, predicate="intersects"):
-                dist = _first_distance(self.zone_lines[int(k)].intersection(ray), o, d)
-                if dist is not None and dist > START_CLEARANCE and dist < best.length:
-                    best = RayEnd(ZONE, self.zone_ids[int(k)], tuple(o + d * dist), dist, self.zone_kinds[int(k)])
+            found = self.zone_tree.query(ray, predicate="intersects")
+            hit = self._zone_segments.first(found, o, d, best.length)
+            if hit is not None:
+                k, dist = hit
+                best = RayEnd(ZONE, self.zone_ids[k], tuple(o + d * dist), dist, self.zone_kinds[k])
         return best
 
-    def _edge(self, o, d, ray) -> RayEnd:
-        if not self.outline.covers(Point(o)):
+    def _edge(self, o, d) -> RayEnd:
+        """Where the ray leaves the table (a box from the origin): the nearest of the two
+        edges it runs toward; length 0 for a ray that starts off the table."""
+        width, height = self.size
+        if not (0.0 <= o[0] <= width and 0.0 <= o[1] <= height):
             return RayEnd(TABLE_EDGE, None, tuple(o), 0.0)
-        dist = _last_distance(self.outline.boundary.intersection(ray), o, d)
-        dist = 0.0 if dist is None else dist
+        dist = self.reach
+        for axis, high in ((0, width), (1, height)):
+            if d[axis] > 0.0:
+                dist = min(dist, (high - o[axis]) / d[axis])
+            elif d[axis] < 0.0:
+                dist = min(dist, -o[axis] / d[axis])
         return RayEnd(TABLE_EDGE, None, tuple(o + d * dist), dist)
 
 
-def _distances(geom, o, d):
-    if geom.is_empty:
-        return []
-    parts = getattr(geom, "geoms", [geom])
-    out = []
-    for part in parts:
-        for x, y in np.asarray(part.coords):
-            out.append(float((x - o[0]) * d[0] + (y - o[1]) * d[1]))
+class _Segments:
+    """The straight pieces of a set of outlines, grouped by the outline they belong to."""
+
+    def __init__(self, lines: np.ndarray):
+        parts, owner = shapely.get_parts(lines, return_index=True)
+        coords, part = shapely.get_coordinates(parts, return_index=True)
+        same = part[:-1] == part[1:]          # consecutive points of one line make a segment
+        self.a = coords[:-1][same]
+        self.b = coords[1:][same]
+        seg_owner = owner[part[:-1][same]]
+        n = len(lines)
+        self.start = np.searchsorted(seg_owner, np.arange(n), side="left")
+        self.stop = np.searchsorted(seg_owner, np.arange(n), side="right")
+
+    def first(self, owners: np.ndarray, o: np.ndarray, d: np.ndarray, before: float):
+        """(owner, distance) of the nearest crossing farther than START_CLEARANCE and
+        nearer than ``before`` on the ray, among the outlines ``owners``; None if none."""
+        owners = np.asarray(owners, dtype=np.intp)
+        if owners.size == 0:
+            return None
+        counts = self.stop[owners] - self.start[owners]
+        total = int(counts.sum())
+        if total == 0:
+            return None
+        first_of = np.cumsum(counts) - counts
+        idx = np.repeat(self.start[owners] - first_of, counts) + np.arange(total)
+        who = np.repeat(owners, counts)
+        dist = _crossings(self.a[idx], self.b[idx], o, d)
+        dist[~(dist > START_CLEARANCE) | ~(dist < before)] = np.inf
+        k = int(np.argmin(dist))
+        return None if not np.isfinite(dist[k]) else (int(who[k]), float(dist[k]))
+
+
+def _crossings(a: np.ndarray, b: np.ndarray, o: np.ndarray, d: np.ndarray) -> np.ndarray:
+    """Distance along the ray (origin ``o``, unit direction ``d``) to the first point of each
+    segment ``a``-``b`` beyond START_CLEARANCE; inf where the ray misses it.  A segment
+    lying along the ray counts from its nearer end (or from where the ray leaves it when
+    the ray starts on it)."""
+    e = b - a
+    w = a - o
+    denom = d[0] * e[:, 1] - d[1] * e[:, 0]                 # cross(d, e)
+    along = w[:, 0] * e[:, 1] - w[:, 1] * e[:, 0]           # cross(w, e)
+    across = w[:, 0] * d[1] - w[:, 1] * d[0]                # cross(w, d)
+    scale = np.maximum(np.hypot(e[:, 0], e[:, 1]), 1e-300)
+    parallel = np.abs(denom) <= 1e-12 * scale
+    out = np.full(len(a), np.inf)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = along / denom
+        u = across / denom
+    tol = 1e-12
+    crossing = ~parallel & (u >= -tol) & (u <= 1.0 + tol) & (t >= 0.0)
+    out[crossing] = t[crossing]
+    # collinear segments: the ray meets the nearer end, or leaves the segment at the farther
+    collinear = parallel & (np.abs(across) <= 1e-9 * np.maximum(scale, 1.0))
+    if np.any(collinear):
+        ta = w[collinear] @ d
+        tb = (b[collinear] - o) @ d
+        near, far = np.minimum(ta, tb), np.maximum(ta, tb)
+        first = np.where(near > START_CLEARANCE, near, far)
+        out[collinear] = np.where(first > START_CLEARANCE, first, np.inf)
     return out
-
-
-def _first_distance(geom, o, d):
-    ds = [x for x in _distances(geom, o, d) if x > START_CLEARANCE]
-    return min(ds) if ds else None
-
-
-def _last_distance(geom, o, d):
-    ds = _distances(geom, o, d)
-    return max(ds) if ds else None

@@ -17,6 +17,7 @@ from typing import Iterable
 from . import __version__
 from .engine import FileResult
 from .findings import SAFETY_CAUTION, SEVERITY_RANK, Finding, Rule
+from .textsafe import one_line
 
 JSON_FORMAT = 1
 SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
@@ -84,7 +85,7 @@ def text_report(results: list[FileResult], rules: dict) -> str:
     if not any(not f.waived for f in findings) and not any(r.errors for r in results):
         lines.append(NOT_AN_APPROVAL)
     lines.append(SAFETY_CAUTION)
-    return "\n".join(lines) + "\n"
+    return "\n".join(one_line(line) for line in lines) + "\n"
 
 
 # --- JSON -------------------------------------------------------------------------------
@@ -187,7 +188,9 @@ def _sarif_rule(rule: Rule, plugin: str) -> dict:
 # --- GitHub workflow annotations ------------------------------------------------------
 
 def _escape_data(s: str) -> str:
-    return s.replace("%", "%25").replace("\r", "%0D").replace("\n", "%0A")
+    """Line breaks in the workflow command's own encoding; other control characters escaped."""
+    s = s.replace("%", "%25").replace("\r", "%0D")
+    return "%0A".join(one_line(part) for part in s.split("\n"))
 
 
 def _escape_property(s: str) -> str:
@@ -227,7 +230,7 @@ def rules_text(rules: dict) -> str:
         out.append("")
         out += _wrap(rule.explanation, "    ")
         out.append("")
-    return "\n".join(out)
+    return "\n".join(one_line(line) for line in out)
 
 
 def rules_json(rules: dict) -> str:

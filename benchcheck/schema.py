@@ -42,7 +42,9 @@ def _str(desc: str, choices=None) -> dict:
 
 
 def _ident(desc: str) -> dict:
-    return {"type": "string", "pattern": L._ID.pattern, "description": desc}
+    pattern = L._ID.pattern      # the loader full-matches it; a JSON Schema pattern searches
+    anchored = pattern if pattern.startswith("^") else f"^(?:{pattern})$"
+    return {"type": "string", "pattern": anchored, "description": desc}
 
 
 def _point(desc: str, positive: bool = False) -> dict:

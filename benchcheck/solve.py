@@ -251,14 +251,55 @@ class Piece:
 
 def radius_along(pieces: list[Piece], s) -> np.ndarray:
     """Radius at path coordinates ``s`` (array), from the piece that holds each one; NaN
-    outside every piece (inside a thin element there is no free propagation)."""
+    outside every piece (inside a thin element there is no free propagation).  Where two
+    pieces touch, the earlier one in the list gives the radius."""
     s = np.atleast_1d(np.asarray(s, dtype=float))
+    index = _piece_index(pieces)
+    if index is None:   # pieces out of order along the path: look in each, in list order
+        out = np.full(s.shape, np.nan)
+        for piece in pieces:
+            inside = (s >= piece.s0 - 1e-9) & (s <= piece.s0 + piece.length + 1e-9) & np.isnan(out)
+            if np.any(inside):
+                out[inside] = piece.radius(s[inside])
+        return out
+    s0, length, k, scale, q0, wavelength, m2 = index
+    # pieces in path order: the first whose end reaches s is the only candidate
+    i = np.minimum(np.searchsorted(s0 + length + 1e-9, s, side="left"), len(s0) - 1)
+    holds = (s >= s0[i] - 1e-9) & (s <= s0[i] + length[i] + 1e-9)
     out = np.full(s.shape, np.nan)
-    for piece in pieces:
-        inside = (s >= piece.s0 - 1e-9) & (s <= piece.s0 + piece.length + 1e-9) & np.isnan(out)
-        if np.any(inside):
-            out[inside] = piece.radius(s[inside])
+    j = i[holds]
+    z = np.clip(s[holds] - s0[j], 0.0, length[j])
+    out[holds] = scale[j] * gauss.radius(q0[j] + z * k[j], wavelength[j], m2[j])
     return out
+
+
+#: A few recent piece lists with their columns, so that many queries on one path cost one
+#: pass over its pieces (the obstruction rule samples every leg of a long path).
+_INDEX_CACHE: dict[int, tuple] = {}
+_INDEX_CACHE_SIZE = 16
+
+
+def _piece_index(pieces) -> tuple | None:
+    """The pieces as columns of numpy arrays, or None where they are empty or not in path
+    order (starts and ends both non-decreasing)."""
+    if not pieces:
+        return None
+    key = id(pieces)
+    hit = _INDEX_CACHE.get(key)
+    if hit is not None and hit[0] is pieces and hit[1] == len(pieces) and hit[2] is pieces[0] \
+            and hit[3] is pieces[-1]:
+        return hit[4]
+    s0 = np.fromiter((p.s0 for p in pieces), float, len(pieces))
+    length = np.fromiter((p.length for p in pieces), float, len(pieces))
+    ordered = bool(np.all(np.diff(s0) >= 0.0) and np.all(np.diff(s0 + length) >= 0.0))
+    index = None
+    if ordered:
+        index = (s0, length, *(np.array([getattr(p, name) for p in pieces])
+                               for name in ("k", "scale", "q0", "wavelength", "m2")))
+    if len(_INDEX_CACHE) >= _INDEX_CACHE_SIZE:
+        _INDEX_CACHE.pop(next(iter(_INDEX_CACHE)))
+    _INDEX_CACHE[key] = (pieces, len(pieces), pieces[0], pieces[-1], index)
+    return index
 
 
 def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):

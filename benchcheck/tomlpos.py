@@ -28,16 +28,28 @@ positions found so far.
 
 from __future__ import annotations
 
-import bisect
-import tomllib
+import re
+import sys
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover - exercised only on Python 3.10
+    import tomli as tomllib
 
 __all__ = ["key_positions"]
 
-_BARE_KEY_CHARS = frozenset(
-    "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_-"
-)
-_BLANK = " \t\n"
-_SCALAR_END = ",]}#\n"  # characters that can never occur inside a bare value
+# Runs of characters are matched with regular expressions (no per-character Python loop),
+# so the scan stays linear and quick on the largest layout the loader reads.
+_WS = re.compile(r"[ \t]*")
+_BLANK = re.compile(r"(?:[ \t\n]+|#[^\n]*)*")
+_BARE_KEY = re.compile(r"[A-Za-z0-9_-]+")
+_SCALAR = re.compile(r"[^,\]}#\n]+")  # a bare value runs up to a character it can never hold
+# strings as "unrolled loops": runs of plain characters, no backtracking between them
+_BASIC = re.compile(r'"[^"\\\n]*(?:\\.[^"\\\n]*)*"')
+_ML_BASIC = re.compile(r'"""[^"\\]*(?:(?:\\[\s\S]|"(?!""))[^"\\]*)*""""{0,2}')
+_ML_LITERAL = re.compile(r"'''[^']*(?:'(?!'')[^']*)*''''{0,2}")
+#: ``key = 1.5`` or ``key = "text"``: a bare key and a scalar or a string without escapes
+_SIMPLE_KEY_VALUE = re.compile(r'([A-Za-z0-9_-]+)[ \t]*=[ \t]*(?:"[^"\\\n]*"(?!")|[^,\]}#\n\[{"\' \t][^,\]}#\n]*)')
 
 
 def key_positions(text: str) -> dict[tuple, tuple[int, int]]:
@@ -47,7 +59,7 @@ def key_positions(text: str) -> dict[tuple, tuple[int, int]]:
         scanner.document()
     except (_Stop, ValueError, IndexError):
         pass  # keep the partial map; callers then just lack some positions
-    return scanner.positions
+    return scanner.line_columns()
 
 
 class _Stop(Exception):
@@ -60,8 +72,8 @@ class _Scanner:
     def __init__(self, text: str) -> None:
         self.text = text.replace("\r\n", "\n")
         self.i = 0
-        self.line_starts = [0] + [k + 1 for k, ch in enumerate(self.text) if ch == "\n"]
-        self.positions: dict[tuple, tuple[int, int]] = {}
+        self.line_starts = [0] + [m.end() for m in re.finditer("\n", self.text)]
+        self.positions: dict[tuple, int] = {}  # path -> offset; lines and columns at the end
         self.implicit: set[tuple] = set()  # paths only implied so far
         self.aot_counts: dict[tuple, int] = {}  # [[header]] path -> elements seen
 
@@ -77,32 +89,35 @@ class _Scanner:
 
     def skip_ws(self) -> None:
         """Skip spaces and tabs on the current line."""
-        while self.i < len(self.text) and self.text[self.i] in " \t":
-            self.i += 1
+        self.i = _WS.match(self.text, self.i).end()
 
     def skip_blank(self) -> None:
         """Skip whitespace, newlines and comments."""
-        while self.i < len(self.text):
-            ch = self.text[self.i]
-            if ch in _BLANK:
-                self.i += 1
-            elif ch == "#":
-                end = self.text.find("\n", self.i)
-                self.i = len(self.text) if end < 0 else end
-            else:
-                return
+        self.i = _BLANK.match(self.text, self.i).end()
+
+    def skip(self, pattern: re.Pattern, what: str) -> None:
+        found = pattern.match(self.text, self.i)
+        if found is None:
+            raise _Stop(f"{what} at offset {self.i}")
+        self.i = found.end()
 
     # -- recording --------------------------------------------------------------
 
-    def line_col(self, offset: int) -> tuple[int, int]:
-        line = bisect.bisect_right(self.line_starts, offset)
-        return line, offset - self.line_starts[line - 1] + 1
+    def line_columns(self) -> dict[tuple, tuple[int, int]]:
+        """The recorded offsets as (line, column), all at once."""
+        import numpy as np
+
+        offsets = np.fromiter(self.positions.values(), dtype=np.int64, count=len(self.positions))
+        starts = np.asarray(self.line_starts, dtype=np.int64)
+        lines = np.searchsorted(starts, offsets, side="right")
+        cols = offsets - starts[lines - 1] + 1
+        return dict(zip(self.positions, zip(lines.tolist(), cols.tolist())))
 
     def record(self, path: tuple, offset: int, implicit: bool = False) -> None:
         """Remember where *path* is written; the first explicit mention wins."""
         if path in self.positions and (implicit or path not in self.implicit):
             return
-        self.positions[path] = self.line_col(offset)
+        self.positions[path] = offset
         if implicit:
             self.implicit.add(path)
         else:
@@ -148,6 +163,11 @@ class _Scanner:
     def key_value(self, table: tuple) -> None:
         """Read ``key = value`` belonging to the table at path *table*."""
         start = self.i
+        simple = _SIMPLE_KEY_VALUE.match(self.text, start)
+        if simple is not None:   # the common case in one match: bare key = scalar or plain string
+            self.record(table + (simple.group(1),), start)
+            self.i = simple.end()
+            return
         names = [name for name, _ in self.key()]
         self.skip_ws()
         self.expect("=")
@@ -182,10 +202,7 @@ class _Scanner:
         if quote == "'":
             self.skip_literal_string()
             return self.text[start + 1 : self.i - 1]
-        while self.i < len(self.text) and self.text[self.i] in _BARE_KEY_CHARS:
-            self.i += 1
-        if self.i == start:
-            raise _Stop(f"no key at offset {start}")
+        self.skip(_BARE_KEY, "no key")
         return self.text[start : self.i]
 
     # -- values -------------------------------------------------------------------
@@ -199,11 +216,7 @@ class _Scanner:
         elif ch in ('"', "'"):
             self.string()
         else:  # number, boolean, inf/nan, date/time: up to a delimiter
-            start = self.i
-            while self.i < len(self.text) and self.text[self.i] not in _SCALAR_END:
-                self.i += 1
-            if self.i == start:
-                raise _Stop(f"no value at offset {start}")
+            self.skip(_SCALAR, "no value")
 
     def array(self, path: tuple) -> None:
         self.expect("[")
@@ -236,28 +249,17 @@ class _Scanner:
 
     def string(self) -> None:
         if self.peek(3) == '"""':
-            self.skip_multiline_string('"', escapes=True)
+            # up to two quotes right before the closing delimiter belong to the content
+            self.skip(_ML_BASIC, "unterminated multi-line string")
         elif self.peek(3) == "'''":
-            self.skip_multiline_string("'", escapes=False)
+            self.skip(_ML_LITERAL, "unterminated multi-line string")
         elif self.peek() == '"':
             self.skip_basic_string()
         else:
             self.skip_literal_string()
 
     def skip_basic_string(self) -> None:
-        self.expect('"')
-        while self.i < len(self.text):
-            ch = self.text[self.i]
-            if ch == "\\":
-                self.i += 2
-            elif ch == '"':
-                self.i += 1
-                return
-            elif ch == "\n":
-                break
-            else:
-                self.i += 1
-        raise _Stop("unterminated string")
+        self.skip(_BASIC, "unterminated string")
 
     def skip_literal_string(self) -> None:
         self.expect("'")
@@ -265,19 +267,3 @@ class _Scanner:
         if end < 0 or "\n" in self.text[self.i : end]:
             raise _Stop("unterminated literal string")
         self.i = end + 1
-
-    def skip_multiline_string(self, quote: str, escapes: bool) -> None:
-        self.expect(quote * 3)
-        while self.i < len(self.text):
-            ch = self.text[self.i]
-            if escapes and ch == "\\":
-                self.i += 2  # also covers a line-ending backslash
-            elif ch == quote and self.peek(3) == quote * 3:
-                # Up to two quotes right before the closing delimiter belong to
-                # the content (""""" is a quote pair then """), so eat the run.
-                while self.peek() == quote:
-                    self.i += 1
-                return
-            else:
-                self.i += 1
-        raise _Stop("unterminated multi-line string")

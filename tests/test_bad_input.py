@@ -252,7 +252,7 @@ CASES = [
          "reflectivity", "wavelengths in nm"),
     case("reflectivity-plus-absorption", "reflectivity = 0.9995\n", "reflectivity = 0.9995\nabsorption = 0.01\n",
          19, "absorption", "exceed 1"),
-    case("fold-out-of-range", "roc = 300.0\n", "roc = 300.0\nfold = 270.0\n", 18, "fold", "must be <= 180"),
+    case("fold-out-of-range", "roc = 300.0\n", "roc = 300.0\nfold = 270.0\n", 18, "fold", "beyond +-178"),
     case("m2-below-one", "m2 = 1.0", "m2 = 0.5", 67, "m2", "must be >= 1"),
     case("index-below-one", "index = 1.8", "index = 0.5", 27, "index", "must be >= 1"),
     case("substrate-index-below-one", "index = 1.45", "index = 0.5", 36, "index", "must be >= 1"),

@@ -1,0 +1,171 @@
+"""The indexed beam-radius lookup and the vectorised ray cast give the same answers as the
+plain methods they replace (speed itself is measured by benchmarks/bench_scale.py).
+
+References: the radius from each piece on its own (``Piece.radius``, the first piece in
+list order that holds the point), and shapely's own intersection of the ray with every
+outline (shapely's result).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from shapely.geometry import LineString, Point, Polygon, box
+from shapely import affinity
+
+from benchcheck.raycast import FOOTPRINT, START_CLEARANCE, TABLE_EDGE, ZONE, Table
+from benchcheck.solve import Piece, radius_along
+
+
+def _pieces(rng, n, gaps=True):
+    out, s = [], 0.0
+    for _ in range(n):
+        length = float(rng.choice([0.0, rng.uniform(1.0, 80.0)], p=[0.1, 0.9]))
+        q0 = complex(rng.uniform(-50, 50), rng.uniform(10, 500))
+        out.append(Piece(s, length, float(rng.uniform(0.5, 1.0)), float(rng.uniform(0.8, 1.2)), q0,
+                         1.064e-3, float(rng.uniform(1.0, 2.0))))
+        s += length + (float(rng.choice([0.0, rng.uniform(0.0, 5.0)])) if gaps else 0.0)
+    return out
+
+
+def _by_each_piece(pieces, s):
+    s = np.atleast_1d(np.asarray(s, dtype=float))
+    out = np.full(s.shape, np.nan)
+    for i, x in enumerate(s):
+        for p in pieces:
+            if p.s0 - 1e-9 <= x <= p.s0 + p.length + 1e-9:
+                out[i] = float(p.radius(x))
+                break
+    return out
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_radius_along_matches_the_piece_that_holds_each_point(seed):
+    rng = np.random.default_rng(seed)
+    pieces = _pieces(rng, 60)
+    end = pieces[-1].s0 + pieces[-1].length
+    s = np.concatenate([rng.uniform(-10.0, end + 10.0, 400), [p.s0 for p in pieces],
+                        [p.s0 + p.length for p in pieces]])
+    got = radius_along(pieces, s)
+    want = _by_each_piece(pieces, s)
+    assert np.array_equal(np.isnan(got), np.isnan(want))
+    assert np.allclose(got[~np.isnan(got)], want[~np.isnan(want)], rtol=1e-12, atol=0.0)
+    # a second query on the same list (served from the index) agrees too
+    assert np.allclose(radius_along(pieces, s[:50]), want[:50], rtol=1e-12, equal_nan=True)
+
+
+def test_radius_along_on_pieces_out_of_path_order():
+    rng = np.random.default_rng(7)
+    pieces = _pieces(rng, 20)
+    shuffled = [pieces[i] for i in rng.permutation(len(pieces))]
+    s = rng.uniform(0.0, pieces[-1].s0 + pieces[-1].length, 300)
+    assert np.allclose(radius_along(shuffled, s), _by_each_piece(shuffled, s), rtol=1e-12, equal_nan=True)
+
+
+def test_radius_along_sees_a_list_changed_after_an_earlier_query():
+    rng = np.random.default_rng(3)
+    pieces = _pieces(rng, 10, gaps=False)
+    end = pieces[-1].s0 + pieces[-1].length
+    radius_along(pieces, [1.0])
+    pieces.append(Piece(end, 100.0, 1.0, 1.0, complex(0.0, 200.0), 1.064e-3, 1.0))
+    assert np.isfinite(radius_along(pieces, [end + 50.0])[0])
+
+
+def _reference_cast(table_size, footprints, zones, o, d, exclude):
+    """shapely's intersections of the ray with each outline, nearest first."""
+    reach = float(np.hypot(*table_size)) * 4.0 + 1.0
+    o, d = np.asarray(o, float), np.asarray(d, float)
+    ray = LineString([tuple(o), tuple(o + d * reach)])
+    outline = box(0, 0, *table_size)
+
+    def dists(geom):
+        if geom.is_empty:
+            return []
+        return [float((x - o[0]) * d[0] + (y - o[1]) * d[1])
+                for part in getattr(geom, "geoms", [geom]) for x, y in part.coords]
+
+    if not outline.covers(Point(o)):
+        return TABLE_EDGE, None, 0.0
+    best = (TABLE_EDGE, None, max(dists(outline.boundary.intersection(ray))))
+    for ident, shape in footprints.items():
+        if ident in exclude or shape.contains(Point(o)):
+            continue
+        ds = [x for x in dists(shape.boundary.intersection(ray)) if x > START_CLEARANCE]
+        if ds and min(ds) < best[2]:
+            best = (FOOTPRINT, ident, min(ds))
+    for ident, (_, poly) in zones.items():
+        ds = [x for x in dists(poly.exterior.intersection(ray)) if x > START_CLEARANCE]
+        if ds and min(ds) < best[2]:
+            best = (ZONE, ident, min(ds))
+    return best
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_ray_cast_finds_the_same_first_hit_as_shapely(seed):
+    rng = np.random.default_rng(100 + seed)
+    size = (1000.0, 600.0)
+    footprints = {}
+    for i in range(40):
+        x, y = rng.uniform(0, size[0]), rng.uniform(0, size[1])
+        shape = box(x - rng.uniform(2, 30), y - rng.uniform(2, 30), x + rng.uniform(2, 30), y + rng.uniform(2, 30))
+        footprints[f"F{i}"] = affinity.rotate(shape, float(rng.uniform(0, 90)))
+    # a footprint with a hole and an axis-aligned box edge the rays can run along
+    footprints["ring"] = Polygon([(400, 400), (500, 400), (500, 500), (400, 500)],
+                                 [[(430, 430), (470, 430), (470, 470), (430, 470)]])
+    zones = {"Z1": ("keepout", Polygon([(700, 50), (950, 50), (950, 250), (700, 250)]))}
+    table = Table(size, footprints, zones)
+    for _ in range(150):
+        if rng.random() < 0.3:   # start on a footprint's boundary, as a leak from a mirror does
+            ident = f"F{rng.integers(40)}"
+            o = np.asarray(footprints[ident].exterior.interpolate(rng.random(), normalized=True).coords[0])
+            exclude = {ident}
+        else:
+            o = rng.uniform([-20, -20], [size[0] + 20, size[1] + 20])
+            exclude = set()
+        angle = rng.choice([0.0, 90.0, 180.0, rng.uniform(0, 360)])
+        d = np.array([np.cos(np.radians(angle)), np.sin(np.radians(angle))])
+        got = table.cast(o, d, exclude=exclude)
+        kind, ident, dist = _reference_cast(size, footprints, zones, o, d, exclude)
+        assert (got.kind, got.id) == (kind, ident)
+        assert got.length == pytest.approx(dist, rel=1e-9, abs=1e-9)
+
+
+def test_ray_along_an_edge_of_a_footprint_meets_its_near_corner():
+    table = Table((100.0, 100.0), {"B": box(40, 10, 60, 20)}, {})
+    end = table.cast((10.0, 10.0), (1.0, 0.0))
+    assert (end.kind, end.id) == (FOOTPRINT, "B")
+    assert end.length == pytest.approx(30.0)   # derived: the corner (40, 10) is 30 mm along +x
+
+
+TRICKY_TOML = '''\
+a = """x = 1
+y"""
+b = ""
+c = "q\\"r"
+d = { e = 2, f = "g", "h i" = 3, j.k = 4 }
+l = [1, 2, { m = 'n' }]
+o.p = 1979-05-27T07:32:00
+q = 'lit'  # comment = 5
+[[r]]
+s = -1.5e3
+[r.t]
+u = true
+'''
+
+
+@pytest.mark.parametrize("name", ["tricky"] + [p.name for p in sorted(
+    (__import__("pathlib").Path(__file__).resolve().parents[1] / "layouts").rglob("*.toml"))])
+def test_the_one_match_path_of_the_position_scan_agrees_with_the_step_by_step_one(name, monkeypatch):
+    import re
+    from pathlib import Path
+
+    from benchcheck import tomlpos
+    if name == "tricky":
+        text = TRICKY_TOML
+    else:
+        text = next((Path(__file__).resolve().parents[1] / "layouts").rglob(name)).read_text(encoding="utf-8")
+    fast = tomlpos.key_positions(text)
+    monkeypatch.setattr(tomlpos, "_SIMPLE_KEY_VALUE", re.compile(r"(?!)"))   # never matches
+    slow = tomlpos.key_positions(text)
+    assert fast == slow
+    assert len(fast) > 10
