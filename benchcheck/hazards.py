@@ -128,6 +128,8 @@ class Segment:
     nohd_mm: float | None = None
     reaches: list = field(default_factory=list)   # [{"kind": "table-edge"|"keepout", "id"}]
     problem: str | None = None         # why it cannot be judged (never silently skipped)
+    #: the power is an upper bound (a passive cavity's reflection, an unknown coating)
+    at_most: bool = False
     notes: list[str] = field(default_factory=list)
     #: the corners where it is not straight (a stray bent by a lens it passes)
     points: tuple = ()
@@ -380,7 +382,8 @@ def _stray_segment(solution, r, polys) -> Segment:
     points = tuple(st.path_points())
     seg = Segment(st.kind, st.id, st.parent, (st.optic, st.parent), st.wavelength_nm, points[0], points[-1],
                   r.power_w, energy, pulse_s, rep_hz,
-                  end_kind=st.end.kind, end_id=st.end.id, end_zone_kind=st.end.zone_kind, points=points)
+                  end_kind=st.end.kind, end_id=st.end.id, end_zone_kind=st.end.zone_kind, points=points,
+                  at_most=r.at_most)
     focusing = [v for v in st.via if layout.optics[v].kind == "lens" or layout.optics[v].roc is not None]
     branch = st.depth > 0 or st.start_fraction != 1.0
     beams = []

@@ -37,7 +37,8 @@ def _mpe_key(pulsed: bool) -> str:
 def segment_json(s: Segment) -> dict:
     out = {
         "kind": s.kind, "id": s.id, "parent": s.parent, "wavelength_nm": _num(s.wavelength_nm),
-        "power_w": _num(s.power_w), "pulse_energy_j": _num(s.pulse_energy_j), "pulse_s": _num(s.pulse_s),
+        "power_w": _num(s.power_w), "power_is_upper_bound": s.at_most,
+        "pulse_energy_j": _num(s.pulse_energy_j), "pulse_s": _num(s.pulse_s),
         "rep_hz": _num(s.rep_hz), "w_um": _num(None if s.w_mm is None else s.w_mm * 1000.0),
         "start_mm": [_num(s.start[0]), _num(s.start[1])], "end_mm": [_num(s.end[0]), _num(s.end[1])],
         "length_mm": _num(s.length_mm), "directions": s.directions, "inside_enclosure": s.inside_enclosure,
@@ -139,7 +140,8 @@ def assessment_text(layout_file: str, bench_name: str, a: Assessment) -> str:
     for s in open_segs:
         ratio = "?" if s.ratio is None else f"{s.ratio:.3g}"
         reach = ", ".join("table edge" if r["kind"] == "table-edge" else r["id"] for r in s.reaches) or "-"
-        rows.append([s.kind, s.id, f"{s.wavelength_nm:g} nm", _power(s.power_w, s.pulse_energy_j),
+        rows.append([s.kind, s.id, f"{s.wavelength_nm:g} nm",
+                     ("<= " if s.at_most else "") + _power(s.power_w, s.pulse_energy_j),
                      f"{s.length_mm:.0f} mm", ratio, "-" if s.od is None else str(s.od), _nohd(s), reach])
     lines += _table(["kind", "segment", "wavelength", "power", "length", "exposure/MPE", "OD", "hazard dist.",
                      "reaches"], rows) if rows else ["  (none)"]
@@ -152,7 +154,8 @@ def assessment_text(layout_file: str, bench_name: str, a: Assessment) -> str:
 
 # --- CSV ---------------------------------------------------------------------------------
 
-CSV_COLUMNS = ("layout", "kind", "id", "parent", "wavelength_nm", "power_w", "pulse_energy_j", "inside_enclosure",
+CSV_COLUMNS = ("layout", "kind", "id", "parent", "wavelength_nm", "power_w", "power_is_upper_bound", "pulse_energy_j",
+               "inside_enclosure",
                "length_mm", "w_um", "exposure_s", "aperture_mm", "mpe_w_cm2", "mpe_j_cm2", "exposure_over_mpe",
                "od_required", "nohd_mm", "reaches", "problem")
 

@@ -484,7 +484,12 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
         if len(eta) and np.all(np.isfinite(eta)):
             coupling = {"beam": seed.path.id, "mode_match": [float(v) for v in np.percentile(eta, PERCENTILES)]}
             if cavity.circulating_w is not None and math.isfinite(cavity.circulating_w):
-                coupling["circulating_w"] = [float(v) for v in np.percentile(eta * cavity.circulating_w, PERCENTILES)]
+                # the planned circulating power already counts the planned mode match where
+                # a seed feeds the cavity: each build scales it by its own match over that one
+                enh = getattr(cavity, "enhancement", None)
+                planned = enh.mode_match if enh is not None and enh.mode_match else None
+                full = cavity.circulating_w / planned if planned else cavity.circulating_w
+                coupling["circulating_w"] = [float(v) for v in np.percentile(eta * full, PERCENTILES)]
     return CavityTolerance(cavity_id, samples, stable, margin, params, radius_um, ratio, rows, fit,
                            focus_samples, tolerances.margin_max_abs_m, coupling=coupling)
 

@@ -94,7 +94,7 @@ def tolerance_text(file: str, results: list, samples: int, seed: int, tolerances
             lines.append(f"  mode match of beam {res.coupling['beam']}: {v[0]:.4f} / {v[1]:.4f} / {v[2]:.4f}")
             if "circulating_w" in res.coupling:
                 v = res.coupling["circulating_w"]
-                lines.append(f"  circulating power x mode match (W): {v[0]:.4g} / {v[1]:.4g} / {v[2]:.4g}")
+                lines.append(f"  circulating power in the mode (W): {v[0]:.4g} / {v[1]:.4g} / {v[2]:.4g}")
         if res.sensitivity:
             lines.append("  what drives the spread (share of the variance, linear regression; R^2 of the fit):")
             by_output: dict = {}

@@ -228,7 +228,9 @@ def check_open_beams(bench, options):
     for seg in bench.hazards.segments:
         if seg.kind in (LEAK, SECONDARY):
             continue   # leak-beam judges those
-        if seg.problem and "no built-in exposure limit" in seg.problem:
+        if seg.problem and "no built-in exposure limit" in seg.problem and seg.inside_enclosure:
+            # enclosed, but the wavelength still needs a limit (eyewear for work with covers
+            # open): said once per wavelength; open segments are reported one by one below
             key = round(seg.wavelength_nm, 3)
             if key not in told:
                 told.add(key)
@@ -245,9 +247,15 @@ def check_open_beams(bench, options):
         both = " (both directions)" if first.directions == 2 else ""
         unknown = [s for s in segs if s.problem]
         if unknown:
-            yield Finding(f"{where} at {first.wavelength_nm:g} nm runs {length} on open bench and its hazard cannot "
-                          f"be judged: {unknown[0].problem}", first.targets, severity=ERROR,
-                          hint="give the power (or pulse energy, pulse_s and rep_hz) of what feeds it", at=_mid(first))
+            strongest = max(segs, key=lambda s: (s.pulse_energy_j or 0.0, s.power_w or 0.0))
+            level = (f", carrying up to {_amount(strongest)}, above the open-beam limit (Class 4 level)"
+                     if _class4(bench, strongest) else "")
+            no_mpe = "no built-in exposure limit" in unknown[0].problem
+            yield Finding(f"{where} at {first.wavelength_nm:g} nm runs {length} on open bench{level} and its hazard "
+                          f"cannot be judged: {unknown[0].problem}", first.targets, severity=ERROR,
+                          hint="add the MPE your laser safety officer uses for this wavelength to the repository "
+                               "configuration" if no_mpe else
+                               "give the power (or pulse energy, pulse_s and rep_hz) of what feeds it", at=_mid(first))
             continue
         worst = max(segs, key=lambda s: s.ratio)
         strongest = max(segs, key=lambda s: (s.pulse_energy_j or 0.0, s.power_w or 0.0))

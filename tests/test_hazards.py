@@ -20,6 +20,7 @@ import csv
 import io
 import json
 import math
+from pathlib import Path
 
 import pytest
 
@@ -448,3 +449,27 @@ def test_tolerance_output_with_power_figures_carries_the_caution(capsys):
     assert "laser safety officer" in capsys.readouterr().out
     assert main(["tolerance", str(bowtie), "--samples", "200", "--format", "json"]) == 0
     assert "laser safety officer" in json.loads(capsys.readouterr().out)["caution"]
+
+
+def test_every_open_beam_at_a_wavelength_without_an_mpe_is_reported():
+    """Two beams at 170 nm (no built-in limit): each open one is its own error, so that a
+    waiver on one cannot hide the other, and 5 W is said to be above the Class 4 level."""
+    text = layout(
+        optic("BS", "splitter", at=[300.0, 200.0], reflectivity=0.5, fold=90.0),
+        optic("D1", "dump", at=[300.0, 350.0]),
+        optic("D2", "dump", at=[700.0, 200.0]),
+        source("UV", at=[50.0, 200.0], heading=0.0, wavelength_nm=170.0, waist=1.0, power_w=5.0),
+        beam("main", "UV", ["BS", "D2"]),
+        beam("refl", "UV", [{"id": "BS", "fold": 90.0}, "D1"]),
+        size=(800.0, 400.0))
+    found = run("open-beam", text)
+    assert sorted(f.targets[0] for f in found) == ["main", "refl"]
+    assert all(f.severity == "error" and "[exposure.mpe]" in f.message and "Class 4" in f.message for f in found)
+
+
+def test_an_upper_bound_power_stays_marked_in_the_hazard_figures(tmp_path, capsys):
+    bowtie = Path(__file__).resolve().parent.parent / "layouts" / "bowtie-enhancement.toml"
+    assert main(["hazards", str(bowtie), "--format", "json"]) == 0
+    segs = {s["id"]: s for s in json.loads(capsys.readouterr().out)["segments"]}
+    assert segs["enh/IC"]["power_is_upper_bound"] is True         # the cavity's reflection: at most
+    assert segs["enh/M2"]["power_is_upper_bound"] is False

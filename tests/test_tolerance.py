@@ -284,3 +284,22 @@ def test_json_of_a_passive_cavity_has_its_seed_beam(tmp_path, capsys):
     seed = cav["seed_beam"]
     assert seed["beam"] == "seed" and len(seed["mode_match"]) == 3 and len(seed["circulating_w"]) == 3
     assert 0 < seed["mode_match"][0] <= seed["mode_match"][2] <= 1
+
+
+def test_the_seeded_cavitys_power_is_not_counted_twice_against_its_mode_match(capsys):
+    """The beam table's circulating power of a seeded passive cavity already counts the
+    planned mode match; the tolerance run's median power in the mode must sit on it (the
+    demo's tolerances move the match by well under a per cent), not at that power times the
+    match once more (0.965 of it)."""
+    import json
+    from pathlib import Path
+
+    from benchcheck import beam_table, solve_file
+    from benchcheck.cli import main as cli_main
+
+    bowtie = Path(__file__).resolve().parent.parent / "layouts" / "bowtie-enhancement.toml"
+    planned = beam_table(solve_file(bowtie))["cavities"][0]["circulating_w"]
+    assert cli_main(["tolerance", str(bowtie), "--samples", "1000", "--format", "json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    p5, p50, p95 = doc["cavities"][0]["seed_beam"]["circulating_w"]
+    assert p5 <= planned <= p95 and abs(p50 / planned - 1) < 0.01
