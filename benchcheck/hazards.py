@@ -190,8 +190,11 @@ class Assessment:
 
 # --- building the segments ------------------------------------------------------------------
 
-def enclosures(layout) -> list[Polygon]:
-    return [Polygon(z.polygon) for z in layout.zones if z.kind == "enclosure"]
+def enclosures(layout):
+    """All enclosure zones as one cover (two boxes that abut count as one), built once per
+    bench; None where there is no enclosure."""
+    polys = [Polygon(z.polygon) for z in layout.zones if z.kind == "enclosure"]
+    return unary_union(polys) if polys else None
 
 
 def _line(points):
@@ -202,20 +205,9 @@ def _line(points):
     return Point(pts[0])
 
 
-def enclosed(polys: list[Polygon], points) -> bool:
-    """A stretch of beam is enclosed when the enclosures together cover all of it (two
-    boxes that abut count as one cover)."""
-    if not polys:
-        return False
-    return unary_union(polys).covers(_line(points))
-
-
-def open_length(polys: list[Polygon], points) -> float:
-    """How much of a stretch (mm) no enclosure covers."""
-    line = _line(points)
-    if not polys:
-        return float(line.length)
-    return float(line.difference(unary_union(polys)).length)
+def enclosed(cover, points) -> bool:
+    """A stretch of beam is enclosed when the cover holds all of it."""
+    return cover is not None and cover.covers(_line(points))
 
 
 def tail_power(layout, b, wavelength_nm):
@@ -305,7 +297,7 @@ def _pulse_of(layout, origin: str):
 
 def segments(solution) -> list[Segment]:
     layout, traced = solution.layout, solution.trace
-    polys = enclosures(layout)
+    cover = enclosures(layout)
     out: list[Segment] = []
     for cid, path in traced.cavities.items():
         cav, res = layout.cavities[cid], solution.cavities[cid]
@@ -323,7 +315,7 @@ def segments(solution) -> list[Segment]:
                           None if res.circulating_w is None or rep_hz is None else res.circulating_w / rep_hz,
                           pulse_s, rep_hz, _smallest_radius(res.profile, a.s, s1),
                           directions=2 if path.role == "linear" else 1)
-            _cover(seg, polys)
+            _cover(seg, cover)
             out.append(seg)
     for bid, path in traced.beams.items():
         res = solution.beams[bid]
@@ -337,7 +329,7 @@ def segments(solution) -> list[Segment]:
                           pts[k], pts[k + 1], res.hits[k].power_w, res.hits[k].energy_j, pulse_s, rep_hz,
                           _smallest_radius(res.profile, s_at[k], s_at[k + 1]),
                           end_kind="optic", end_id=path.hits[k].optic)
-            _cover(seg, polys)
+            _cover(seg, cover)
             out.append(seg)
         if path.tail is not None:
             last = path.hits[-1]
@@ -353,14 +345,14 @@ def segments(solution) -> list[Segment]:
                 if g is not None:
                     beams.append(g)
             seg.beam = tuple(beams) if len(beams) == len(PLANES) else ()
-            _cover(seg, polys)
+            _cover(seg, cover)
             out.append(seg)
     for r in solution.strays:
-        out.append(_stray_segment(solution, r, polys))
+        out.append(_stray_segment(solution, r, cover))
     return out
 
 
-def _stray_segment(solution, r, polys) -> Segment:
+def _stray_segment(solution, r, cover) -> Segment:
     """A leak or secondary beam along the polyline it follows (it may pass optics inside
     their clear aperture), with its power where it starts."""
     layout, traced = solution.layout, solution.trace
@@ -411,7 +403,7 @@ def _stray_segment(solution, r, polys) -> Segment:
                          f"on \"{st.optic}\"")
     if st.optic in layout.optics and layout.optics[st.optic].roc is not None and st.kind == "leak":
         seg.notes.append(f"the lens of \"{st.optic}\"'s curved substrate is not applied to this leak")
-    _cover(seg, polys)
+    _cover(seg, cover)
     return seg
 
 
@@ -431,9 +423,11 @@ def _arrives_backwards(path, st) -> bool:
     return False
 
 
-def _cover(seg: Segment, polys: list[Polygon]) -> None:
-    seg.open_mm = open_length(polys, seg.polyline)
-    seg.inside_enclosure = enclosed(polys, seg.polyline)
+def _cover(seg: Segment, cover) -> None:
+    """Whether the enclosures hold the segment, and how much of it (mm) they leave open."""
+    line = _line(seg.polyline)
+    seg.inside_enclosure = cover is not None and cover.covers(line)
+    seg.open_mm = float(line.length if cover is None else line.difference(cover).length)
 
 
 def _xy(p) -> tuple[float, float]:

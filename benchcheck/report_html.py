@@ -198,7 +198,7 @@ class Report:
         from .hazards import enclosed
 
         for z in self.layout.zones:
-            if z.kind == "enclosure" and enclosed([Polygon(z.polygon)], points):
+            if z.kind == "enclosure" and enclosed(Polygon(z.polygon), points):
                 return z.id
         return None
 
