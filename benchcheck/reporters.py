@@ -44,6 +44,20 @@ NOT_AN_APPROVAL = ("No findings: the plan passed the rules that ran. This is not
                    "'benchcheck hazards' lists the exposure figures for the laser safety officer's review.")
 
 
+def clean(results: list[FileResult]) -> bool:
+    """Every input was read and no unwaived finding remains: the run that must still say
+    that it is no approval."""
+    return not any(not f.waived for f in all_findings(results)) and not any(r.errors for r in results)
+
+
+def verdict(results: list[FileResult]) -> str:
+    """One sentence for machine outputs, whose readers may show nothing else."""
+    if clean(results):
+        return NOT_AN_APPROVAL
+    return "Findings or input problems remain (see 'findings' and 'errors'). " \
+           "Passing the rules is never a safety approval."
+
+
 # --- text -------------------------------------------------------------------------------
 
 def input_errors(results: list[FileResult]) -> tuple[int, int]:
@@ -70,9 +84,13 @@ def text_report(results: list[FileResult], rules: dict) -> str:
     counts = {s: sum(1 for f in findings if f.severity == s and not f.waived) for s in ("error", "warning", "note")}
     waived = sum(1 for f in findings if f.waived)
     unreadable, setup = input_errors(results)
-    counts["error"] += unreadable + setup
+    missing = sum(1 for r in results if not r.layout)
+    counts["error"] += unreadable + setup + missing
     parts = [f"{n} {s}{'s' if n != 1 else ''}" for s, n in counts.items()]
     why = []
+    if missing:
+        why.append(f"{missing} path{'s' if missing != 1 else ''} named on the command line "
+                   f"{'do' if missing != 1 else 'does'} not exist")
     if unreadable:
         why.append(f"{unreadable} layout{'s' if unreadable != 1 else ''} could not be read or solved")
     if setup:
@@ -82,7 +100,7 @@ def text_report(results: list[FileResult], rules: dict) -> str:
     summary = ", ".join(parts) + (f"; {waived} waived" if waived else "")
     files = sum(1 for r in results if r.layout)
     lines.append(f"{summary} in {files} layout{'s' if files != 1 else ''}")
-    if not any(not f.waived for f in findings) and not any(r.errors for r in results):
+    if clean(results):
         lines.append(NOT_AN_APPROVAL)
     lines.append(SAFETY_CAUTION)
     return "\n".join(one_line(line) for line in lines) + "\n"
@@ -97,6 +115,7 @@ def json_report(results: list[FileResult], rules: dict) -> str:
         "findings": [f.as_json() for f in findings],
         "files": [r.file for r in results if r.layout],
         "errors": list(dict.fromkeys(e for r in results for e in r.errors)),
+        "verdict": verdict(results),
         "caution": SAFETY_CAUTION,
     }
     return json.dumps(doc, indent=2, allow_nan=False) + "\n"
@@ -155,7 +174,7 @@ def sarif_report(results: list[FileResult], rules: dict, root: Path | None = Non
         "results": out_results,
         "invocations": [{"executionSuccessful": not notifications,
                          "toolExecutionNotifications": notifications}],
-        "properties": {"caution": SAFETY_CAUTION},
+        "properties": {"verdict": verdict(results), "caution": SAFETY_CAUTION},
     }
     doc = {"$schema": SARIF_SCHEMA, "version": "2.1.0", "runs": [run]}
     return json.dumps(doc, indent=2, allow_nan=False) + "\n"
@@ -211,7 +230,7 @@ def github_report(results: list[FileResult], rules: dict, root: Path | None = No
                      f"{_escape_data(f.message + hint)}")
     for e in dict.fromkeys(e for r in results for e in r.errors):
         lines.append(f"::error::{_escape_data(e)}")
-    if not any(not f.waived for f in all_findings(results)) and not any(r.errors for r in results):
+    if clean(results):
         lines.append(f"::notice title=benchcheck::{_escape_data(NOT_AN_APPROVAL)}")
     lines.append(f"::notice title=benchcheck::{_escape_data(SAFETY_CAUTION)}")
     return "\n".join(lines) + ("\n" if lines else "")

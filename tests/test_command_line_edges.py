@@ -59,7 +59,8 @@ def test_a_missing_file_is_an_error_and_not_a_layout(tmp_path, capsys):
     code, out, err = run(capsys, "check", missing, layout, "--jobs", "1")
     assert code == 2
     assert f"{missing}: error: no such file or folder" in err
-    assert re.search(r"^\d+ errors?, .* in 1 layout$", out, re.M), out
+    assert re.search(r"^\d+ errors? \(1 path named on the command line does not exist\), .* in 1 layout$",
+                     out, re.M), out
     code, out, err = run(capsys, "check", missing, layout, "--jobs", "1", "--format", "json")
     doc = json.loads(out)
     assert doc["files"] == [str(layout)] and f"{missing}: error: no such file or folder" in doc["errors"]

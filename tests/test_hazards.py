@@ -271,6 +271,13 @@ def test_a_clean_check_says_it_is_not_a_safety_approval(tmp_path, capsys):
     assert main(["check", str(path), "--jobs", "1", "--format", "github"]) == 0
     out = capsys.readouterr().out
     assert "not a safety approval" in out and "laser safety officer" in out
+    # machine outputs too: a reader that shows only the JSON or the SARIF run sees it
+    assert main(["check", str(path), "--jobs", "1", "--format", "json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["findings"] == [] and "not a safety approval" in doc["verdict"]
+    assert main(["check", str(path), "--jobs", "1", "--format", "sarif"]) == 0
+    props = json.loads(capsys.readouterr().out)["runs"][0]["properties"]
+    assert "not a safety approval" in props["verdict"] and "laser safety officer" in props["caution"]
 
 
 def test_sarif_help_of_every_safety_rule_carries_the_caution(tmp_path, capsys):
@@ -439,6 +446,9 @@ def test_an_unreadable_layout_is_never_called_clean(tmp_path, capsys):
     assert main(["check", str(path), "--jobs", "1"]) == 2
     out = capsys.readouterr().out
     assert "not a safety approval" not in out and "laser safety officer" in out
+    assert main(["check", str(path), "--jobs", "1", "--format", "json"]) == 2
+    verdict = json.loads(capsys.readouterr().out)["verdict"]
+    assert "not a safety approval" not in verdict and "never a safety approval" in verdict
 
 
 def test_tolerance_output_with_power_figures_carries_the_caution(capsys):
