@@ -179,15 +179,37 @@ def _unit(v):
     return v / np.linalg.norm(v, axis=-1, keepdims=True)
 
 
-def _chain(mats):
-    """Round-trip elements (A, B, C, D) from step matrices that may hold arrays."""
+def _step_terms(steps) -> list:
+    """Each step of a train as what the builds need of it: None for a marker, the reduced
+    length B (scalar or (n,)) for free space, the matrix of a thin element.  Free space is
+    [[1, B], [0, 1]]: multiplying by it is a shift, so no matrix is built for it."""
+    return [None if isinstance(st, Marker) else (st.length * st.k if isinstance(st, Space) else st.matrix())
+            for st in steps]
+
+
+def _chain(terms):
+    """Round-trip elements (A, B, C, D) from ``_step_terms`` that may hold arrays.
+
+    A free-space step adds B times the lower row to the upper one (1 * x + B * y, with the
+    exact 1 and 0 of its matrix dropped: the same numbers)."""
     a, b, c, d = 1.0, 0.0, 0.0, 1.0
-    for m in mats:
+    for m in terms:
         if m is None:
+            continue
+        if not isinstance(m, np.ndarray) or m.ndim < 2:
+            a, b = a + m * c, b + m * d
             continue
         ma, mb, mc, md = m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1]
         a, b, c, d = ma * a + mb * c, ma * b + mb * d, mc * a + md * c, mc * b + md * d
     return a, b, c, d
+
+
+def _advance(term, q):
+    """q^ through one step of ``_step_terms``: q + B across free space (the ABCD law with
+    A = D = 1, C = 0), the full law through a thin element."""
+    if not isinstance(term, np.ndarray) or term.ndim < 2:
+        return q + term
+    return gauss.propagate(term, q)
 
 
 @dataclass
@@ -211,7 +233,7 @@ def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set
     ms, radii, q_out, oks = {}, {}, {}, {}
     for plane in PLANES:
         train = cavity_train(lay, pth, plane, thermal)
-        mats = [None if isinstance(st, Marker) else st.matrix() for st in train.steps]
+        mats = _step_terms(train.steps)
         a, b, c, d = (np.broadcast_to(v, (n,)) for v in _chain(mats))
         rt = np.stack([np.stack([a, b], -1), np.stack([c, d], -1)], -2)
         ms[plane] = (a + d) / 2.0
@@ -236,7 +258,7 @@ def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set
                 q_out[plane] = np.broadcast_to(q, (n,))
                 waiting = False
             with np.errstate(invalid="ignore"):
-                q = gauss.propagate(m, q)
+                q = _advance(m, q)
         radii[plane] = r
     return Chunk(ms, radii, q_out, oks)
 
@@ -250,12 +272,13 @@ def seed_q(layout, path, params: list[Parameter], x: np.ndarray, oriented: set, 
         w0, m2 = (source.waist_t, source.m2_t) if plane == TANGENTIAL else (source.waist_s, source.m2_s)
         q = gauss.q_at_distance_from_waist(w0, -source.waist_at, wavelength, m2)
         last = len(path.hits) - 1
-        for st in beam_train(lay, pth, plane).steps:
+        steps = beam_train(lay, pth, plane).steps
+        for st, term in zip(steps, _step_terms(steps)):
             if isinstance(st, Marker):
                 if st.hit == last:
                     break
                 continue
-            q = gauss.propagate(st.matrix(), q)
+            q = _advance(term, q)
         out[plane] = np.broadcast_to(q, (len(x),))
     return out
 
