@@ -485,12 +485,15 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
             progress(done, samples)
     radius_um, ratio, focus_samples = {}, {}, {}
     all_r = {p: (np.concatenate(kept[p]) if kept[p] else np.empty((0, len(hit_optics)), np.float32)) for p in PLANES}
-    for oid, i in first.items():
-        entry = {}
-        for p in PLANES:
-            col = all_r[p][:, i].astype(float) * 1e3
-            if len(col) and np.all(np.isfinite(col)):
-                entry[p] = [float(v) for v in np.percentile(col, PERCENTILES)]
+    # every optic's column at once: the same order statistics as one column at a time
+    pct, finite = {}, {}
+    for p in PLANES:
+        if len(all_r[p]):
+            cols = all_r[p][:, list(first.values())].astype(float) * 1e3
+            pct[p] = np.percentile(cols, PERCENTILES, axis=0).T.tolist()
+            finite[p] = np.all(np.isfinite(cols), axis=0).tolist()
+    for j, (oid, i) in enumerate(first.items()):
+        entry = {p: pct[p][j] for p in pct if finite[p][j]}
         if entry:
             radius_um[oid] = entry
         if oid in focus and len(all_r[TANGENTIAL]):
