@@ -214,20 +214,27 @@ def _reduced_length(train: Train) -> float:
 
 
 def _halves(train: Train, role: str):
-    """(H1, H2) splits of the round trip for a +-I boundary: the repeating halves."""
+    """(H1, H2) splits of the round trip for a +-I boundary: the repeating halves.  A
+    generator: only a round trip on that boundary asks for them."""
     marks = [i for i, st in enumerate(train.steps) if isinstance(st, Marker)]
-    out = []
     if role == "linear":
         k = marks[-1]
-        out.append((_product(train.steps[:k]), _product(train.steps[k:])))
+        yield _product(train.steps[:k]), _product(train.steps[k:])
     else:
         scale = max(_reduced_length(train), 1e-9)
         for k in marks[1:]:
             h1, h2 = _product(train.steps[:k]), _product(train.steps[k:])
             d = np.abs(h1 - h2)
             if d[0, 0] < 1e-9 and d[1, 1] < 1e-9 and d[0, 1] < 1e-9 * scale and d[1, 0] * scale < 1e-9:
-                out.append((h1, h2))
-    return out
+                yield h1, h2
+
+
+def _advance(st, q: complex) -> complex:
+    """q^ after one step: across free space q^ + B (the ABCD law with A = D = 1, C = 0 gives
+    exactly that), through a thin element the full law."""
+    if isinstance(st, Space):
+        return q + st.reduced()
+    return complex(gauss.propagate(st.matrix(), q))
 
 
 @dataclass(frozen=True)
@@ -321,7 +328,7 @@ def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):
                     z = min(max(z, 0.0), st.length)
                     w0 = st.scale * float(gauss.radius(q + z * st.k, wavelength, m2))
                     waists.append((st.s0 + z, w0))
-        q = complex(gauss.propagate(st.matrix(), q))
+        q = _advance(st, q)
     return at_marks, waists, pieces
 
 
@@ -767,7 +774,7 @@ def _q_at_marker(train: Train, q0: complex, hit_index: int, after: bool = False)
             continue
         if found and isinstance(st, Space):
             return q
-        q = complex(gauss.propagate(st.matrix(), q))
+        q = _advance(st, q)
     if found:
         return q
     raise AssertionError("marker not in train")

@@ -183,7 +183,7 @@ def _step_terms(steps) -> list:
     """Each step of a train as what the builds need of it: None for a marker, the reduced
     length B (scalar or (n,)) for free space, the matrix of a thin element.  Free space is
     [[1, B], [0, 1]]: multiplying by it is a shift, so no matrix is built for it."""
-    return [None if isinstance(st, Marker) else (st.length * st.k if isinstance(st, Space) else st.matrix())
+    return [None if isinstance(st, Marker) else (st.reduced() if isinstance(st, Space) else st.matrix())
             for st in steps]
 
 

@@ -43,6 +43,11 @@ class Space:
     def matrix(self) -> np.ndarray:
         return abcd.free_space(self.length * self.k)
 
+    def reduced(self):
+        """B = length * k of ``matrix()`` (the matrix is [[1, B], [0, 1]]): crossing free
+        space adds it to q^, with no matrix to build."""
+        return self.length * self.k
+
 
 @dataclass
 class Thin:
