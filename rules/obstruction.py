@@ -24,6 +24,7 @@ by construction they end on the first footprint they meet, and ``leak-beam`` rep
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -70,11 +71,12 @@ def edge_fraction(clearance: float, radius: float) -> float:
     return float(edge_clip_fraction(clearance, radius))
 
 
+@functools.lru_cache(maxsize=32)
 def clearance_ratio(fraction: float) -> float:
     """delta / w at which the edge passes ``fraction``: the inverse of ``edge_fraction``.
 
     Solved by bisection on the monotone erfc (the standard library has no inverse), to
-    1e-12 in delta / w.
+    1e-12 in delta / w.  Kept per limit: every check asks again with the same one.
     """
     if not 0.0 < fraction < 1.0:
         raise ValueError(f"a clipped fraction must lie between 0 and 1, not {fraction!r}")
