@@ -150,11 +150,11 @@ def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: s
     n = len(pts)
     if path.role == "beam":
         pts = [np.broadcast_to(np.asarray(path.start, dtype=float), pts[0].shape)] + pts
-        segs = [np.linalg.norm(pts[i + 1] - pts[i], axis=-1) for i in range(n)]
-    elif path.role == "linear":
-        segs = [np.linalg.norm(pts[i + 1] - pts[i], axis=-1) for i in range(n - 1)]
-    else:
-        segs = [np.linalg.norm(pts[(i + 1) % n] - pts[i], axis=-1) for i in range(n)]
+    # every leg at once, closing leg included: leg k runs from point k to point k + 1
+    legs = np.roll(np.stack(pts, axis=1), -1, axis=1) - np.stack(pts, axis=1)
+    lengths = np.linalg.norm(legs, axis=-1)
+    segs = [lengths[:, k] for k in range(n if path.role == "ring" else len(pts) - 1)]
+    fold_aoi = None
     hits = []
     for i, h in enumerate(path.hits):
         aoi = h.aoi
@@ -165,18 +165,17 @@ def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: s
             j, last = i, False
             turns = not (path.role == "linear" and i in (0, n - 1))
         if h.action == REFLECT and turns and h.optic in oriented:
-            d_in = _unit(pts[j] - pts[j - 1])
-            d_out = _unit(pts[(j + 1) % len(pts)] - pts[j])
-            cos_fold = np.clip(-np.sum(d_in * d_out, axis=-1), -1.0, 1.0)
-            aoi = 0.5 * np.arccos(cos_fold)
+            if fold_aoi is None:
+                # the fold at every point: half the angle between the legs in and out
+                with np.errstate(invalid="ignore", divide="ignore"):
+                    units = legs / lengths[..., None]
+                    cos_fold = np.clip(-np.sum(np.roll(units, 1, axis=1) * units, axis=-1), -1.0, 1.0)
+                    fold_aoi = 0.5 * np.arccos(cos_fold)
+            aoi = fold_aoi[:, j]
         elif (h.optic, "tilt") in col:
             aoi = np.abs(h.aoi + col[(h.optic, "tilt")])
         hits.append(replace(h, aoi=aoi))
     return replace(layout, optics=optics), replace(path, hits=hits, segments=segs), thermal
-
-
-def _unit(v):
-    return v / np.linalg.norm(v, axis=-1, keepdims=True)
 
 
 def _step_terms(steps) -> list:
@@ -441,8 +440,12 @@ def focus_optics(layout, path, cavity) -> list[str]:
 
 
 def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples: int, rng: np.random.Generator,
-               progress=None) -> CavityTolerance:
-    """The Monte Carlo of one cavity; ``progress(done, total)`` is called after each chunk."""
+               progress=None, summary: bool = True) -> CavityTolerance:
+    """The Monte Carlo of one cavity; ``progress(done, total)`` is called after each chunk.
+
+    ``summary=False`` (the build-yield rule): the same builds, yields and sensitivity
+    ranking, without the percentiles of radii, ratios and mode match (``radius_um``,
+    ``ratio``, ``focus`` and ``coupling`` left empty), which cost a sort of every column."""
     layout = solution.layout
     path = solution.trace.cavities[cavity_id]
     cavity = solution.cavities[cavity_id]
@@ -478,11 +481,15 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
         y = np.stack(y, -1)
         y[~both] = np.nan
         sens.add(x, y)
-        for p in PLANES:
+        for p in PLANES if summary else ():
             kept[p].append(ch.radius[p][both].astype(np.float32))
         done += n
         if progress is not None:
             progress(done, samples)
+    rows, fit = sens.shares(params)
+    if not summary:
+        return CavityTolerance(cavity_id, samples, stable, margin, params, {}, {}, rows, fit, {},
+                               tolerances.margin_max_abs_m)
     radius_um, ratio, focus_samples = {}, {}, {}
     all_r = {p: (np.concatenate(kept[p]) if kept[p] else np.empty((0, len(hit_optics)), np.float32)) for p in PLANES}
     # every optic's column at once: the same order statistics as one column at a time
@@ -503,7 +510,6 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
         if len(all_r[TANGENTIAL]):
             r = all_r[TANGENTIAL][:, i].astype(float) / all_r[SAGITTAL][:, i].astype(float)
             ratio[oid] = [float(v) for v in np.percentile(r, PERCENTILES)]
-    rows, fit = sens.shares(params)
     coupling = {}
     if seed and matches:
         eta = np.concatenate(matches).astype(float)
