@@ -364,8 +364,8 @@ def check(bench, options):
         if sampler is None:
             continue    # no beam size on this leg in either plane (e.g. an unstable cavity)
         margin = max(MARGIN_RADII, ratio_needed) * float(np.nanmax(sampler.w)) + MARGIN_MM
-        corridor = sampler.line.buffer(margin)
-        for k in sorted(int(x) for x in tree.query(corridor, predicate="intersects")):
+        # the footprints within ``margin`` of the leg (exact distance: no buffer polygon built)
+        for k in sorted(int(x) for x in tree.query(sampler.line, predicate="dwithin", distance=margin)):
             oid = ids[k]
             if oid in leg.exempt:
                 continue
