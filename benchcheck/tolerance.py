@@ -151,8 +151,10 @@ def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: s
     if path.role == "beam":
         pts = [np.broadcast_to(np.asarray(path.start, dtype=float), pts[0].shape)] + pts
     # every leg at once, closing leg included: leg k runs from point k to point k + 1
+    # (sums over the last axis of 2 written out: numpy's reduction over so short an axis
+    # is slow; x0 * x0 + x1 * x1 is exactly what the norm adds up)
     legs = np.roll(np.stack(pts, axis=1), -1, axis=1) - np.stack(pts, axis=1)
-    lengths = np.linalg.norm(legs, axis=-1)
+    lengths = np.sqrt(legs[..., 0] * legs[..., 0] + legs[..., 1] * legs[..., 1])
     segs = [lengths[:, k] for k in range(n if path.role == "ring" else len(pts) - 1)]
     fold_aoi = None
     hits = []
@@ -169,7 +171,9 @@ def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: s
                 # the fold at every point: half the angle between the legs in and out
                 with np.errstate(invalid="ignore", divide="ignore"):
                     units = legs / lengths[..., None]
-                    cos_fold = np.clip(-np.sum(np.roll(units, 1, axis=1) * units, axis=-1), -1.0, 1.0)
+                    before = np.roll(units, 1, axis=1)
+                    dot = before[..., 0] * units[..., 0] + before[..., 1] * units[..., 1]
+                    cos_fold = np.clip(-dot, -1.0, 1.0)
                     fold_aoi = 0.5 * np.arccos(cos_fold)
             aoi = fold_aoi[:, j]
         elif (h.optic, "tilt") in col:
