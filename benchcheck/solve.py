@@ -400,7 +400,7 @@ def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan 
         span = np.array([r[1] - r[0] for r in ranges])
 
         def round_trips(unit):
-            return _round_trips(layout, path, plane, axes, low + np.atleast_2d(unit) * span)
+            return _round_trips(trains[plane], axes, low + np.atleast_2d(unit) * span)
 
         coef = bernstein.coefficients(abcd.half_trace(round_trips(bernstein.nodes(degrees))), degrees)
         lowest, highest = bernstein.value_range(coef)
@@ -415,11 +415,15 @@ def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan 
     return ThermalScan(lenses, design, stable, m_range)
 
 
-def _round_trips(layout: Layout, path: PathTrace, plane: str, crystals: list, samples: np.ndarray) -> np.ndarray:
-    """Round-trip matrices (K, 2, 2) for each row of lens powers (vectorised over rows)."""
-    powers = {(cid, plane): samples[:, j] for j, cid in enumerate(crystals)}
-    train = cavity_train(layout, path, plane, powers)
-    return np.broadcast_to(_product(train.steps), (len(samples), 2, 2))
+def _round_trips(train: Train, crystals: list, samples: np.ndarray) -> np.ndarray:
+    """Round-trip matrices (K, 2, 2) for each row of lens powers (vectorised over rows):
+    the plan's train with its thermal lenses of ``crystals`` given those powers (each lens
+    as ``unfold.element_steps`` builds it; a lens met backwards has A = D = 1, unchanged)."""
+    column = {cid: samples[:, j] for j, cid in enumerate(crystals)}
+    steps = [Thin(abcd.lens_power(np.asarray(column[st.thermal]) * st.thermal_factor), st.label, st.thermal,
+                  st.thermal_factor)
+             if isinstance(st, Thin) and st.thermal in column else st for st in train.steps]
+    return np.broadcast_to(_product(steps), (len(samples), 2, 2))
 
 
 def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | None:
