@@ -249,18 +249,21 @@ def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set
         r = np.full((n, len(path.hits)), np.nan)
         seen = set()
         waiting = False
-        for st, m in zip(train.steps, mats):
-            if m is None:
-                if st.hit not in seen:
-                    seen.add(st.hit)
-                    with np.errstate(invalid="ignore"):
+        # past the last marker (the whole way back of a linear cavity) nothing more is read
+        last = max((k for k, m in enumerate(mats) if m is None), default=-1)
+        with np.errstate(invalid="ignore"):
+            for k, (st, m) in enumerate(zip(train.steps, mats)):
+                if k > last and not waiting:
+                    break
+                if m is None:
+                    if st.hit not in seen:
+                        seen.add(st.hit)
                         r[:, st.hit] = st.scale * gauss.radius(q, wavelength)
-                    waiting = st.hit == q_after
-                continue
-            if waiting and isinstance(st, Space):
-                q_out[plane] = np.broadcast_to(q, (n,))
-                waiting = False
-            with np.errstate(invalid="ignore"):
+                        waiting = st.hit == q_after
+                    continue
+                if waiting and isinstance(st, Space):
+                    q_out[plane] = np.broadcast_to(q, (n,))
+                    waiting = False
                 q = _advance(m, q)
         radii[plane] = r
     return Chunk(ms, radii, q_out, oks)
