@@ -145,23 +145,27 @@ def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: s
                     powers = [1.0 / f for f in vals]
                     lo, hi = min(powers), max(powers)
                     thermal[(oid, plane)] = lo + u * (hi - lo)
-    pts = [np.stack([h.point[0] + col.get((h.optic, "x"), zero), h.point[1] + col.get((h.optic, "y"), zero)], -1)
-           for h in path.hits]
-    n = len(pts)
-    if path.role == "beam":
-        pts = [np.broadcast_to(np.asarray(path.start, dtype=float), pts[0].shape)] + pts
+    n = len(path.hits)
+    first = 1 if path.role == "beam" else 0        # a beam's points start at its source
+    px, py = np.empty((len(x), n + first)), np.empty((len(x), n + first))
+    if first:
+        px[:, 0], py[:, 0] = path.start[0], path.start[1]
+    for i, h in enumerate(path.hits):
+        px[:, first + i] = h.point[0] + col.get((h.optic, "x"), zero)
+        py[:, first + i] = h.point[1] + col.get((h.optic, "y"), zero)
     # every leg at once, closing leg included: leg k runs from point k to point k + 1
-    # (sums over the last axis of 2 written out: numpy's reduction over so short an axis
-    # is slow; x0 * x0 + x1 * x1 is exactly what the norm adds up)
-    legs = np.roll(np.stack(pts, axis=1), -1, axis=1) - np.stack(pts, axis=1)
-    lengths = np.sqrt(legs[..., 0] * legs[..., 0] + legs[..., 1] * legs[..., 1])
-    segs = [lengths[:, k] for k in range(n if path.role == "ring" else len(pts) - 1)]
+    # (the norm's sum over x and y written out, in the order np.linalg.norm adds them)
+    lx, ly = np.empty_like(px), np.empty_like(py)
+    lx[:, :-1], lx[:, -1] = px[:, 1:] - px[:, :-1], px[:, 0] - px[:, -1]
+    ly[:, :-1], ly[:, -1] = py[:, 1:] - py[:, :-1], py[:, 0] - py[:, -1]
+    lengths = np.sqrt(lx * lx + ly * ly)
+    segs = [lengths[:, k] for k in range(n if path.role == "ring" else n + first - 1)]
     fold_aoi = None
     hits = []
     for i, h in enumerate(path.hits):
         aoi = h.aoi
         if path.role == "beam":
-            j, last = i + 1, i == n - 1       # pts[0] is the beam's start
+            j, last = i + 1, i == n - 1       # point 0 is the beam's start
             turns = not last
         else:
             j, last = i, False
@@ -170,11 +174,11 @@ def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: s
             if fold_aoi is None:
                 # the fold at every point: half the angle between the legs in and out
                 with np.errstate(invalid="ignore", divide="ignore"):
-                    units = legs / lengths[..., None]
-                    before = np.roll(units, 1, axis=1)
-                    dot = before[..., 0] * units[..., 0] + before[..., 1] * units[..., 1]
-                    cos_fold = np.clip(-dot, -1.0, 1.0)
-                    fold_aoi = 0.5 * np.arccos(cos_fold)
+                    ux, uy = lx / lengths, ly / lengths
+                    dot = np.empty_like(ux)      # leg in (k - 1) . leg out (k) at point k
+                    dot[:, 1:] = ux[:, :-1] * ux[:, 1:] + uy[:, :-1] * uy[:, 1:]
+                    dot[:, 0] = ux[:, -1] * ux[:, 0] + uy[:, -1] * uy[:, 0]
+                    fold_aoi = 0.5 * np.arccos(np.clip(-dot, -1.0, 1.0))
             aoi = fold_aoi[:, j]
         elif (h.optic, "tilt") in col:
             aoi = np.abs(h.aoi + col[(h.optic, "tilt")])
