@@ -269,10 +269,13 @@ def radius_along(pieces: list[Piece], s) -> np.ndarray:
             if np.any(inside):
                 out[inside] = piece.radius(s[inside])
         return out
-    s0, length, k, scale, q0, wavelength, m2 = index
+    s0, length, k, scale, q0, wavelength, m2, start, end = index
     # pieces in path order: the first whose end reaches s is the only candidate
-    i = np.minimum(np.searchsorted(s0 + length + 1e-9, s, side="left"), len(s0) - 1)
-    holds = (s >= s0[i] - 1e-9) & (s <= s0[i] + length[i] + 1e-9)
+    i = np.minimum(np.searchsorted(end, s, side="left"), len(s0) - 1)
+    holds = (s >= start[i]) & (s <= end[i])
+    if holds.all():         # the usual case: every point inside a piece, no masking needed
+        z = np.clip(s - s0[i], 0.0, length[i])
+        return scale[i] * gauss.radius(q0[i] + z * k[i], wavelength[i], m2[i])
     out = np.full(s.shape, np.nan)
     j = i[holds]
     z = np.clip(s[holds] - s0[j], 0.0, length[j])
@@ -301,8 +304,10 @@ def _piece_index(pieces) -> tuple | None:
     ordered = bool(np.all(np.diff(s0) >= 0.0) and np.all(np.diff(s0 + length) >= 0.0))
     index = None
     if ordered:
+        # with each piece's reach, 1e-9 mm of rounding either side
         index = (s0, length, *(np.array([getattr(p, name) for p in pieces])
-                               for name in ("k", "scale", "q0", "wavelength", "m2")))
+                               for name in ("k", "scale", "q0", "wavelength", "m2")),
+                 s0 - 1e-9, s0 + length + 1e-9)
     if len(_INDEX_CACHE) >= _INDEX_CACHE_SIZE:
         _INDEX_CACHE.pop(next(iter(_INDEX_CACHE)))
     _INDEX_CACHE[key] = (pieces, len(pieces), pieces[0], pieces[-1], index)
