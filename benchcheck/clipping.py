@@ -77,7 +77,10 @@ def edge_clip_fraction(clearance, w):
 
     The beam's profile across a straight edge is the 1-D Gaussian sqrt(2/pi)/w
     exp(-2 x^2/w^2), whatever its size along the edge; a negative clearance (the edge past
-    the axis) cuts more than half.  Broadcasts over arrays."""
+    the axis) cuts more than half.  Broadcasts over arrays; two plain numbers give a float
+    (the same arithmetic, without numpy's per-call cost)."""
+    if isinstance(clearance, float) and isinstance(w, float) and w != 0.0:
+        return 0.5 * math.erfc(math.sqrt(2.0) * clearance / w)
     x = math.sqrt(2.0) * np.asarray(clearance, dtype=float) / np.asarray(w, dtype=float)
     return 0.5 * _erfc(x)
 
