@@ -117,13 +117,14 @@ def draw(params: list[Parameter], n: int, rng: np.random.Generator, distribution
 # --- one chunk of perturbed builds -------------------------------------------------------
 
 def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: set):
-    """The layout's optics and the traced path with array fields for the rows of ``x``,
-    and the thermal-lens powers to use."""
+    """The layout (the optics on ``path`` perturbed) and the traced path with array fields
+    for the rows of ``x``, and the thermal-lens powers to use."""
     col = {(p.optic, p.what): x[:, j] for j, p in enumerate(params)}
     zero = np.zeros(len(x))
     optics = dict(layout.optics)
     thermal = {}
-    for oid in dict.fromkeys([h.optic for h in path.hits] + [p.optic for p in params]):
+    # only the optics on this path: nothing else of the layout is read by its train
+    for oid in dict.fromkeys(h.optic for h in path.hits):
         o = layout.optics[oid]
         changes = {}
         if (oid, "roc") in col:
