@@ -243,7 +243,8 @@ def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set
         train = cavity_train(lay, pth, plane, thermal)
         mats = _step_terms(train.steps)
         a, b, c, d = (np.broadcast_to(v, (n,)) for v in _chain(mats))
-        rt = np.stack([np.stack([a, b], -1), np.stack([c, d], -1)], -2)
+        rt = np.empty((n, 2, 2))                  # (filled, not stacked: stacking costs more)
+        rt[:, 0, 0], rt[:, 0, 1], rt[:, 1, 0], rt[:, 1, 1] = a, b, c, d
         ms[plane] = (a + d) / 2.0
         q = resonator.eigen_q(rt)
         scale = np.maximum(sum(np.asarray(st.length, dtype=float) * st.k for st in train.steps
@@ -334,7 +335,10 @@ class Sensitivity:
         self.n = 0
 
     def add(self, x: np.ndarray, y: np.ndarray) -> None:
-        keep = np.all(np.isfinite(y), axis=1)
+        finite = np.isfinite(y)
+        keep = finite[:, 0].copy()           # every output finite (column by column: faster)
+        for j in range(1, y.shape[1]):
+            keep &= finite[:, j]
         x, y = x[keep][:REGRESSION_MAX - self.n], y[keep][:REGRESSION_MAX - self.n]
         if not len(x):
             return
@@ -490,7 +494,9 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
             eta = seed.match(layout, params, x, ch)
             y.append(eta)
             matches.append(eta[both].astype(np.float32))
-        y = np.stack(y, -1)
+        columns, y = y, np.empty((n, len(y)))
+        for j, column in enumerate(columns):
+            y[:, j] = column
         y[~both] = np.nan
         sens.add(x, y)
         for p in PLANES if summary else ():
