@@ -19,7 +19,14 @@ SAGITTAL = "s"
 PLANES = (TANGENTIAL, SAGITTAL)
 
 
+def _scalar(x) -> bool:
+    return isinstance(x, (float, int)) or (type(x) is np.ndarray and x.ndim == 0)
+
+
 def _mat(a, b, c, d) -> np.ndarray:
+    if _scalar(a) and _scalar(b) and _scalar(c) and _scalar(d):
+        # one bench: a plain 2x2 (the same numbers; broadcasting costs more than the work)
+        return np.array(((a, b), (c, d)), dtype=float)
     a, b, c, d = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (a, b, c, d)))
     out = np.empty(a.shape + (2, 2))
     out[..., 0, 0] = a

@@ -15,6 +15,7 @@ Linear: the shift is exact to first order in the tilt; the tilt changes nothing 
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -84,14 +85,46 @@ def _tilt_action(layout, hit, plane: str) -> tuple[float, float] | None:
     return float(misalign.plate_tilt_offset(thickness, optic.index, hit.aoi)), 0.0
 
 
-def _step3(st) -> np.ndarray:
-    return misalign.augment(st.matrix())
+def _affine(st) -> tuple[float, float, float, float]:
+    """(A, B, C, D) of one step of a solved (scalar) train as plain floats."""
+    m = st.matrix()
+    return float(m[0, 0]), float(m[0, 1]), float(m[1, 0]), float(m[1, 1])
 
 
-def axis_response(cavity, path, plane: str, optic: str, layout=None) -> AxisResponse | None:
+def _step_entries(steps: list) -> list:
+    """Each step's (A, B, C, D), None for a marker: read once per train, shared by every
+    tilting optic (a free space needs no matrix: A = D = 1, C = 0, B = reduced length)."""
+    out = []
+    for st in steps:
+        if isinstance(st, Marker):
+            out.append(None)
+        elif isinstance(st, Space):
+            out.append((1.0, float(st.length * st.k), 0.0, 1.0))
+        else:
+            out.append(_affine(st))
+    return out
+
+
+def _next_k(steps: list) -> list[float]:
+    """For each step, the reduced-length factor k of the first free space after it (1 where
+    none follows): the slope of the ray leaving a marker is read in that medium."""
+    out = [1.0] * len(steps)
+    k_next = 1.0
+    for i in range(len(steps) - 1, -1, -1):
+        out[i] = k_next
+        if isinstance(steps[i], Space):
+            k_next = steps[i].k
+    return out
+
+
+def axis_response(cavity, path, plane: str, optic: str, layout=None, _entries=None) -> AxisResponse | None:
     """The axis per unit tilt of ``optic`` (every reflection from it, or every pass through
     a tilted plate or crystal) in ``plane``; None where the plane has no mode (then there is
-    no axis to speak of)."""
+    no axis to speak of).
+
+    Works on plain floats: a round trip is a few dozen 3x3 products of one ray's worth of
+    numbers, where numpy's per-call cost would dominate.  Each matrix [[A, B, E], [C, D, F],
+    [0, 0, 1]] is kept as (A, B, C, D, E, F); a kick is the identity with (E, F) set."""
     mode = cavity.modes[plane]
     if not mode.stable:
         return None
@@ -110,41 +143,61 @@ def axis_response(cavity, path, plane: str, optic: str, layout=None) -> AxisResp
         kicks[k] = (e + sign * action[0], f + sign * action[1])
     if not kicks:
         return None
-    # round trip with the kicks, then the axis at the start
-    total = np.eye(3)
-    for k, st in enumerate(steps):
+    entries = _step_entries(steps) if _entries is None else _entries
+    # round trip with the kicks (a kick before the step at its index), then the axis at the start
+    ta, tb, tc, td, te, tf = 1.0, 0.0, 0.0, 1.0, 0.0, 0.0
+    for k, m in enumerate(entries):
         if k in kicks:
-            total = misalign.kick(kicks[k][1], kicks[k][0]) @ total
-        if not isinstance(st, Marker):
-            total = _step3(st) @ total
+            ke, kf = kicks[k]
+            te, tf = te + ke, tf + kf
+        if m is not None:
+            a, b, c, d = m
+            ta, tb, tc, td, te, tf = (a * ta + b * tc, a * tb + b * td, c * ta + d * tc, c * tb + d * td,
+                                      a * te + b * tf, c * te + d * tf)
     if len(steps) in kicks:
-        total = misalign.kick(kicks[len(steps)][1], kicks[len(steps)][0]) @ total
-    ray = misalign.axis_ray(total)
-    if not np.all(np.isfinite(ray)):
+        ke, kf = kicks[len(steps)]
+        te, tf = te + ke, tf + kf
+    ray = _axis_ray(ta, tb, tc, td, te, tf)
+    if ray is None:
         return None
+    y, v = ray
     per_hit = {}
+    k_after = _next_k(steps)
     leaving_first = path.role == "linear"   # the first end mirror: report the ray leaving it
     for k, st in enumerate(steps):
-        if k in kicks and not isinstance(st, Marker):
-            ray = misalign.apply(misalign.kick(kicks[k][1], kicks[k][0]), ray)
-        if isinstance(st, Marker):
+        m = entries[k]
+        if k in kicks and m is not None:
+            y, v = y + kicks[k][0], v + kicks[k][1]
+        if m is None:
             if st.hit not in per_hit:
-                k_next = next((s.k for s in steps[k + 1:] if isinstance(s, Space)), 1.0)
-                shift = float(ray[0]) * st.scale * MM_PER_RAD_TO_UM_PER_URAD
-                tilt = float(ray[1]) * st.scale * k_next
-                per_hit[st.hit] = [shift, tilt]
+                per_hit[st.hit] = [y * st.scale * MM_PER_RAD_TO_UM_PER_URAD, v * st.scale * k_after[k]]
             if k in kicks:
-                ray = misalign.apply(misalign.kick(kicks[k][1], kicks[k][0]), ray)
+                y, v = y + kicks[k][0], v + kicks[k][1]
             continue
         if leaving_first and isinstance(st, Space):
-            per_hit[0][1] = float(ray[1]) * st.scale * st.k
+            per_hit[0][1] = v * st.scale * st.k
             leaving_first = False
-        ray = misalign.apply(_step3(st), ray)
+        a, b, c, d = m
+        y, v = a * y + b * v, c * y + d * v
     shift, tilt = {}, {}
     for i, h in enumerate(hits):
         if i in per_hit and h.optic not in shift:
             shift[h.optic], tilt[h.optic] = per_hit[i]
     return AxisResponse(optic, plane, shift, tilt, per_hit)
+
+
+def _axis_ray(a, b, c, d, e, f) -> tuple[float, float] | None:
+    """The ray (y, v) that the round trip [[a, b, e], [c, d, f], [0, 0, 1]] reproduces,
+    (I - M) x = (e, f) (as ``misalign.axis_ray``); None where there is no unique one."""
+    i00, i01, i10, i11 = 1.0 - a, -b, -c, 1.0 - d
+    det = i00 * i11 - i01 * i10
+    if not abs(det) >= 1e-12:
+        return None
+    y = (i11 * e - i01 * f) / det
+    v = (i00 * f - i10 * e) / det
+    if not (math.isfinite(y) and math.isfinite(v)):
+        return None
+    return y, v
 
 
 def tilting_elements(layout, path) -> list[str]:
@@ -160,9 +213,10 @@ def cavity_alignment(layout, cavity, path) -> list[AxisResponse]:
     """Every reflecting optic, plate and crystal of a cavity, both planes (planes without a
     mode, and sagittal tilts of elements met off normal incidence, left out)."""
     out = []
+    entries = {p: _step_entries(cavity.trains[p].steps) for p in PLANES if cavity.modes[p].stable}
     for optic in tilting_elements(layout, path):
         for plane in PLANES:
-            r = axis_response(cavity, path, plane, optic, layout)
+            r = axis_response(cavity, path, plane, optic, layout, entries.get(plane))
             if r is not None:
                 out.append(r)
     return out

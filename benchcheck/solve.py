@@ -214,20 +214,27 @@ def _reduced_length(train: Train) -> float:
 
 
 def _halves(train: Train, role: str):
-    """(H1, H2) splits of the round trip for a +-I boundary: the repeating halves."""
+    """(H1, H2) splits of the round trip for a +-I boundary: the repeating halves.  A
+    generator: only a round trip on that boundary asks for them."""
     marks = [i for i, st in enumerate(train.steps) if isinstance(st, Marker)]
-    out = []
     if role == "linear":
         k = marks[-1]
-        out.append((_product(train.steps[:k]), _product(train.steps[k:])))
+        yield _product(train.steps[:k]), _product(train.steps[k:])
     else:
         scale = max(_reduced_length(train), 1e-9)
         for k in marks[1:]:
             h1, h2 = _product(train.steps[:k]), _product(train.steps[k:])
             d = np.abs(h1 - h2)
             if d[0, 0] < 1e-9 and d[1, 1] < 1e-9 and d[0, 1] < 1e-9 * scale and d[1, 0] * scale < 1e-9:
-                out.append((h1, h2))
-    return out
+                yield h1, h2
+
+
+def _advance(st, q: complex) -> complex:
+    """q^ after one step: across free space q^ + B (the ABCD law with A = D = 1, C = 0 gives
+    exactly that), through a thin element the full law."""
+    if isinstance(st, Space):
+        return q + st.reduced()
+    return complex(gauss.propagate(st.matrix(), q))
 
 
 @dataclass(frozen=True)
@@ -262,10 +269,13 @@ def radius_along(pieces: list[Piece], s) -> np.ndarray:
             if np.any(inside):
                 out[inside] = piece.radius(s[inside])
         return out
-    s0, length, k, scale, q0, wavelength, m2 = index
+    s0, length, k, scale, q0, wavelength, m2, start, end = index
     # pieces in path order: the first whose end reaches s is the only candidate
-    i = np.minimum(np.searchsorted(s0 + length + 1e-9, s, side="left"), len(s0) - 1)
-    holds = (s >= s0[i] - 1e-9) & (s <= s0[i] + length[i] + 1e-9)
+    i = np.minimum(np.searchsorted(end, s, side="left"), len(s0) - 1)
+    holds = (s >= start[i]) & (s <= end[i])
+    if holds.all():         # the usual case: every point inside a piece, no masking needed
+        z = np.clip(s - s0[i], 0.0, length[i])
+        return scale[i] * gauss.radius(q0[i] + z * k[i], wavelength[i], m2[i])
     out = np.full(s.shape, np.nan)
     j = i[holds]
     z = np.clip(s[holds] - s0[j], 0.0, length[j])
@@ -294,8 +304,10 @@ def _piece_index(pieces) -> tuple | None:
     ordered = bool(np.all(np.diff(s0) >= 0.0) and np.all(np.diff(s0 + length) >= 0.0))
     index = None
     if ordered:
+        # with each piece's reach, 1e-9 mm of rounding either side
         index = (s0, length, *(np.array([getattr(p, name) for p in pieces])
-                               for name in ("k", "scale", "q0", "wavelength", "m2")))
+                               for name in ("k", "scale", "q0", "wavelength", "m2")),
+                 s0 - 1e-9, s0 + length + 1e-9)
     if len(_INDEX_CACHE) >= _INDEX_CACHE_SIZE:
         _INDEX_CACHE.pop(next(iter(_INDEX_CACHE)))
     _INDEX_CACHE[key] = (pieces, len(pieces), pieces[0], pieces[-1], index)
@@ -321,7 +333,7 @@ def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):
                     z = min(max(z, 0.0), st.length)
                     w0 = st.scale * float(gauss.radius(q + z * st.k, wavelength, m2))
                     waists.append((st.s0 + z, w0))
-        q = complex(gauss.propagate(st.matrix(), q))
+        q = _advance(st, q)
     return at_marks, waists, pieces
 
 
@@ -393,7 +405,7 @@ def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan 
         span = np.array([r[1] - r[0] for r in ranges])
 
         def round_trips(unit):
-            return _round_trips(layout, path, plane, axes, low + np.atleast_2d(unit) * span)
+            return _round_trips(trains[plane], axes, low + np.atleast_2d(unit) * span)
 
         coef = bernstein.coefficients(abcd.half_trace(round_trips(bernstein.nodes(degrees))), degrees)
         lowest, highest = bernstein.value_range(coef)
@@ -408,11 +420,15 @@ def _thermal_scan(layout: Layout, path: PathTrace, trains: dict) -> ThermalScan 
     return ThermalScan(lenses, design, stable, m_range)
 
 
-def _round_trips(layout: Layout, path: PathTrace, plane: str, crystals: list, samples: np.ndarray) -> np.ndarray:
-    """Round-trip matrices (K, 2, 2) for each row of lens powers (vectorised over rows)."""
-    powers = {(cid, plane): samples[:, j] for j, cid in enumerate(crystals)}
-    train = cavity_train(layout, path, plane, powers)
-    return np.broadcast_to(_product(train.steps), (len(samples), 2, 2))
+def _round_trips(train: Train, crystals: list, samples: np.ndarray) -> np.ndarray:
+    """Round-trip matrices (K, 2, 2) for each row of lens powers (vectorised over rows):
+    the plan's train with its thermal lenses of ``crystals`` given those powers (each lens
+    as ``unfold.element_steps`` builds it; a lens met backwards has A = D = 1, unchanged)."""
+    column = {cid: samples[:, j] for j, cid in enumerate(crystals)}
+    steps = [Thin(abcd.lens_power(np.asarray(column[st.thermal]) * st.thermal_factor), st.label, st.thermal,
+                  st.thermal_factor)
+             if isinstance(st, Thin) and st.thermal in column else st for st in train.steps]
+    return np.broadcast_to(_product(steps), (len(samples), 2, 2))
 
 
 def circulating_power(layout: Layout, cav: Cavity, path: PathTrace) -> float | None:
@@ -767,7 +783,7 @@ def _q_at_marker(train: Train, q0: complex, hit_index: int, after: bool = False)
             continue
         if found and isinstance(st, Space):
             return q
-        q = complex(gauss.propagate(st.matrix(), q))
+        q = _advance(st, q)
     if found:
         return q
     raise AssertionError("marker not in train")

@@ -117,13 +117,14 @@ def draw(params: list[Parameter], n: int, rng: np.random.Generator, distribution
 # --- one chunk of perturbed builds -------------------------------------------------------
 
 def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: set):
-    """The layout's optics and the traced path with array fields for the rows of ``x``,
-    and the thermal-lens powers to use."""
+    """The layout (the optics on ``path`` perturbed) and the traced path with array fields
+    for the rows of ``x``, and the thermal-lens powers to use."""
     col = {(p.optic, p.what): x[:, j] for j, p in enumerate(params)}
     zero = np.zeros(len(x))
     optics = dict(layout.optics)
     thermal = {}
-    for oid in dict.fromkeys([h.optic for h in path.hits] + [p.optic for p in params]):
+    # only the optics on this path: nothing else of the layout is read by its train
+    for oid in dict.fromkeys(h.optic for h in path.hits):
         o = layout.optics[oid]
         changes = {}
         if (oid, "roc") in col:
@@ -145,49 +146,78 @@ def _perturbed(layout, path, params: list[Parameter], x: np.ndarray, oriented: s
                     powers = [1.0 / f for f in vals]
                     lo, hi = min(powers), max(powers)
                     thermal[(oid, plane)] = lo + u * (hi - lo)
-    pts = [np.stack([h.point[0] + col.get((h.optic, "x"), zero), h.point[1] + col.get((h.optic, "y"), zero)], -1)
-           for h in path.hits]
-    n = len(pts)
-    if path.role == "beam":
-        pts = [np.broadcast_to(np.asarray(path.start, dtype=float), pts[0].shape)] + pts
-        segs = [np.linalg.norm(pts[i + 1] - pts[i], axis=-1) for i in range(n)]
-    elif path.role == "linear":
-        segs = [np.linalg.norm(pts[i + 1] - pts[i], axis=-1) for i in range(n - 1)]
-    else:
-        segs = [np.linalg.norm(pts[(i + 1) % n] - pts[i], axis=-1) for i in range(n)]
+    n = len(path.hits)
+    first = 1 if path.role == "beam" else 0        # a beam's points start at its source
+    px, py = np.empty((len(x), n + first)), np.empty((len(x), n + first))
+    if first:
+        px[:, 0], py[:, 0] = path.start[0], path.start[1]
+    for i, h in enumerate(path.hits):
+        px[:, first + i] = h.point[0] + col.get((h.optic, "x"), zero)
+        py[:, first + i] = h.point[1] + col.get((h.optic, "y"), zero)
+    # every leg at once, closing leg included: leg k runs from point k to point k + 1
+    # (the norm's sum over x and y written out, in the order np.linalg.norm adds them)
+    lx, ly = np.empty_like(px), np.empty_like(py)
+    lx[:, :-1], lx[:, -1] = px[:, 1:] - px[:, :-1], px[:, 0] - px[:, -1]
+    ly[:, :-1], ly[:, -1] = py[:, 1:] - py[:, :-1], py[:, 0] - py[:, -1]
+    lengths = np.sqrt(lx * lx + ly * ly)
+    segs = [lengths[:, k] for k in range(n if path.role == "ring" else n + first - 1)]
+    fold_aoi = None
     hits = []
     for i, h in enumerate(path.hits):
         aoi = h.aoi
         if path.role == "beam":
-            j, last = i + 1, i == n - 1       # pts[0] is the beam's start
+            j, last = i + 1, i == n - 1       # point 0 is the beam's start
             turns = not last
         else:
             j, last = i, False
             turns = not (path.role == "linear" and i in (0, n - 1))
         if h.action == REFLECT and turns and h.optic in oriented:
-            d_in = _unit(pts[j] - pts[j - 1])
-            d_out = _unit(pts[(j + 1) % len(pts)] - pts[j])
-            cos_fold = np.clip(-np.sum(d_in * d_out, axis=-1), -1.0, 1.0)
-            aoi = 0.5 * np.arccos(cos_fold)
+            if fold_aoi is None:
+                # the fold at every point: half the angle between the legs in and out
+                with np.errstate(invalid="ignore", divide="ignore"):
+                    ux, uy = lx / lengths, ly / lengths
+                    dot = np.empty_like(ux)      # leg in (k - 1) . leg out (k) at point k
+                    dot[:, 1:] = ux[:, :-1] * ux[:, 1:] + uy[:, :-1] * uy[:, 1:]
+                    dot[:, 0] = ux[:, -1] * ux[:, 0] + uy[:, -1] * uy[:, 0]
+                    fold_aoi = 0.5 * np.arccos(np.clip(-dot, -1.0, 1.0))
+            aoi = fold_aoi[:, j]
         elif (h.optic, "tilt") in col:
             aoi = np.abs(h.aoi + col[(h.optic, "tilt")])
         hits.append(replace(h, aoi=aoi))
     return replace(layout, optics=optics), replace(path, hits=hits, segments=segs), thermal
 
 
-def _unit(v):
-    return v / np.linalg.norm(v, axis=-1, keepdims=True)
+def _step_terms(steps) -> list:
+    """Each step of a train as what the builds need of it: None for a marker, the reduced
+    length B (scalar or (n,)) for free space, the matrix of a thin element.  Free space is
+    [[1, B], [0, 1]]: multiplying by it is a shift, so no matrix is built for it."""
+    return [None if isinstance(st, Marker) else (st.reduced() if isinstance(st, Space) else st.matrix())
+            for st in steps]
 
 
-def _chain(mats):
-    """Round-trip elements (A, B, C, D) from step matrices that may hold arrays."""
+def _chain(terms):
+    """Round-trip elements (A, B, C, D) from ``_step_terms`` that may hold arrays.
+
+    A free-space step adds B times the lower row to the upper one (1 * x + B * y, with the
+    exact 1 and 0 of its matrix dropped: the same numbers)."""
     a, b, c, d = 1.0, 0.0, 0.0, 1.0
-    for m in mats:
+    for m in terms:
         if m is None:
+            continue
+        if not isinstance(m, np.ndarray) or m.ndim < 2:
+            a, b = a + m * c, b + m * d
             continue
         ma, mb, mc, md = m[..., 0, 0], m[..., 0, 1], m[..., 1, 0], m[..., 1, 1]
         a, b, c, d = ma * a + mb * c, ma * b + mb * d, mc * a + md * c, mc * b + md * d
     return a, b, c, d
+
+
+def _advance(term, q):
+    """q^ through one step of ``_step_terms``: q + B across free space (the ABCD law with
+    A = D = 1, C = 0), the full law through a thin element."""
+    if not isinstance(term, np.ndarray) or term.ndim < 2:
+        return q + term
+    return gauss.propagate(term, q)
 
 
 @dataclass
@@ -211,9 +241,10 @@ def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set
     ms, radii, q_out, oks = {}, {}, {}, {}
     for plane in PLANES:
         train = cavity_train(lay, pth, plane, thermal)
-        mats = [None if isinstance(st, Marker) else st.matrix() for st in train.steps]
+        mats = _step_terms(train.steps)
         a, b, c, d = (np.broadcast_to(v, (n,)) for v in _chain(mats))
-        rt = np.stack([np.stack([a, b], -1), np.stack([c, d], -1)], -2)
+        rt = np.empty((n, 2, 2))                  # (filled, not stacked: stacking costs more)
+        rt[:, 0, 0], rt[:, 0, 1], rt[:, 1, 0], rt[:, 1, 1] = a, b, c, d
         ms[plane] = (a + d) / 2.0
         q = resonator.eigen_q(rt)
         scale = np.maximum(sum(np.asarray(st.length, dtype=float) * st.k for st in train.steps
@@ -224,19 +255,22 @@ def evaluate(layout, path, params: list[Parameter], x: np.ndarray, oriented: set
         r = np.full((n, len(path.hits)), np.nan)
         seen = set()
         waiting = False
-        for st, m in zip(train.steps, mats):
-            if m is None:
-                if st.hit not in seen:
-                    seen.add(st.hit)
-                    with np.errstate(invalid="ignore"):
+        # past the last marker (the whole way back of a linear cavity) nothing more is read
+        last = max((k for k, m in enumerate(mats) if m is None), default=-1)
+        with np.errstate(invalid="ignore"):
+            for k, (st, m) in enumerate(zip(train.steps, mats)):
+                if k > last and not waiting:
+                    break
+                if m is None:
+                    if st.hit not in seen:
+                        seen.add(st.hit)
                         r[:, st.hit] = st.scale * gauss.radius(q, wavelength)
-                    waiting = st.hit == q_after
-                continue
-            if waiting and isinstance(st, Space):
-                q_out[plane] = np.broadcast_to(q, (n,))
-                waiting = False
-            with np.errstate(invalid="ignore"):
-                q = gauss.propagate(m, q)
+                        waiting = st.hit == q_after
+                    continue
+                if waiting and isinstance(st, Space):
+                    q_out[plane] = np.broadcast_to(q, (n,))
+                    waiting = False
+                q = _advance(m, q)
         radii[plane] = r
     return Chunk(ms, radii, q_out, oks)
 
@@ -250,12 +284,13 @@ def seed_q(layout, path, params: list[Parameter], x: np.ndarray, oriented: set, 
         w0, m2 = (source.waist_t, source.m2_t) if plane == TANGENTIAL else (source.waist_s, source.m2_s)
         q = gauss.q_at_distance_from_waist(w0, -source.waist_at, wavelength, m2)
         last = len(path.hits) - 1
-        for st in beam_train(lay, pth, plane).steps:
+        steps = beam_train(lay, pth, plane).steps
+        for st, term in zip(steps, _step_terms(steps)):
             if isinstance(st, Marker):
                 if st.hit == last:
                     break
                 continue
-            q = gauss.propagate(st.matrix(), q)
+            q = _advance(term, q)
         out[plane] = np.broadcast_to(q, (len(x),))
     return out
 
@@ -300,7 +335,10 @@ class Sensitivity:
         self.n = 0
 
     def add(self, x: np.ndarray, y: np.ndarray) -> None:
-        keep = np.all(np.isfinite(y), axis=1)
+        finite = np.isfinite(y)
+        keep = finite[:, 0].copy()           # every output finite (column by column: faster)
+        for j in range(1, y.shape[1]):
+            keep &= finite[:, j]
         x, y = x[keep][:REGRESSION_MAX - self.n], y[keep][:REGRESSION_MAX - self.n]
         if not len(x):
             return
@@ -418,8 +456,12 @@ def focus_optics(layout, path, cavity) -> list[str]:
 
 
 def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples: int, rng: np.random.Generator,
-               progress=None) -> CavityTolerance:
-    """The Monte Carlo of one cavity; ``progress(done, total)`` is called after each chunk."""
+               progress=None, summary: bool = True) -> CavityTolerance:
+    """The Monte Carlo of one cavity; ``progress(done, total)`` is called after each chunk.
+
+    ``summary=False`` (the build-yield rule): the same builds, yields and sensitivity
+    ranking, without the percentiles of radii, ratios and mode match (``radius_um``,
+    ``ratio``, ``focus`` and ``coupling`` left empty), which cost a sort of every column."""
     layout = solution.layout
     path = solution.trace.cavities[cavity_id]
     cavity = solution.cavities[cavity_id]
@@ -452,22 +494,31 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
             eta = seed.match(layout, params, x, ch)
             y.append(eta)
             matches.append(eta[both].astype(np.float32))
-        y = np.stack(y, -1)
+        columns, y = y, np.empty((n, len(y)))
+        for j, column in enumerate(columns):
+            y[:, j] = column
         y[~both] = np.nan
         sens.add(x, y)
-        for p in PLANES:
+        for p in PLANES if summary else ():
             kept[p].append(ch.radius[p][both].astype(np.float32))
         done += n
         if progress is not None:
             progress(done, samples)
+    rows, fit = sens.shares(params)
+    if not summary:
+        return CavityTolerance(cavity_id, samples, stable, margin, params, {}, {}, rows, fit, {},
+                               tolerances.margin_max_abs_m)
     radius_um, ratio, focus_samples = {}, {}, {}
     all_r = {p: (np.concatenate(kept[p]) if kept[p] else np.empty((0, len(hit_optics)), np.float32)) for p in PLANES}
-    for oid, i in first.items():
-        entry = {}
-        for p in PLANES:
-            col = all_r[p][:, i].astype(float) * 1e3
-            if len(col) and np.all(np.isfinite(col)):
-                entry[p] = [float(v) for v in np.percentile(col, PERCENTILES)]
+    # every optic's column at once: the same order statistics as one column at a time
+    pct, finite = {}, {}
+    for p in PLANES:
+        if len(all_r[p]):
+            cols = all_r[p][:, list(first.values())].astype(float) * 1e3
+            pct[p] = np.percentile(cols, PERCENTILES, axis=0).T.tolist()
+            finite[p] = np.all(np.isfinite(cols), axis=0).tolist()
+    for j, (oid, i) in enumerate(first.items()):
+        entry = {p: pct[p][j] for p in pct if finite[p][j]}
         if entry:
             radius_um[oid] = entry
         if oid in focus and len(all_r[TANGENTIAL]):
@@ -477,7 +528,6 @@ def run_cavity(solution, cavity_id: str, tolerances: tolspec.Tolerances, samples
         if len(all_r[TANGENTIAL]):
             r = all_r[TANGENTIAL][:, i].astype(float) / all_r[SAGITTAL][:, i].astype(float)
             ratio[oid] = [float(v) for v in np.percentile(r, PERCENTILES)]
-    rows, fit = sens.shares(params)
     coupling = {}
     if seed and matches:
         eta = np.concatenate(matches).astype(float)

@@ -43,6 +43,11 @@ class Space:
     def matrix(self) -> np.ndarray:
         return abcd.free_space(self.length * self.k)
 
+    def reduced(self):
+        """B = length * k of ``matrix()`` (the matrix is [[1, B], [0, 1]]): crossing free
+        space adds it to q^, with no matrix to build."""
+        return self.length * self.k
+
 
 @dataclass
 class Thin:
@@ -50,6 +55,9 @@ class Thin:
     label: str
     #: for a thermal lens: the crystal id, so the solver can vary its power
     thermal: str | None = None
+    #: for a thermal lens: the factor its power is taken with here (``element_steps``), so
+    #: that a varied power P gives ``lens_power(P * thermal_factor)``
+    thermal_factor: float = 1.0
 
     def matrix(self) -> np.ndarray:
         return self.m
@@ -160,7 +168,7 @@ def element_steps(hit: Hit, optic: Optic, plane: str, thermal_powers: dict, note
             # the lens is round in the crystal's own cross-section; in the air-equivalent
             # tangential coordinates (heights smaller by 1/scale) its power grows by scale^2
             post.append(Thin(abcd.lens_power(np.asarray(power) * scale**2), f"thermal lens {optic.id}",
-                             thermal=optic.id))
+                             thermal=optic.id, thermal_factor=scale**2))
         post.append(Space(half, k, scale, optic.index, hit.s, group=optic.group_index))
         return pre, post, scale
     return [], [], 1.0   # aperture, dump, detector: no action on the beam's shape
@@ -225,7 +233,7 @@ def _reversed_steps(steps: list) -> list:
         elif isinstance(st, Thin):
             m = st.m.copy()
             m[..., 0, 0], m[..., 1, 1] = st.m[..., 1, 1], st.m[..., 0, 0]
-            out.append(Thin(m, st.label, st.thermal))
+            out.append(Thin(m, st.label, st.thermal, st.thermal_factor))
     return out
 
 

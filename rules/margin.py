@@ -101,15 +101,22 @@ def _gap_steps(steps: list, gap: Gap) -> list[int]:
     return [i for i, st in enumerate(steps) if isinstance(st, Space) and st.gap == gap.index]
 
 
-def _fixed_products(steps: list, where: list[int]) -> list[np.ndarray]:
+def step_matrices(steps: list) -> list:
+    """Each step's matrix (None for a marker), built once per train and shared by the scans
+    of all its gaps."""
+    return [None if isinstance(st, Marker) else st.matrix() for st in steps]
+
+
+def _fixed_products(steps: list, where: list[int], mats: list | None = None) -> list[np.ndarray]:
     """Products of the steps before, between and after the gap's steps (light order)."""
+    mats = step_matrices(steps) if mats is None else mats
     bounds = [-1] + where + [len(steps)]
     out = []
     for a, b in itertools.pairwise(bounds):
         m = abcd.identity()
-        for st in steps[a + 1:b]:
-            if not isinstance(st, Marker):
-                m = np.matmul(st.matrix(), m)
+        for st in mats[a + 1:b]:
+            if st is not None:
+                m = np.matmul(st, m)
         out.append(m)
     return out
 
@@ -117,7 +124,8 @@ def _fixed_products(steps: list, where: list[int]) -> list[np.ndarray]:
 class GapScan:
     """The round trip of one plane as a function of one gap's air length."""
 
-    def __init__(self, train, gap: Gap, role: str):
+    def __init__(self, train, gap: Gap, role: str, mats: list | None = None):
+        """``mats``: ``step_matrices(train.steps)`` where the caller scans several gaps."""
         steps = train.steps
         self.gap = gap
         self.where = _gap_steps(steps, gap)
@@ -125,7 +133,7 @@ class GapScan:
         if len(self.where) != expected:
             raise RuntimeError(f"air gap {gap.first} -> {gap.second} found {len(self.where)} times in the "
                                f"{train.plane} round trip, expected {expected}")
-        self.parts = _fixed_products(steps, self.where)
+        self.parts = _fixed_products(steps, self.where, mats)
         reduced = sum(st.length * st.k for st in steps if isinstance(st, Space))
         # the B, C tolerance of the +-I test scales with the round trip's reduced length
         self._scale_fixed = reduced - len(self.where) * gap.length
@@ -167,9 +175,13 @@ class GapScan:
         return sorted(x for x in out if math.isfinite(x))
 
     def statuses(self, x: np.ndarray) -> list[str]:
+        """``resonator.classify`` of each probe: the discriminant of all of them at once, the
+        full test (+-I or walk-off) only for those inside its rounding band."""
         mats = self.round_trips(x)
-        return [resonator.classify(mats[i], max(self._scale_fixed + len(self.where) * float(x[i]), 1e-9))
-                for i in range(len(x))]
+        scales = np.maximum(self._scale_fixed + len(self.where) * np.asarray(x, dtype=float), 1e-9)
+        disc, allowance = resonator.discriminant(mats, scales)
+        return [resonator.STABLE if disc[i] < -allowance[i] else resonator.UNSTABLE if disc[i] > allowance[i]
+                else resonator.classify(mats[i], float(scales[i])) for i in range(len(x))]
 
     def window(self) -> tuple[float, float]:
         """(lo, hi) of the stable stretch around the plan in this plane; +-inf where none.
@@ -229,12 +241,13 @@ def _real_roots(a: float, b: float, c: float) -> list[float]:
 def spacing_windows(cav, layout, path) -> list[Window]:
     """The stability window of every air gap of a cavity stable in both planes."""
     out = []
+    mats = {plane: step_matrices(cav.trains[plane].steps) for plane in PLANES}
     for gap in air_gaps(layout, path):
         if gap.length < 0:
             continue   # elements overlap: layout-geometry reports it
         per_plane = {}
         for plane in PLANES:
-            lo, hi = GapScan(cav.trains[plane], gap, path.role).window()
+            lo, hi = GapScan(cav.trains[plane], gap, path.role, mats[plane]).window()
             # a lower edge below zero is no edge: the gap closes before the cavity goes unstable
             tol = 1e-9 * max(1.0, gap.length)
             per_plane[plane] = (None if lo < -tol else max(float(lo), 0.0), None if math.isinf(hi) else float(hi))

@@ -24,6 +24,7 @@ by construction they end on the first footprint they meet, and ``leak-beam`` rep
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -70,11 +71,12 @@ def edge_fraction(clearance: float, radius: float) -> float:
     return float(edge_clip_fraction(clearance, radius))
 
 
+@functools.lru_cache(maxsize=32)
 def clearance_ratio(fraction: float) -> float:
     """delta / w at which the edge passes ``fraction``: the inverse of ``edge_fraction``.
 
     Solved by bisection on the monotone erfc (the standard library has no inverse), to
-    1e-12 in delta / w.
+    1e-12 in delta / w.  Kept per limit: every check asks again with the same one.
     """
     if not 0.0 < fraction < 1.0:
         raise ValueError(f"a clipped fraction must lie between 0 and 1, not {fraction!r}")
@@ -362,8 +364,8 @@ def check(bench, options):
         if sampler is None:
             continue    # no beam size on this leg in either plane (e.g. an unstable cavity)
         margin = max(MARGIN_RADII, ratio_needed) * float(np.nanmax(sampler.w)) + MARGIN_MM
-        corridor = sampler.line.buffer(margin)
-        for k in sorted(int(x) for x in tree.query(corridor, predicate="intersects")):
+        # the footprints within ``margin`` of the leg (exact distance: no buffer polygon built)
+        for k in sorted(int(x) for x in tree.query(sampler.line, predicate="dwithin", distance=margin)):
             oid = ids[k]
             if oid in leg.exempt:
                 continue

@@ -58,7 +58,7 @@ def check_yield(bench, options):
     for cid, cav in bench.solution.cavities.items():
         if not _stable(cav):
             continue   # cavity-unstable reports it
-        res = run_cavity(bench.solution, cid, tol, samples, rng)
+        res = run_cavity(bench.solution, cid, tol, samples, rng, summary=False)
         if res.yield_margin >= min_yield:
             continue
         lo, hi = wilson_interval(res.with_margin, res.samples)
