@@ -51,10 +51,13 @@ class _Frame:
         self.area = (margin, margin, margin + self.w_mm * self.scale, margin + self.h_mm * self.scale)
 
     def xy(self, x, y):
+        """Scalars or numpy arrays alike."""
         return self.margin + x * self.scale, self.margin + (self.h_mm - y) * self.scale
 
     def pts(self, coords) -> str:
-        return " ".join(f"{px:.1f},{py:.1f}" for px, py in (self.xy(x, y) for x, y in coords))
+        xy = np.asarray(coords, dtype=float).reshape(-1, 2)
+        px, py = self.xy(xy[:, 0], xy[:, 1])          # numpy arrays: the same arithmetic per point
+        return " ".join(map("{:.1f},{:.1f}".format, px.tolist(), py.tolist()))
 
 
 class _Inset(_Frame):
@@ -176,6 +179,10 @@ def plan_drawing(solution, findings=(), width_px: float = 960.0, hazards=None):
     out.append(f'<text x="{frame.width - 10:.0f}" y="{frame.height - 10:.0f}" text-anchor="end" class="small">'
                f'beam envelopes drawn at {k:g} x their 1/e&#178; radius (in-plane); '
                f'cavities solid, beams solid thin, leaks dashed</text>')
+    unlabelled = _unlabelled(frame, solution, findings)
+    if unlabelled:
+        out.append(f'<text x="{frame.width - 10:.0f}" y="{frame.height - 24:.0f}" text-anchor="end" class="small">'
+                   f'{unlabelled} further optics not labelled; see the optics table</text>')
     if inset is not None:
         (ax0, ay0), (ax1, ay1) = frame.xy(region[0], region[3]), frame.xy(region[2], region[1])
         out.append(f'<rect x="{ax0:.1f}" y="{ay0:.1f}" width="{ax1 - ax0:.1f}" height="{ay1 - ay0:.1f}" '
@@ -200,6 +207,20 @@ def plan_drawing(solution, findings=(), width_px: float = 960.0, hazards=None):
                    f'envelopes at {ki:g} x</text>')
     out.append("</svg>")
     return "\n".join(out), [{"labels": list(p.placed), "optics": list(p.blocked)} for p in panels]
+
+
+def _unlabelled(frame, solution, findings) -> int:
+    """How many optics in view of the plan go without a label (``labelled_optics``)."""
+    keep = labelled_optics(solution, findings)
+    if keep is None:
+        return 0
+    return sum(1 for oid, placed in solution.placement.optics.items()
+               if oid not in keep and _in_view(frame, *_centre(placed.footprint.bounds)))
+
+
+def _centre(bounds) -> tuple[float, float]:
+    minx, miny, maxx, maxy = bounds
+    return (minx + maxx) / 2, (miny + maxy) / 2
 
 
 #: The bench is crowded, and gets an enlarged inset, when optics of the densest region lie
@@ -252,7 +273,7 @@ def _panel(frame, solution, findings, k, hazards=None):
         out += _path(frame, solution, bid, "beam", k)
     out += _strays(frame, solution)
     placer = _Placer(frame, solution)
-    out += _labels(frame, solution, placer)
+    out += _labels(frame, solution, placer, labelled_optics(solution, findings))
     out += _markers(frame, solution, findings, placer)
     out += _stray_labels(frame, solution, placer)
     out += _zone_labels(frame, layout, placer)
@@ -272,7 +293,13 @@ class _Placer:
     """A simple label-placement pass: each label or marker takes the first free spot of a
     ring of candidates around its anchor (nearest first), free meaning inside the drawing,
     clear of every mount footprint and source and of everything placed before; where no
-    spot is free, the one with least overlap.  A spot away from the anchor gets a leader."""
+    spot is free, the one with least overlap.  A spot away from the anchor gets a leader.
+
+    Boxes already taken are kept in a grid of CELL px squares, so that a label is tested
+    only against the boxes near its anchor: the pass grows linearly with the labels, not
+    with their square (a box out of the candidates' reach overlaps none of them)."""
+
+    CELL = 64.0
 
     def __init__(self, frame, solution):
         self.frame = frame
@@ -286,10 +313,49 @@ class _Placer:
             px, py = frame.xy(*point)
             self.blocked.append((px - 5, py - 5, px + 5, py + 5))
         self.placed: list[tuple] = []      # (kind, text, box)
+        self._boxes: list[tuple] = []      # blocked, then placed, in that order
+        self._grid: dict[tuple[int, int], list[int]] = {}
+        for box in self.blocked:
+            self._index(box)
+
+    def _cells(self, box):
+        c = self.CELL
+        i0, j0 = math.floor(box[0] / c), math.floor(box[1] / c)
+        i1, j1 = math.floor(box[2] / c), math.floor(box[3] / c)
+        return ((i, j) for i in range(i0, i1 + 1) for j in range(j0, j1 + 1))
+
+    def _index(self, box) -> None:
+        n = len(self._boxes)
+        self._boxes.append(box)
+        for cell in self._cells(box):
+            self._grid.setdefault(cell, []).append(n)
+
+    def _near(self, region) -> list[int]:
+        """Indices (ascending, as they were taken) of the boxes in the cells ``region`` covers."""
+        found = set()
+        grid = self._grid
+        for cell in self._cells(region):
+            hit = grid.get(cell)
+            if hit:
+                found.update(hit)
+        return sorted(found)
 
     #: candidate distances (px) beyond the anchor's own radius, and directions per ring
     RINGS = (2.0, 8.0, 16.0, 26.0, 38.0, 54.0, 74.0, 100.0, 130.0)
     TURNS = 16
+    #: rings tried on their own before all of them
+    INNER = 4
+
+    def _cost(self, boxes, inside):
+        """Per candidate box, its overlap area (px^2) with the boxes taken near it; inf
+        outside the drawing."""
+        reach = (float(boxes[:, 0].min()), float(boxes[:, 1].min()), float(boxes[:, 2].max()),
+                 float(boxes[:, 3].max()))
+        others = np.array([self._boxes[i] for i in self._near(reach)], dtype=float).reshape(-1, 4)
+        ow = np.minimum(boxes[:, None, 2], others[None, :, 2]) - np.maximum(boxes[:, None, 0], others[None, :, 0])
+        oh = np.minimum(boxes[:, None, 3], others[None, :, 3]) - np.maximum(boxes[:, None, 1], others[None, :, 1])
+        cost = (np.clip(ow, 0.0, None) * np.clip(oh, 0.0, None)).sum(axis=1)
+        return np.where(inside, cost, np.inf)
 
     def place(self, kind: str, text: str, anchor, size, start: float = 90.0, near: float = 0.0):
         """Box (x0, y0, x1, y1) for a label of ``size`` (w, h) px near ``anchor`` (px);
@@ -307,12 +373,13 @@ class _Placer:
         boxes = np.stack([cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2], axis=1)
         x0, y0, x1, y1 = self.area
         inside = (boxes[:, 0] >= x0) & (boxes[:, 1] >= y0) & (boxes[:, 2] <= x1) & (boxes[:, 3] <= y1)
-        others = np.array(self.blocked + [p[2] for p in self.placed], dtype=float).reshape(-1, 4)
-        ow = np.minimum(boxes[:, None, 2], others[None, :, 2]) - np.maximum(boxes[:, None, 0], others[None, :, 0])
-        oh = np.minimum(boxes[:, None, 3], others[None, :, 3]) - np.maximum(boxes[:, None, 1], others[None, :, 1])
-        cost = (np.clip(ow, 0.0, None) * np.clip(oh, 0.0, None)).sum(axis=1)
-        cost = np.where(inside, cost, np.inf)
-        free = np.flatnonzero(cost == 0.0)
+        # the inner rings first (most labels find a spot there, against fewer boxes near
+        # them); the first free candidate is the same as in one pass over all of them
+        for first in (self.INNER * self.TURNS, len(boxes)):
+            cost = self._cost(boxes[:first], inside[:first])
+            free = np.flatnonzero(cost == 0.0)
+            if free.size:
+                break
         if free.size:
             best = tuple(boxes[free[0]])
         elif np.isfinite(cost).any():
@@ -321,6 +388,7 @@ class _Placer:
             best = (ax - w / 2, ay - h - 4, ax + w / 2, ay - 4)
         best = tuple(float(v) for v in best)
         self.placed.append((kind, text, best))
+        self._index(best)
         return best
 
 
@@ -514,11 +582,42 @@ def _in_view(frame, x, y) -> bool:
     return x0 <= px <= x1 and y0 <= py <= y1
 
 
-def _labels(frame, solution, placer) -> list[str]:
+#: Up to this many optics every one gets its label on the plan; on a larger bench only the
+#: ones that matter (see ``labelled_optics``), and a note sends the reader to the optics table.
+LABEL_ALL_UP_TO = 60
+#: Kinds always labelled on a large bench: where light is stopped or split, the gain medium,
+#: and what stands in the way.
+LABEL_KINDS = ("dump", "detector", "splitter", "crystal", "obstacle")
+
+
+def labelled_optics(solution, findings=()) -> set | None:
+    """The optics to label on the plan: all of them (None) on a bench of up to
+    LABEL_ALL_UP_TO optics; on a larger one, a reviewer cannot read a label per optic, so
+    only those that matter: every optic of a cavity, the first and last optic of every beam,
+    dumps, detectors, splitters, crystals and obstacles, and every optic a finding names."""
+    optics = solution.placement.optics
+    if len(optics) <= LABEL_ALL_UP_TO:
+        return None
+    keep = {oid for oid, placed in optics.items() if placed.optic.kind in LABEL_KINDS}
+    for cav in solution.cavities.values():
+        keep.update(h.optic for h in cav.hits)
+    for beam in solution.beams.values():
+        if beam.hits:
+            keep.update((beam.hits[0].optic, beam.hits[-1].optic))
+    for _, f in findings:
+        keep.update(t for t in f.targets if t in optics)
+    return keep
+
+
+def _labels(frame, solution, placer, keep=None) -> list[str]:
+    """Each optic's id beside its mount (only those in ``keep`` where it is given), each
+    source's id beside its mark."""
     out = []
     for oid, placed in solution.placement.optics.items():
+        if keep is not None and oid not in keep:
+            continue
         minx, miny, maxx, maxy = placed.footprint.bounds
-        if not _in_view(frame, (minx + maxx) / 2, (miny + maxy) / 2):
+        if not _in_view(frame, *_centre(placed.footprint.bounds)):
             continue
         (l, t), (r, b) = frame.xy(minx, maxy), frame.xy(maxx, miny)
         anchor = ((l + r) / 2, (t + b) / 2)

@@ -114,6 +114,8 @@ class Report:
         self.findings = sorted(findings, key=lambda f: (SEVERITY_ORDER.get(f.severity, 3), f.waived,
                                                           f.loc.line if f.loc else 0, f.rule))
         self.numbered = list(enumerate(self.findings, start=1))
+        #: ids the findings name: drawn and labelled in full on a long path's caustic
+        self.named = {t for f in self.findings for t in f.targets}
         self.root = shown_root(self.layout.file)
         self.config_path = config_path
         self.rules = rules
@@ -400,7 +402,7 @@ class Report:
                             f'planes against what brings it nearest to an edge (the thermal lens over its range, or '
                             f'the spacing with the narrowest window, named on the axis); stable where both curves '
                             f'stay in the shaded band; the plan dotted.</figcaption></figure>')
-            prof = plots.caustic_svg(sol, c.id, "cavity")
+            prof = plots.caustic_svg(sol, c.id, "cavity", self.named)
             if prof:
                 figs.append(f'<figure class="wide">{prof}<figcaption>Cavity {escape(c.id)}: the mode along the path '
                             f'(a linear cavity once, end to end; a ring once round), tangential radius above the axis, '
@@ -424,7 +426,7 @@ class Report:
         sol = self.solution
         figs = []
         for b in sol.beams.values():
-            prof = plots.caustic_svg(sol, b.id, "beam")
+            prof = plots.caustic_svg(sol, b.id, "beam", self.named)
             if prof:
                 figs.append(f'<figure class="wide">{prof}<figcaption>Beam {escape(b.id)} from '
                             f'{escape(b.origin)}: tangential radius above the axis, sagittal below, to scale, '

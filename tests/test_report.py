@@ -4,6 +4,7 @@ Chromium is installed, a real rendering (headless) that takes a screenshot."""
 
 from __future__ import annotations
 
+import math
 import re
 import shutil
 import subprocess
@@ -227,3 +228,65 @@ def test_a_crowded_bench_gets_an_enlarged_inset():
     assert len(panels) == 2 and "A: enlarged below" in svg and "times larger" in svg
     inset_optics = {text for kind, text, _ in panels[1]["labels"] if kind == "optic"}
     assert {"M2", "X1", "M3"} <= inset_optics
+
+
+def _relay_line(n: int, per_row: int = 20) -> str:
+    """An invented long relay line: rows of f = 200 mm lenses 50 mm apart, turned at each
+    row end by two 90-degree fold mirrors, ending on a dump; ``n`` optics in all."""
+    out = ["format = 1", "", "[bench]", f'name = "long relay line, {n} optics"',
+           f"size = [{per_row * 50.0 + 200.0:.1f}, {(-(-n // per_row)) * 60.0 + 200.0:.1f}]", ""]
+    path = []
+    for k in range(n):
+        row, j = divmod(k, per_row)
+        distance = 60.0 if (j == 0 and row > 0) else 50.0
+        if k == n - 1:
+            out += ["[[optic]]", f'id = "O{k}"', 'kind = "dump"', "diameter = 25.0", ""]
+            path.append(f'{{ id = "O{k}", distance = {distance} }}')
+        elif j == per_row - 1 or (j == 0 and row > 0):
+            fold = 90.0 if (row % 2 == 0) == (j == per_row - 1) else -90.0
+            out += ["[[optic]]", f'id = "O{k}"', 'kind = "mirror"', "diameter = 12.7", ""]
+            path.append(f'{{ id = "O{k}", distance = {distance}, fold = {fold} }}')
+        else:
+            out += ["[[optic]]", f'id = "O{k}"', 'kind = "lens"', "focal_length = 200.0", "diameter = 12.7", ""]
+            path.append(f'{{ id = "O{k}", distance = {distance} }}')
+    out += ["[[source]]", 'id = "LAS"', "at = [50.0, 100.0]", "heading = 0.0", "wavelength_nm = 1064",
+            "power_w = 0.5", "waist = 0.2", "waist_at = 0.0", "",
+            "[[beam]]", 'id = "line"', 'from = "LAS"', "path = [", *(f"  {p}," for p in path), "]", ""]
+    return "\n".join(out)
+
+
+def test_a_large_bench_labels_what_matters_without_overlap(tmp_path, capsys):
+    """On a bench of more optics than LABEL_ALL_UP_TO, the plan labels the optics that
+    matter (the first and last of the beam, the dump, every optic a finding names), says
+    how many further optics are not labelled, and still no label or marker overlaps another
+    or covers an optic; the long caustic says the same of its optics and waists."""
+    from benchcheck.planview import LABEL_ALL_UP_TO, plan_drawing
+
+    n = 150
+    assert n > LABEL_ALL_UP_TO
+    layout = tmp_path / "long.toml"
+    layout.write_text(_relay_line(n), encoding="utf-8")
+    (tmp_path / "benchcheck.toml").write_text("# defaults\n", encoding="utf-8")
+    solution, numbered = _reviewed(layout)
+    svg, panels = plan_drawing(solution, numbered)
+    labels = panels[0]["labels"]
+    optics = {text for kind, text, _ in labels if kind == "optic"}
+    named = {t for _, f in numbered for t in f.targets if t in solution.placement.optics}
+    assert {"O0", f"O{n - 1}"} | named <= optics
+    assert len(optics) < n
+    assert f"{n - len(optics)} further optics not labelled; see the optics table" in svg
+    for panel in panels:
+        boxes = np.array([box for _, _, box in panel["labels"]])
+        blocked = np.array(panel["optics"])
+        for others, skip_self in ((boxes, True), (blocked, False)):
+            w = np.minimum(boxes[:, None, 2], others[None, :, 2]) - np.maximum(boxes[:, None, 0], others[None, :, 0])
+            h = np.minimum(boxes[:, None, 3], others[None, :, 3]) - np.maximum(boxes[:, None, 1], others[None, :, 1])
+            area = np.clip(w, 0.0, None) * np.clip(h, 0.0, None)
+            if skip_self:
+                np.fill_diagonal(area, 0.0)
+            assert not area.any(), "a label overlaps another label or an optic"
+    html = make(layout, tmp_path / "r.html", capsys)
+    assert "further optics not labelled; see the optics table" in html
+    assert "further optics (ticks)" in html and "narrowest: t" in html     # the caustic's axis title and waist
+    assert html.count("<tr>") > n            # every optic has its row in the optics table
+
