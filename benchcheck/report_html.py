@@ -392,7 +392,7 @@ class Report:
                              (("not given" if c.circulating_w is None else f"{c.circulating_w:.4g} W")
                               if plane == "t" else "")])
         table = _table(["cavity", "plane", "m = (A+D)/2", "status", "Gouy (deg)", "mode spacing", "FSR",
-                        "circulating"], rows)
+                        "circulating"], rows) + self._enhancement()
         figs = []
         for c in sol.cavities.values():
             windows = self._windows(c)
@@ -412,6 +412,34 @@ class Report:
                 figs.append(f'<figure class="wide">{svg}<figcaption>Cavity {escape(c.id)}: how far each air '
                             f'spacing may move with the cavity stable in both planes.</figcaption></figure>')
         return f'<section id="cavities"><h2>Cavities</h2>{table}{"".join(figs)}</section>'
+
+    def _enhancement(self) -> str:
+        """The passive (seeded) cavities on resonance: what the solver computed for them
+        (the same figures as ``benchcheck beams``)."""
+        rows = []
+        for c in self.solution.cavities.values():
+            e = c.enhancement
+            if e is None:
+                continue
+            seeds = ", ".join(escape(b) for b in e.seeds) or "none"
+            fed = "–" if e.delivered_w is None else f"{e.delivered_w:.4g} W"
+            if e.declared_w is not None:
+                fed += f" (layout: input {e.declared_w:.4g} W)"
+            rows.append([escape(c.id), _f(e.finesse, ".1f"), _si(e.linewidth_hz, "Hz"),
+                         f"{e.input_transmission * 100:.3g} % / {e.rest_loss * 100:.3g} %", escape(e.coupling),
+                         seeds, fed, _f(e.mode_match, ".4f"), "–" if e.input_w is None else f"{e.input_w:.4g} W",
+                         _f(e.buildup, ".4g"), _f(None if e.reflected is None else e.reflected * 100, ".3g"),
+                         _f(None if e.transmitted is None else e.transmitted * 100, ".3g")])
+        if not rows:
+            return ""
+        table = _table(["cavity", "finesse", "linewidth (FWHM)", "input coupler T / rest of round-trip loss",
+                        "coupling", "seeded by", "delivered to the input coupler", "mode match", "in the cavity's mode",
+                        "build-up", "reflected (%)", "transmitted (%)"], rows)
+        return (f'<h3>Passive cavities on resonance</h3>{table}<p class="small">Build-up: circulating power over '
+                f'the power in the cavity\'s mode (delivered power times mode match). Reflected and transmitted: '
+                f'fractions of that mode-matched input power, on resonance; transmitted means leaving through the '
+                f'other mirrors. Impedance-matched when the input coupler\'s transmission equals the rest of the '
+                f'round-trip loss.</p>')
 
     def _windows(self, cav):
         if not (cav.stable("t") and cav.stable("s")):

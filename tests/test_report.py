@@ -290,3 +290,42 @@ def test_a_large_bench_labels_what_matters_without_overlap(tmp_path, capsys):
     assert "further optics (ticks)" in html and "narrowest: t" in html     # the caustic's axis title and waist
     assert html.count("<tr>") > n            # every optic has its row in the optics table
 
+def test_a_seeded_passive_cavity_shows_its_resonance_figures(tmp_path, capsys):
+    """The cavity section gives a passive cavity's finesse, linewidth, coupling, mode match,
+    build-up and reflected and transmitted fractions.  Flat input coupler R1 = 0.99 and end
+    mirror R2 = 0.999 500 mm apart, seeded with 3 W whose waist is half the cavity's.
+    Expected values derived here from the closed forms (Siegman, "Lasers", 1986, ch. 11, from
+    memory), rho = sqrt(R1 R2): finesse pi sqrt(rho) / (1 - rho); FWHM (2 FSR / pi)
+    arcsin((1 - rho) / (2 sqrt(rho))) with FSR = c / (2 L); build-up T1 / (1 - rho)^2;
+    reflected (sqrt(R2) - sqrt(R1))^2 / (1 - rho)^2; transmitted T1 T2 / (1 - rho)^2; mode
+    match of coincident waists w and w / 2, (2 r / (1 + r^2))^2 with r = 0.5 (Kogelnik 1964,
+    from memory)."""
+    from test_enhancement import seeded
+
+    from layouts_util import C_M_S
+
+    r1, r2 = 0.99, 0.999
+    rho = math.sqrt(r1 * r2)
+    finesse = math.pi * math.sqrt(rho) / (1 - rho)
+    fsr = C_M_S / (2 * 0.5)
+    fwhm_khz = 2 * fsr / math.pi * math.asin((1 - rho) / (2 * math.sqrt(rho))) / 1e3
+    build = (1 - r1) / (1 - rho) ** 2
+    reflected = (math.sqrt(r2) - math.sqrt(r1)) ** 2 / (1 - rho) ** 2
+    transmitted = (1 - r1) * (1 - r2) / (1 - rho) ** 2
+    match = (2 * 0.5 / (1 + 0.25)) ** 2
+    layout = tmp_path / "seeded.toml"
+    layout.write_text(seeded(r1, r2, 3.0, 3.0, ratio=0.5), encoding="utf-8")
+    (tmp_path / "benchcheck.toml").write_text("# defaults\n", encoding="utf-8")
+    root = parse(make(layout, tmp_path / "r.html", capsys))
+    section = next(e for e in root.iter() if e.get("id") == "cavities")
+    table = next(t for t in section.iter("table") if any(th.text == "finesse" for th in t.iter("th")))
+    row = ["".join(td.itertext()) for td in next(iter(table.iter("tbody"))).iter("td")]
+    assert row[0] == "enh"
+    assert row[1] == f"{finesse:.1f}"
+    assert row[2] == f"{fwhm_khz:.4g} kHz"
+    assert row[3] == "1 % / 0.1 %" and row[4] == "over-coupled"
+    assert row[5] == "seed" and row[6] == "3 W (layout: input 3 W)"
+    assert row[7] == f"{match:.4f}" and row[8] == f"{3.0 * match:.4g} W"
+    assert row[9] == f"{build:.4g}"
+    assert row[10] == f"{reflected * 100:.3g}" and row[11] == f"{transmitted * 100:.3g}"
+
