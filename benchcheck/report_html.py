@@ -154,7 +154,8 @@ class Report:
             f"<style>{CSS}</style></head><body>",
             f'<header><h1>Bench review: {name}</h1>'
             f'<p class="meta">Layout <code>{escape(shown_path(self.layout.file, self.root))}</code> · configuration '
-            f'<code>{escape(shown_path(self.config_path, self.root) if self.config_path else "defaults")}</code> · '
+            + (f'<code>{escape(shown_path(self.config_path, self.root))}</code> · ' if self.config_path else
+               'built-in defaults (no configuration file found) · ') +
             f'benchcheck {escape(__version__)} · '
             f'{generated.isoformat(sep=" ")}</p>'
             f'<p class="summary">{summary}</p></header>',
@@ -287,7 +288,8 @@ class Report:
                 f'<h3>Circulating power</h3>{cav_table}'
                 f'<h3>Beams</h3>{beam_table}'
                 f'<h3>Leak and secondary beams</h3>{stray_table}'
-                f'<p class="small">Stray-power limit {limits["stray_power_w"]:g} W (repository configuration). '
+                f'<p class="small">Stray-power limit {limits["stray_power_w"]:g} W '
+                f'({"repository configuration" if self.config_path else "built-in default"}). '
                 f'A leak is contained when it stays inside an enclosure; one that crosses open bench is open even '
                 f'where a dump, a detector or an enclosure wall stops it at the end.</p></section>')
 

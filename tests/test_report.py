@@ -329,3 +329,13 @@ def test_a_seeded_passive_cavity_shows_its_resonance_figures(tmp_path, capsys):
     assert row[9] == f"{build:.4g}"
     assert row[10] == f"{reflected * 100:.3g}" and row[11] == f"{transmitted * 100:.3g}"
 
+def test_without_a_configuration_file_the_report_says_built_in_defaults(tmp_path, capsys):
+    layout = tmp_path / "bench.toml"
+    shutil.copyfile(ROOT / "layouts" / "two-mirror.toml", layout)
+    html = make(layout, tmp_path / "r.html", capsys)
+    assert "configuration built-in defaults (no configuration file found)" in html
+    assert "(built-in default)" in html and "repository configuration" not in html
+    (tmp_path / "benchcheck.toml").write_text("# the repository's own\n", encoding="utf-8")
+    html = make(layout, tmp_path / "r.html", capsys)
+    assert "configuration <code>" in html and "(repository configuration)" in html
+
