@@ -290,6 +290,7 @@ def test_a_large_bench_labels_what_matters_without_overlap(tmp_path, capsys):
     assert "further optics (ticks)" in html and "narrowest: t" in html     # the caustic's axis title and waist
     assert html.count("<tr>") > n            # every optic has its row in the optics table
 
+
 def test_a_seeded_passive_cavity_shows_its_resonance_figures(tmp_path, capsys):
     """The cavity section gives a passive cavity's finesse, linewidth, coupling, mode match,
     build-up and reflected and transmitted fractions.  Flat input coupler R1 = 0.99 and end
@@ -329,6 +330,7 @@ def test_a_seeded_passive_cavity_shows_its_resonance_figures(tmp_path, capsys):
     assert row[9] == f"{build:.4g}"
     assert row[10] == f"{reflected * 100:.3g}" and row[11] == f"{transmitted * 100:.3g}"
 
+
 def test_without_a_configuration_file_the_report_says_built_in_defaults(tmp_path, capsys):
     layout = tmp_path / "bench.toml"
     shutil.copyfile(ROOT / "layouts" / "two-mirror.toml", layout)
@@ -339,3 +341,19 @@ def test_without_a_configuration_file_the_report_says_built_in_defaults(tmp_path
     html = make(layout, tmp_path / "r.html", capsys)
     assert "configuration <code>" in html and "(repository configuration)" in html
 
+
+def test_report_exits_0_on_error_findings_where_check_fails(tmp_path, capsys):
+    """The report is a document, `check` the gate: on a layout with unwaived error findings
+    `check` exits 1 and `report` writes the report and exits 0 (README, exit status)."""
+    layout = ROOT / "layouts" / "flawed" / "every-rule-fires.toml"
+    assert main(["check", str(layout)]) == 1
+    capsys.readouterr()
+    html = make(layout, tmp_path / "r.html", capsys)
+    assert '<span class="sev error">error</span>' in html
+    # a problem with the configuration: the report is written, the status is 2
+    (tmp_path / "bench").mkdir()
+    shutil.copyfile(layout, tmp_path / "bench" / "b.toml")
+    (tmp_path / "bench" / "benchcheck.toml").write_text("[rules.no-such-rule]\nx = 1\n", encoding="utf-8")
+    assert main(["report", str(tmp_path / "bench" / "b.toml"), "-o", str(tmp_path / "bench.html")]) == 2
+    assert "no rule 'no-such-rule'" in capsys.readouterr().err
+    assert (tmp_path / "bench.html").read_text(encoding="utf-8").startswith(MARKER)
