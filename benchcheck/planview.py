@@ -116,19 +116,32 @@ def _legs(solution, path_id: str, role: str):
     return [((pts[i], pts[i + 1]), (ss[i], ss[i + 1])) for i in range(len(pts) - 1)]
 
 
-def _envelope(frame, leg, srange, pieces, k) -> str | None:
-    """Polygon of the in-plane envelope +-k w along one leg, or None without a mode."""
-    if not pieces:
+#: samples along each leg for its envelope
+ENVELOPE_SAMPLES = 48
+
+
+def _radii(legs, pieces):
+    """The in-plane radius at ENVELOPE_SAMPLES points along each leg, one row a leg (NaN
+    inside thin elements), looked up in one call for the whole path; None without a mode."""
+    if not pieces or not legs:
         return None
-    (a, b), (s0, s1) = leg, srange
-    t = np.linspace(0.0, 1.0, 48)
-    s = s0 + (s1 - s0) * t
-    w = radius_along(pieces, s)
-    if np.all(np.isnan(w)):
+    t = np.linspace(0.0, 1.0, ENVELOPE_SAMPLES)
+    s0 = np.array([sr[0] for _, sr in legs])
+    s1 = np.array([sr[1] for _, sr in legs])
+    s = s0[:, None] + (s1 - s0)[:, None] * t[None, :]
+    return radius_along(pieces, s.ravel()).reshape(s.shape)
+
+
+def _envelope(frame, leg, w, k) -> str | None:
+    """Polygon of the in-plane envelope +-k w along one leg (``w`` its row of ``_radii``),
+    or None without a mode."""
+    if w is None or np.all(np.isnan(w)):
         return None
+    t = np.linspace(0.0, 1.0, ENVELOPE_SAMPLES)
     idx = np.arange(len(w))
     good = ~np.isnan(w)
     w = np.interp(idx, idx[good], w[good])      # inside thin elements: from the neighbours
+    a, b = leg
     a, b = np.asarray(a, float), np.asarray(b, float)
     d = b - a
     length = float(np.hypot(*d))
@@ -173,7 +186,8 @@ def plan_drawing(solution, findings=(), width_px: float = 960.0, hazards=None):
            '<marker id="arrow" viewBox="0 0 10 10" refX="9" refY="5" markerWidth="7" markerHeight="7" '
            f'orient="auto-start-reverse"><path d="M0,0 L10,5 L0,10 z" fill="{STYLE["stray"]}"/></marker></defs>']
     out += _table(frame)
-    body, placer = _panel(frame, solution, findings, k, hazards)
+    stretches = hazard_stretches(hazards) if hazards is not None else None
+    body, placer = _panel(frame, solution, findings, k, stretches)
     out += body
     panels = [placer]
     out.append(f'<text x="{frame.width - 10:.0f}" y="{frame.height - 10:.0f}" text-anchor="end" class="small">'
@@ -197,7 +211,7 @@ def plan_drawing(solution, findings=(), width_px: float = 960.0, hazards=None):
                    f'height="{y1 - y0:.1f}"/></clipPath>')
         out.append(f'<rect x="{x0:.1f}" y="{y0:.1f}" width="{x1 - x0:.1f}" height="{y1 - y0:.1f}" '
                    f'fill="{STYLE["table"]}" stroke="{STYLE["ink"]}" stroke-width="1.2"/>')
-        body, placer = _panel(inset, solution, findings, ki, hazards)
+        body, placer = _panel(inset, solution, findings, ki, stretches)
         out.append('<g clip-path="url(#inset-clip)">')
         out += body
         out.append("</g>")
@@ -241,13 +255,19 @@ def densest_region(solution, frame):
         return None
     xy = np.array(list(points.values()))
     reach = max(frame.w_mm, frame.h_mm) / 8.0
-    best = None
-    for c in xy:
-        near = xy[np.hypot(*(xy - c).T) <= reach]
-        if len(near) >= 3 and (best is None or len(near) > len(best)):
-            best = near
-    if best is None:
+    # pairs within reach: candidates from an STRtree (a little wider), kept by the same test
+    # as a full distance matrix would apply, so the result does not depend on the index
+    import shapely
+
+    tree = shapely.STRtree(shapely.points(xy))
+    a, b = tree.query(shapely.points(xy), predicate="dwithin", distance=reach * (1 + 1e-9) + 1e-9)
+    keep = np.hypot(*(xy[b] - xy[a]).T) <= reach
+    a, b = a[keep], b[keep]
+    counts = np.bincount(a, minlength=len(xy))
+    centre = int(np.argmax(counts))           # the first of the most crowded
+    if counts[centre] < 3:
         return None
+    best = xy[np.sort(b[a == centre])]
     d = np.hypot(best[:, None, 0] - best[None, :, 0], best[:, None, 1] - best[None, :, 1])
     np.fill_diagonal(d, np.inf)
     if float(np.mean(d.min(axis=1))) * frame.scale >= CROWDED_PX:
@@ -258,13 +278,14 @@ def densest_region(solution, frame):
     return (max(0.0, x0), max(0.0, y0), min(frame.w_mm, x1), min(frame.h_mm, y1))
 
 
-def _panel(frame, solution, findings, k, hazards=None):
-    """Everything drawn on the table, in one frame: zones, mounts, paths, strays, then the
-    labels and markers placed by one pass so that none covers an optic or another."""
+def _panel(frame, solution, findings, k, stretches=None):
+    """Everything drawn on the table, in one frame: zones, mounts, paths, strays, hazard
+    bands (``stretches``, from ``hazard_stretches``), then the labels and markers placed by
+    one pass so that none covers an optic or another."""
     layout = solution.layout
     out = []
     out += _zones(frame, layout)
-    bands, hazard_labels = _hazard_zones(frame, hazards) if hazards is not None else ([], [])
+    bands, hazard_labels = _hazard_zones(frame, stretches) if stretches is not None else ([], [])
     out += bands
     out += _mounts(frame, solution)
     for cid in solution.cavities:
@@ -479,8 +500,10 @@ def _path(frame, solution, ident: str, role: str, k: float) -> list[str]:
     width = 1.6 if role == "cavity" else 1.0
     pieces = result.profile.get("t") or result.profile.get("s") or []
     out = []
-    for leg, srange in _legs(solution, ident, "beam" if role == "beam" else role):
-        env = _envelope(frame, leg, srange, pieces, k)
+    legs = _legs(solution, ident, "beam" if role == "beam" else role)
+    radii = _radii(legs, pieces)
+    for i, (leg, _) in enumerate(legs):
+        env = _envelope(frame, leg, None if radii is None else radii[i], k)
         if env:
             out.append(f'<polygon points="{env}" fill="{colour}" fill-opacity="0.22" stroke="none"/>')
         (x1, y1), (x2, y2) = frame.xy(*leg[0]), frame.xy(*leg[1])
@@ -489,13 +512,15 @@ def _path(frame, solution, ident: str, role: str, k: float) -> list[str]:
     return out
 
 
-def _hazard_zones(frame, assessment):
-    """A wide translucent band along every stretch outside the enclosures where the
-    exposure exceeds the MPE, cut at the hazard distance; where the hazard runs on past the
-    drawing, a label at its end with the distance (placed by the label pass).  Returns the
-    bands and the (text, anchor px) of the labels."""
-    out, labels = [], []
-    colour = STYLE["hazard"]
+def hazard_stretches(assessment) -> list[tuple]:
+    """Every stretch outside the enclosures where the exposure exceeds the MPE, cut at the
+    hazard distance, in table mm, with its title and, where the hazard runs on past the
+    drawing, the label for its end: [(coords, title, label or None)].  Worked out once for
+    the plan and its inset."""
+    from shapely.geometry import LineString
+    from shapely.ops import substring
+
+    out = []
     for seg in assessment.segments:
         if seg.inside_enclosure or seg.ratio is None or seg.ratio <= 1.0:
             continue
@@ -503,21 +528,29 @@ def _hazard_zones(frame, assessment):
         reach = length if seg.nohd_mm is None else min(seg.nohd_mm, length)
         if reach <= 0:
             continue
-        from shapely.geometry import LineString
-        from shapely.ops import substring
-
         stretch = substring(LineString(seg.polyline), 0.0, reach)
-        pts = [frame.xy(x, y) for x, y in stretch.coords]
-        x2, y2 = pts[-1]
-        label = f"{seg.id}: {seg.ratio:.3g} x MPE, OD {seg.od}"
-        corners = " ".join(f"{x:.1f},{y:.1f}" for x, y in pts)
-        out.append(f'<polyline points="{corners}" fill="none" stroke="{colour}" '
-                   f'stroke-opacity="0.45" stroke-width="12" stroke-linecap="butt" stroke-linejoin="round">'
-                   f'<title>{escape(label)}</title></polyline>')
+        title = f"{seg.id}: {seg.ratio:.3g} x MPE, OD {seg.od}"
+        label = None
         if seg.nohd_mm is not None and seg.nohd_mm > length:
             far = "unbounded" if seg.nohd_mm == float("inf") else (
                 f"{seg.nohd_mm / 1000:.3g} m" if seg.nohd_mm >= 1000 else f"{seg.nohd_mm:.0f} mm")
-            labels.append((f"hazard to {far}", (x2, y2)))
+            label = f"hazard to {far}"
+        out.append((list(stretch.coords), title, label))
+    return out
+
+
+def _hazard_zones(frame, stretches):
+    """A wide translucent band along every stretch of ``hazard_stretches``; where the
+    hazard runs on past the drawing, a label at its end with the distance (placed by the
+    label pass).  Returns the bands and the (text, anchor px) of the labels."""
+    out, labels = [], []
+    colour = STYLE["hazard"]
+    for coords, title, label in stretches:
+        out.append(f'<polyline points="{frame.pts(coords)}" fill="none" stroke="{colour}" '
+                   f'stroke-opacity="0.45" stroke-width="12" stroke-linecap="butt" stroke-linejoin="round">'
+                   f'<title>{escape(title)}</title></polyline>')
+        if label is not None:
+            labels.append((label, frame.xy(*coords[-1])))
     return out, labels
 
 
