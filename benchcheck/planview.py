@@ -195,8 +195,9 @@ def plan_drawing(solution, findings=(), width_px: float = 960.0, hazards=None):
                f'cavities solid, beams solid thin, leaks dashed</text>')
     unlabelled = _unlabelled(frame, solution, findings)
     if unlabelled:
-        out.append(f'<text x="{frame.width - 10:.0f}" y="{frame.height - 24:.0f}" text-anchor="end" class="small">'
-                   f'{unlabelled} further optics not labelled; see the optics table</text>')
+        out.append(f'<a href="#optics"><text x="{frame.width - 10:.0f}" y="{frame.height - 24:.0f}" '
+                   f'text-anchor="end" class="small">{unlabelled} further optics not labelled; see the optics '
+                   f'table</text></a>')
     if inset is not None:
         (ax0, ay0), (ax1, ay1) = frame.xy(region[0], region[3]), frame.xy(region[2], region[1])
         out.append(f'<rect x="{ax0:.1f}" y="{ay0:.1f}" width="{ax1 - ax0:.1f}" height="{ay1 - ay0:.1f}" '
