@@ -238,8 +238,8 @@ def caustic_svg(solution, ident: str, role: str, named=()) -> str | None:
     keep = _kept_hits(layout, result.hits, tight, named) if long_path else set(range(len(result.hits)))
     glyph = 0.55 * top
     ticks = [h.s for i, h in enumerate(result.hits) if i not in keep]
-    if ticks:      # the optics not drawn in full: one thin tick each, in one artist
-        ax.vlines(ticks, -0.5 * glyph, 0.5 * glyph, colors=GLYPH, linewidth=0.5, zorder=4)
+    if ticks:      # the optics not drawn in full: a short tick each on the axis's foot (a rug), in one artist
+        ax.vlines(ticks, 0.0, 0.04, transform=ax.get_xaxis_transform(), colors=GLYPH, linewidth=0.4, zorder=4)
     for i, h in enumerate(result.hits):
         if i not in keep:
             continue
@@ -285,8 +285,8 @@ def caustic_svg(solution, ident: str, role: str, named=()) -> str | None:
     ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{abs(v):g}"))
     xlabel = "distance along the path s (mm)"
     if long_path:
-        xlabel += (f"; {len(result.hits) - len(keep)} further optics (ticks) and {quiet} further waists not "
-                   f"labelled: see the optics table")
+        xlabel += (f"; {len(result.hits) - len(keep)} further optics (ticks at the foot) and {quiet} further "
+                   f"waists not labelled: see the optics table")
     ax.set_xlabel(xlabel)
     ax.text(-0.075, 0.75, "tangential $w_t$ (µm)", transform=ax.transAxes, rotation=90, ha="center", va="center",
             fontsize=8, color="#1d3f63")

@@ -289,7 +289,7 @@ def test_a_large_bench_labels_what_matters_without_overlap(tmp_path, capsys):
     root = parse(html)
     note = next(a for a in root.iter(SVG + "a") if "further optics" in "".join(a.itertext()))
     assert note.get("href") == "#optics"          # the note links to the table that lists every optic
-    assert "further optics (ticks)" in html and "narrowest: t" in html     # the caustic's axis title and waist
+    assert "further optics (ticks at the foot)" in html and "narrowest: t" in html     # the caustic's axis title and waist
     assert html.count("<tr>") > n            # every optic has its row in the optics table
 
 
