@@ -51,10 +51,13 @@ class _Frame:
         self.area = (margin, margin, margin + self.w_mm * self.scale, margin + self.h_mm * self.scale)
 
     def xy(self, x, y):
+        """Scalars or numpy arrays alike."""
         return self.margin + x * self.scale, self.margin + (self.h_mm - y) * self.scale
 
     def pts(self, coords) -> str:
-        return " ".join(f"{px:.1f},{py:.1f}" for px, py in (self.xy(x, y) for x, y in coords))
+        xy = np.asarray(coords, dtype=float).reshape(-1, 2)
+        px, py = self.xy(xy[:, 0], xy[:, 1])          # numpy arrays: the same arithmetic per point
+        return " ".join(map("{:.1f},{:.1f}".format, px.tolist(), py.tolist()))
 
 
 class _Inset(_Frame):
@@ -113,19 +116,32 @@ def _legs(solution, path_id: str, role: str):
     return [((pts[i], pts[i + 1]), (ss[i], ss[i + 1])) for i in range(len(pts) - 1)]
 
 
-def _envelope(frame, leg, srange, pieces, k) -> str | None:
-    """Polygon of the in-plane envelope +-k w along one leg, or None without a mode."""
-    if not pieces:
+#: samples along each leg for its envelope
+ENVELOPE_SAMPLES = 48
+
+
+def _radii(legs, pieces):
+    """The in-plane radius at ENVELOPE_SAMPLES points along each leg, one row a leg (NaN
+    inside thin elements), looked up in one call for the whole path; None without a mode."""
+    if not pieces or not legs:
         return None
-    (a, b), (s0, s1) = leg, srange
-    t = np.linspace(0.0, 1.0, 48)
-    s = s0 + (s1 - s0) * t
-    w = radius_along(pieces, s)
-    if np.all(np.isnan(w)):
+    t = np.linspace(0.0, 1.0, ENVELOPE_SAMPLES)
+    s0 = np.array([sr[0] for _, sr in legs])
+    s1 = np.array([sr[1] for _, sr in legs])
+    s = s0[:, None] + (s1 - s0)[:, None] * t[None, :]
+    return radius_along(pieces, s.ravel()).reshape(s.shape)
+
+
+def _envelope(frame, leg, w, k) -> str | None:
+    """Polygon of the in-plane envelope +-k w along one leg (``w`` its row of ``_radii``),
+    or None without a mode."""
+    if w is None or np.all(np.isnan(w)):
         return None
+    t = np.linspace(0.0, 1.0, ENVELOPE_SAMPLES)
     idx = np.arange(len(w))
     good = ~np.isnan(w)
     w = np.interp(idx, idx[good], w[good])      # inside thin elements: from the neighbours
+    a, b = leg
     a, b = np.asarray(a, float), np.asarray(b, float)
     d = b - a
     length = float(np.hypot(*d))
@@ -170,12 +186,18 @@ def plan_drawing(solution, findings=(), width_px: float = 960.0, hazards=None):
            '<marker id="arrow" viewBox="0 0 10 10" refX="9" refY="5" markerWidth="7" markerHeight="7" '
            f'orient="auto-start-reverse"><path d="M0,0 L10,5 L0,10 z" fill="{STYLE["stray"]}"/></marker></defs>']
     out += _table(frame)
-    body, placer = _panel(frame, solution, findings, k, hazards)
+    stretches = hazard_stretches(hazards) if hazards is not None else None
+    body, placer = _panel(frame, solution, findings, k, stretches)
     out += body
     panels = [placer]
     out.append(f'<text x="{frame.width - 10:.0f}" y="{frame.height - 10:.0f}" text-anchor="end" class="small">'
                f'beam envelopes drawn at {k:g} x their 1/e&#178; radius (in-plane); '
                f'cavities solid, beams solid thin, leaks dashed</text>')
+    unlabelled = _unlabelled(frame, solution, findings)
+    if unlabelled:
+        out.append(f'<a href="#optics"><text x="{frame.width - 10:.0f}" y="{frame.height - 24:.0f}" '
+                   f'text-anchor="end" class="small">{unlabelled} further optics not labelled; see the optics '
+                   f'table</text></a>')
     if inset is not None:
         (ax0, ay0), (ax1, ay1) = frame.xy(region[0], region[3]), frame.xy(region[2], region[1])
         out.append(f'<rect x="{ax0:.1f}" y="{ay0:.1f}" width="{ax1 - ax0:.1f}" height="{ay1 - ay0:.1f}" '
@@ -190,7 +212,7 @@ def plan_drawing(solution, findings=(), width_px: float = 960.0, hazards=None):
                    f'height="{y1 - y0:.1f}"/></clipPath>')
         out.append(f'<rect x="{x0:.1f}" y="{y0:.1f}" width="{x1 - x0:.1f}" height="{y1 - y0:.1f}" '
                    f'fill="{STYLE["table"]}" stroke="{STYLE["ink"]}" stroke-width="1.2"/>')
-        body, placer = _panel(inset, solution, findings, ki, hazards)
+        body, placer = _panel(inset, solution, findings, ki, stretches)
         out.append('<g clip-path="url(#inset-clip)">')
         out += body
         out.append("</g>")
@@ -200,6 +222,20 @@ def plan_drawing(solution, findings=(), width_px: float = 960.0, hazards=None):
                    f'envelopes at {ki:g} x</text>')
     out.append("</svg>")
     return "\n".join(out), [{"labels": list(p.placed), "optics": list(p.blocked)} for p in panels]
+
+
+def _unlabelled(frame, solution, findings) -> int:
+    """How many optics in view of the plan go without a label (``labelled_optics``)."""
+    keep = labelled_optics(solution, findings)
+    if keep is None:
+        return 0
+    return sum(1 for oid, placed in solution.placement.optics.items()
+               if oid not in keep and _in_view(frame, *_centre(placed.footprint.bounds)))
+
+
+def _centre(bounds) -> tuple[float, float]:
+    minx, miny, maxx, maxy = bounds
+    return (minx + maxx) / 2, (miny + maxy) / 2
 
 
 #: The bench is crowded, and gets an enlarged inset, when optics of the densest region lie
@@ -220,13 +256,19 @@ def densest_region(solution, frame):
         return None
     xy = np.array(list(points.values()))
     reach = max(frame.w_mm, frame.h_mm) / 8.0
-    best = None
-    for c in xy:
-        near = xy[np.hypot(*(xy - c).T) <= reach]
-        if len(near) >= 3 and (best is None or len(near) > len(best)):
-            best = near
-    if best is None:
+    # pairs within reach: candidates from an STRtree (a little wider), kept by the same test
+    # as a full distance matrix would apply, so the result does not depend on the index
+    import shapely
+
+    tree = shapely.STRtree(shapely.points(xy))
+    a, b = tree.query(shapely.points(xy), predicate="dwithin", distance=reach * (1 + 1e-9) + 1e-9)
+    keep = np.hypot(*(xy[b] - xy[a]).T) <= reach
+    a, b = a[keep], b[keep]
+    counts = np.bincount(a, minlength=len(xy))
+    centre = int(np.argmax(counts))           # the first of the most crowded
+    if counts[centre] < 3:
         return None
+    best = xy[np.sort(b[a == centre])]
     d = np.hypot(best[:, None, 0] - best[None, :, 0], best[:, None, 1] - best[None, :, 1])
     np.fill_diagonal(d, np.inf)
     if float(np.mean(d.min(axis=1))) * frame.scale >= CROWDED_PX:
@@ -237,13 +279,14 @@ def densest_region(solution, frame):
     return (max(0.0, x0), max(0.0, y0), min(frame.w_mm, x1), min(frame.h_mm, y1))
 
 
-def _panel(frame, solution, findings, k, hazards=None):
-    """Everything drawn on the table, in one frame: zones, mounts, paths, strays, then the
-    labels and markers placed by one pass so that none covers an optic or another."""
+def _panel(frame, solution, findings, k, stretches=None):
+    """Everything drawn on the table, in one frame: zones, mounts, paths, strays, hazard
+    bands (``stretches``, from ``hazard_stretches``), then the labels and markers placed by
+    one pass so that none covers an optic or another."""
     layout = solution.layout
     out = []
     out += _zones(frame, layout)
-    bands, hazard_labels = _hazard_zones(frame, hazards) if hazards is not None else ([], [])
+    bands, hazard_labels = _hazard_zones(frame, stretches) if stretches is not None else ([], [])
     out += bands
     out += _mounts(frame, solution)
     for cid in solution.cavities:
@@ -252,7 +295,7 @@ def _panel(frame, solution, findings, k, hazards=None):
         out += _path(frame, solution, bid, "beam", k)
     out += _strays(frame, solution)
     placer = _Placer(frame, solution)
-    out += _labels(frame, solution, placer)
+    out += _labels(frame, solution, placer, labelled_optics(solution, findings))
     out += _markers(frame, solution, findings, placer)
     out += _stray_labels(frame, solution, placer)
     out += _zone_labels(frame, layout, placer)
@@ -272,7 +315,13 @@ class _Placer:
     """A simple label-placement pass: each label or marker takes the first free spot of a
     ring of candidates around its anchor (nearest first), free meaning inside the drawing,
     clear of every mount footprint and source and of everything placed before; where no
-    spot is free, the one with least overlap.  A spot away from the anchor gets a leader."""
+    spot is free, the one with least overlap.  A spot away from the anchor gets a leader.
+
+    Boxes already taken are kept in a grid of CELL px squares, so that a label is tested
+    only against the boxes near its anchor: the pass grows linearly with the labels, not
+    with their square (a box out of the candidates' reach overlaps none of them)."""
+
+    CELL = 64.0
 
     def __init__(self, frame, solution):
         self.frame = frame
@@ -286,10 +335,49 @@ class _Placer:
             px, py = frame.xy(*point)
             self.blocked.append((px - 5, py - 5, px + 5, py + 5))
         self.placed: list[tuple] = []      # (kind, text, box)
+        self._boxes: list[tuple] = []      # blocked, then placed, in that order
+        self._grid: dict[tuple[int, int], list[int]] = {}
+        for box in self.blocked:
+            self._index(box)
+
+    def _cells(self, box):
+        c = self.CELL
+        i0, j0 = math.floor(box[0] / c), math.floor(box[1] / c)
+        i1, j1 = math.floor(box[2] / c), math.floor(box[3] / c)
+        return ((i, j) for i in range(i0, i1 + 1) for j in range(j0, j1 + 1))
+
+    def _index(self, box) -> None:
+        n = len(self._boxes)
+        self._boxes.append(box)
+        for cell in self._cells(box):
+            self._grid.setdefault(cell, []).append(n)
+
+    def _near(self, region) -> list[int]:
+        """Indices (ascending, as they were taken) of the boxes in the cells ``region`` covers."""
+        found = set()
+        grid = self._grid
+        for cell in self._cells(region):
+            hit = grid.get(cell)
+            if hit:
+                found.update(hit)
+        return sorted(found)
 
     #: candidate distances (px) beyond the anchor's own radius, and directions per ring
     RINGS = (2.0, 8.0, 16.0, 26.0, 38.0, 54.0, 74.0, 100.0, 130.0)
     TURNS = 16
+    #: rings tried on their own before all of them
+    INNER = 4
+
+    def _cost(self, boxes, inside):
+        """Per candidate box, its overlap area (px^2) with the boxes taken near it; inf
+        outside the drawing."""
+        reach = (float(boxes[:, 0].min()), float(boxes[:, 1].min()), float(boxes[:, 2].max()),
+                 float(boxes[:, 3].max()))
+        others = np.array([self._boxes[i] for i in self._near(reach)], dtype=float).reshape(-1, 4)
+        ow = np.minimum(boxes[:, None, 2], others[None, :, 2]) - np.maximum(boxes[:, None, 0], others[None, :, 0])
+        oh = np.minimum(boxes[:, None, 3], others[None, :, 3]) - np.maximum(boxes[:, None, 1], others[None, :, 1])
+        cost = (np.clip(ow, 0.0, None) * np.clip(oh, 0.0, None)).sum(axis=1)
+        return np.where(inside, cost, np.inf)
 
     def place(self, kind: str, text: str, anchor, size, start: float = 90.0, near: float = 0.0):
         """Box (x0, y0, x1, y1) for a label of ``size`` (w, h) px near ``anchor`` (px);
@@ -307,12 +395,13 @@ class _Placer:
         boxes = np.stack([cx - w / 2, cy - h / 2, cx + w / 2, cy + h / 2], axis=1)
         x0, y0, x1, y1 = self.area
         inside = (boxes[:, 0] >= x0) & (boxes[:, 1] >= y0) & (boxes[:, 2] <= x1) & (boxes[:, 3] <= y1)
-        others = np.array(self.blocked + [p[2] for p in self.placed], dtype=float).reshape(-1, 4)
-        ow = np.minimum(boxes[:, None, 2], others[None, :, 2]) - np.maximum(boxes[:, None, 0], others[None, :, 0])
-        oh = np.minimum(boxes[:, None, 3], others[None, :, 3]) - np.maximum(boxes[:, None, 1], others[None, :, 1])
-        cost = (np.clip(ow, 0.0, None) * np.clip(oh, 0.0, None)).sum(axis=1)
-        cost = np.where(inside, cost, np.inf)
-        free = np.flatnonzero(cost == 0.0)
+        # the inner rings first (most labels find a spot there, against fewer boxes near
+        # them); the first free candidate is the same as in one pass over all of them
+        for first in (self.INNER * self.TURNS, len(boxes)):
+            cost = self._cost(boxes[:first], inside[:first])
+            free = np.flatnonzero(cost == 0.0)
+            if free.size:
+                break
         if free.size:
             best = tuple(boxes[free[0]])
         elif np.isfinite(cost).any():
@@ -321,6 +410,7 @@ class _Placer:
             best = (ax - w / 2, ay - h - 4, ax + w / 2, ay - 4)
         best = tuple(float(v) for v in best)
         self.placed.append((kind, text, best))
+        self._index(best)
         return best
 
 
@@ -411,8 +501,10 @@ def _path(frame, solution, ident: str, role: str, k: float) -> list[str]:
     width = 1.6 if role == "cavity" else 1.0
     pieces = result.profile.get("t") or result.profile.get("s") or []
     out = []
-    for leg, srange in _legs(solution, ident, "beam" if role == "beam" else role):
-        env = _envelope(frame, leg, srange, pieces, k)
+    legs = _legs(solution, ident, "beam" if role == "beam" else role)
+    radii = _radii(legs, pieces)
+    for i, (leg, _) in enumerate(legs):
+        env = _envelope(frame, leg, None if radii is None else radii[i], k)
         if env:
             out.append(f'<polygon points="{env}" fill="{colour}" fill-opacity="0.22" stroke="none"/>')
         (x1, y1), (x2, y2) = frame.xy(*leg[0]), frame.xy(*leg[1])
@@ -421,13 +513,15 @@ def _path(frame, solution, ident: str, role: str, k: float) -> list[str]:
     return out
 
 
-def _hazard_zones(frame, assessment):
-    """A wide translucent band along every stretch outside the enclosures where the
-    exposure exceeds the MPE, cut at the hazard distance; where the hazard runs on past the
-    drawing, a label at its end with the distance (placed by the label pass).  Returns the
-    bands and the (text, anchor px) of the labels."""
-    out, labels = [], []
-    colour = STYLE["hazard"]
+def hazard_stretches(assessment) -> list[tuple]:
+    """Every stretch outside the enclosures where the exposure exceeds the MPE, cut at the
+    hazard distance, in table mm, with its title and, where the hazard runs on past the
+    drawing, the label for its end: [(coords, title, label or None)].  Worked out once for
+    the plan and its inset."""
+    from shapely.geometry import LineString
+    from shapely.ops import substring
+
+    out = []
     for seg in assessment.segments:
         if seg.inside_enclosure or seg.ratio is None or seg.ratio <= 1.0:
             continue
@@ -435,21 +529,29 @@ def _hazard_zones(frame, assessment):
         reach = length if seg.nohd_mm is None else min(seg.nohd_mm, length)
         if reach <= 0:
             continue
-        from shapely.geometry import LineString
-        from shapely.ops import substring
-
         stretch = substring(LineString(seg.polyline), 0.0, reach)
-        pts = [frame.xy(x, y) for x, y in stretch.coords]
-        x2, y2 = pts[-1]
-        label = f"{seg.id}: {seg.ratio:.3g} x MPE, OD {seg.od}"
-        corners = " ".join(f"{x:.1f},{y:.1f}" for x, y in pts)
-        out.append(f'<polyline points="{corners}" fill="none" stroke="{colour}" '
-                   f'stroke-opacity="0.45" stroke-width="12" stroke-linecap="butt" stroke-linejoin="round">'
-                   f'<title>{escape(label)}</title></polyline>')
+        title = f"{seg.id}: {seg.ratio:.3g} x MPE, OD {seg.od}"
+        label = None
         if seg.nohd_mm is not None and seg.nohd_mm > length:
             far = "unbounded" if seg.nohd_mm == float("inf") else (
                 f"{seg.nohd_mm / 1000:.3g} m" if seg.nohd_mm >= 1000 else f"{seg.nohd_mm:.0f} mm")
-            labels.append((f"hazard to {far}", (x2, y2)))
+            label = f"hazard to {far}"
+        out.append((list(stretch.coords), title, label))
+    return out
+
+
+def _hazard_zones(frame, stretches):
+    """A wide translucent band along every stretch of ``hazard_stretches``; where the
+    hazard runs on past the drawing, a label at its end with the distance (placed by the
+    label pass).  Returns the bands and the (text, anchor px) of the labels."""
+    out, labels = [], []
+    colour = STYLE["hazard"]
+    for coords, title, label in stretches:
+        out.append(f'<polyline points="{frame.pts(coords)}" fill="none" stroke="{colour}" '
+                   f'stroke-opacity="0.45" stroke-width="12" stroke-linecap="butt" stroke-linejoin="round">'
+                   f'<title>{escape(title)}</title></polyline>')
+        if label is not None:
+            labels.append((label, frame.xy(*coords[-1])))
     return out, labels
 
 
@@ -514,11 +616,42 @@ def _in_view(frame, x, y) -> bool:
     return x0 <= px <= x1 and y0 <= py <= y1
 
 
-def _labels(frame, solution, placer) -> list[str]:
+#: Up to this many optics every one gets its label on the plan; on a larger bench only the
+#: ones that matter (see ``labelled_optics``), and a note sends the reader to the optics table.
+LABEL_ALL_UP_TO = 60
+#: Kinds always labelled on a large bench: where light is stopped or split, the gain medium,
+#: and what stands in the way.
+LABEL_KINDS = ("dump", "detector", "splitter", "crystal", "obstacle")
+
+
+def labelled_optics(solution, findings=()) -> set | None:
+    """The optics to label on the plan: all of them (None) on a bench of up to
+    LABEL_ALL_UP_TO optics; on a larger one, a reviewer cannot read a label per optic, so
+    only those that matter: every optic of a cavity, the first and last optic of every beam,
+    dumps, detectors, splitters, crystals and obstacles, and every optic a finding names."""
+    optics = solution.placement.optics
+    if len(optics) <= LABEL_ALL_UP_TO:
+        return None
+    keep = {oid for oid, placed in optics.items() if placed.optic.kind in LABEL_KINDS}
+    for cav in solution.cavities.values():
+        keep.update(h.optic for h in cav.hits)
+    for beam in solution.beams.values():
+        if beam.hits:
+            keep.update((beam.hits[0].optic, beam.hits[-1].optic))
+    for _, f in findings:
+        keep.update(t for t in f.targets if t in optics)
+    return keep
+
+
+def _labels(frame, solution, placer, keep=None) -> list[str]:
+    """Each optic's id beside its mount (only those in ``keep`` where it is given), each
+    source's id beside its mark."""
     out = []
     for oid, placed in solution.placement.optics.items():
+        if keep is not None and oid not in keep:
+            continue
         minx, miny, maxx, maxy = placed.footprint.bounds
-        if not _in_view(frame, (minx + maxx) / 2, (miny + maxy) / 2):
+        if not _in_view(frame, *_centre(placed.footprint.bounds)):
             continue
         (l, t), (r, b) = frame.xy(minx, maxy), frame.xy(maxx, miny)
         anchor = ((l + r) / 2, (t + b) / 2)

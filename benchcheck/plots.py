@@ -189,14 +189,33 @@ def _profile(result, plane: str, s: np.ndarray):
     return np.interp(idx, idx[good], w[good])        # inside thin elements: from the neighbours
 
 
-def caustic_svg(solution, ident: str, role: str) -> str | None:
+#: Up to this many optics on a path, each is drawn as its glyph and labelled, and each
+#: waist labelled; on a longer path only the optics that matter (``_kept_hits``) are, the
+#: others drawn as ticks, and only the narrowest waist of each plane is labelled.
+LABEL_ALL_HITS = 40
+
+
+def _kept_hits(layout, hits, tight: set, named=()) -> set:
+    """On a long path, the hits drawn and labelled in full: the first and the last, the
+    tightest aperture, crystals, dumps, detectors and splitters, and optics findings name."""
+    keep = {0, len(hits) - 1} | set(tight)
+    for i, h in enumerate(hits):
+        if layout.optics[h.optic].kind in ("crystal", "dump", "detector", "splitter") or h.optic in named:
+            keep.add(i)
+    return keep
+
+
+def caustic_svg(solution, ident: str, role: str, named=()) -> str | None:
     """The beam along one cavity or beam path as a caustic about its axis: the tangential
     1/e^2 radius above, the sagittal below, both to the same scale and filled; each optic
     as its own glyph at its position, the crystal and the tightest aperture emphasised;
-    waists marked and labelled (labels placed so they do not overlap)."""
+    waists marked and labelled (labels placed so they do not overlap).  On a path of more
+    than LABEL_ALL_HITS optics, only those that matter get a glyph and a label (``named``:
+    optic ids findings name) and the axis title says how many did not."""
     result = solution.cavities[ident] if role == "cavity" else solution.beams[ident]
     length = path_length(solution, ident, role)
-    s = np.linspace(0.0, length, 1200)
+    long_path = len(result.hits) > LABEL_ALL_HITS
+    s = np.linspace(0.0, length, max(1200, 8 * len(result.hits)))     # some samples between every two optics
     w_t, w_s = _profile(result, "t", s), _profile(result, "s", s)
     if w_t is None and w_s is None:
         return None
@@ -216,28 +235,41 @@ def caustic_svg(solution, ident: str, role: str) -> str | None:
     ax.axhline(0.0, color=GLYPH, linewidth=0.6, linestyle="-.", zorder=2)
     layout = solution.layout
     tight = _tightest(layout, result.hits)
+    keep = _kept_hits(layout, result.hits, tight, named) if long_path else set(range(len(result.hits)))
     glyph = 0.55 * top
+    ticks = [h.s for i, h in enumerate(result.hits) if i not in keep]
+    if ticks:      # the optics not drawn in full: a short tick each on the axis's foot (a rug), in one artist
+        ax.vlines(ticks, 0.0, 0.04, transform=ax.get_xaxis_transform(), colors=GLYPH, linewidth=0.4, zorder=4)
     for i, h in enumerate(result.hits):
+        if i not in keep:
+            continue
         optic = layout.optics[h.optic]
         w = max((v for v in h.w.values() if v), default=None)
         ratio = optic.diameter / 2.0 / w if (optic.diameter and w) else None
         _glyph(ax, optic, h, glyph, length, i in tight, ratio)
     axes_pt = 0.86 * 7.2 * 72
     # optic ids above the plot, in as many rows as close optics need
-    names = [h.optic for h in result.hits]
-    xs = [(h.s + 0.01 * length) / (1.02 * length) for h in result.hits]
+    shown = [(i, h) for i, h in enumerate(result.hits) if i in keep]
+    names = [h.optic for _, h in shown]
+    xs = [(h.s + 0.01 * length) / (1.02 * length) for _, h in shown]
     rows = _rows(xs, [_text_width(n, 7, axes_pt) for n in names])
-    for h, row, i in zip(result.hits, rows, range(len(names))):
+    for (i, h), row in zip(shown, rows):
         bold = i in tight or layout.optics[h.optic].kind == "crystal"
         ax.annotate(h.optic, (h.s, 1.0), xycoords=("data", "axes fraction"), textcoords="offset points",
                     xytext=(0, 3 + 9 * row), ha="center", va="bottom", fontsize=7,
                     fontweight="bold" if bold else "normal", color=EMPHASIS if bold else "#333333",
                     annotation_clip=False)
     # waists: a tick on the envelope, labels in rows inside the plot (t near the top, s near the bottom)
+    quiet = 0
     for plane, sign, colour in (("t", 1.0, "#1d3f63"), ("s", -1.0, "#8a4f12")):
         ws = [w for w in result.waists if w.plane == plane]
         if not ws:
             continue
+        if long_path:    # every waist marked, in one artist; the narrowest labelled
+            ax.plot([w.s for w in ws], [sign * w.w * 1e3 for w in ws], linestyle="none",
+                    marker="v" if plane == "t" else "^", color=colour, markersize=3, zorder=6)
+            quiet += len(ws) - 1
+            ws = [min(ws, key=lambda w: w.w)]
         texts = [f"{plane} {w.w * 1e3:.0f} µm" for w in ws]
         xs = [(min(max(w.s, 0.06 * length), 0.94 * length) + 0.01 * length) / (1.02 * length) for w in ws]
         rows = _rows(xs, [_text_width(t, 6.5, axes_pt) for t in texts])
@@ -246,11 +278,16 @@ def caustic_svg(solution, ident: str, role: str) -> str | None:
             ax.plot([w.s], [y], marker="v" if plane == "t" else "^", color=colour, markersize=4, zorder=6)
             ly = sign * top * (0.80 - 0.11 * row)
             lx = min(max(w.s, 0.06 * length), 0.94 * length)      # clear of the axis and its ticks
-            ax.annotate(text, (w.s, y), xytext=(lx, ly), fontsize=6.5, color=colour, ha="center",
-                        va="center", zorder=6, bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.8),
+            ax.annotate(("narrowest: " if long_path else "") + text, (w.s, y), xytext=(lx, ly), fontsize=6.5,
+                        color=colour, ha="center", va="center", zorder=6,
+                        bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.8),
                         arrowprops=dict(arrowstyle="-", color=colour, linewidth=0.5))
     ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{abs(v):g}"))
-    ax.set_xlabel("distance along the path s (mm)")
+    xlabel = "distance along the path s (mm)"
+    if long_path:
+        xlabel += (f"; {len(result.hits) - len(keep)} further optics (ticks at the foot) and {quiet} further "
+                   f"waists not labelled: see the optics table")
+    ax.set_xlabel(xlabel)
     ax.text(-0.075, 0.75, "tangential $w_t$ (µm)", transform=ax.transAxes, rotation=90, ha="center", va="center",
             fontsize=8, color="#1d3f63")
     ax.text(-0.075, 0.25, "sagittal $w_s$ (µm)", transform=ax.transAxes, rotation=90, ha="center", va="center",

@@ -114,6 +114,8 @@ class Report:
         self.findings = sorted(findings, key=lambda f: (SEVERITY_ORDER.get(f.severity, 3), f.waived,
                                                           f.loc.line if f.loc else 0, f.rule))
         self.numbered = list(enumerate(self.findings, start=1))
+        #: ids the findings name: drawn and labelled in full on a long path's caustic
+        self.named = {t for f in self.findings for t in f.targets}
         self.root = shown_root(self.layout.file)
         self.config_path = config_path
         self.rules = rules
@@ -152,7 +154,8 @@ class Report:
             f"<style>{CSS}</style></head><body>",
             f'<header><h1>Bench review: {name}</h1>'
             f'<p class="meta">Layout <code>{escape(shown_path(self.layout.file, self.root))}</code> · configuration '
-            f'<code>{escape(shown_path(self.config_path, self.root) if self.config_path else "defaults")}</code> · '
+            + (f'<code>{escape(shown_path(self.config_path, self.root))}</code> · ' if self.config_path else
+               'built-in defaults (no configuration file found) · ') +
             f'benchcheck {escape(__version__)} · '
             f'{generated.isoformat(sep=" ")}</p>'
             f'<p class="summary">{summary}</p></header>',
@@ -285,7 +288,8 @@ class Report:
                 f'<h3>Circulating power</h3>{cav_table}'
                 f'<h3>Beams</h3>{beam_table}'
                 f'<h3>Leak and secondary beams</h3>{stray_table}'
-                f'<p class="small">Stray-power limit {limits["stray_power_w"]:g} W (repository configuration). '
+                f'<p class="small">Stray-power limit {limits["stray_power_w"]:g} W '
+                f'({"repository configuration" if self.config_path else "built-in default"}). '
                 f'A leak is contained when it stays inside an enclosure; one that crosses open bench is open even '
                 f'where a dump, a detector or an enclosure wall stops it at the end.</p></section>')
 
@@ -390,7 +394,7 @@ class Report:
                              (("not given" if c.circulating_w is None else f"{c.circulating_w:.4g} W")
                               if plane == "t" else "")])
         table = _table(["cavity", "plane", "m = (A+D)/2", "status", "Gouy (deg)", "mode spacing", "FSR",
-                        "circulating"], rows)
+                        "circulating"], rows) + self._enhancement()
         figs = []
         for c in sol.cavities.values():
             windows = self._windows(c)
@@ -400,7 +404,7 @@ class Report:
                             f'planes against what brings it nearest to an edge (the thermal lens over its range, or '
                             f'the spacing with the narrowest window, named on the axis); stable where both curves '
                             f'stay in the shaded band; the plan dotted.</figcaption></figure>')
-            prof = plots.caustic_svg(sol, c.id, "cavity")
+            prof = plots.caustic_svg(sol, c.id, "cavity", self.named)
             if prof:
                 figs.append(f'<figure class="wide">{prof}<figcaption>Cavity {escape(c.id)}: the mode along the path '
                             f'(a linear cavity once, end to end; a ring once round), tangential radius above the axis, '
@@ -410,6 +414,34 @@ class Report:
                 figs.append(f'<figure class="wide">{svg}<figcaption>Cavity {escape(c.id)}: how far each air '
                             f'spacing may move with the cavity stable in both planes.</figcaption></figure>')
         return f'<section id="cavities"><h2>Cavities</h2>{table}{"".join(figs)}</section>'
+
+    def _enhancement(self) -> str:
+        """The passive (seeded) cavities on resonance: what the solver computed for them
+        (the same figures as ``benchcheck beams``)."""
+        rows = []
+        for c in self.solution.cavities.values():
+            e = c.enhancement
+            if e is None:
+                continue
+            seeds = ", ".join(escape(b) for b in e.seeds) or "none"
+            fed = "–" if e.delivered_w is None else f"{e.delivered_w:.4g} W"
+            if e.declared_w is not None:
+                fed += f" (layout: input {e.declared_w:.4g} W)"
+            rows.append([escape(c.id), _f(e.finesse, ".1f"), _si(e.linewidth_hz, "Hz"),
+                         f"{e.input_transmission * 100:.3g} % / {e.rest_loss * 100:.3g} %", escape(e.coupling),
+                         seeds, fed, _f(e.mode_match, ".4f"), "–" if e.input_w is None else f"{e.input_w:.4g} W",
+                         _f(e.buildup, ".4g"), _f(None if e.reflected is None else e.reflected * 100, ".3g"),
+                         _f(None if e.transmitted is None else e.transmitted * 100, ".3g")])
+        if not rows:
+            return ""
+        table = _table(["cavity", "finesse", "linewidth (FWHM)", "input coupler T / rest of round-trip loss",
+                        "coupling", "seeded by", "delivered to the input coupler", "mode match", "in the cavity's mode",
+                        "build-up", "reflected (%)", "transmitted (%)"], rows)
+        return (f'<h3>Passive cavities on resonance</h3>{table}<p class="small">Build-up: circulating power over '
+                f'the power in the cavity\'s mode (delivered power times mode match). Reflected and transmitted: '
+                f'fractions of that mode-matched input power, on resonance; transmitted means leaving through the '
+                f'other mirrors. Impedance-matched when the input coupler\'s transmission equals the rest of the '
+                f'round-trip loss.</p>')
 
     def _windows(self, cav):
         if not (cav.stable("t") and cav.stable("s")):
@@ -424,7 +456,7 @@ class Report:
         sol = self.solution
         figs = []
         for b in sol.beams.values():
-            prof = plots.caustic_svg(sol, b.id, "beam")
+            prof = plots.caustic_svg(sol, b.id, "beam", self.named)
             if prof:
                 figs.append(f'<figure class="wide">{prof}<figcaption>Beam {escape(b.id)} from '
                             f'{escape(b.origin)}: tangential radius above the axis, sagittal below, to scale, '

@@ -4,6 +4,7 @@ Chromium is installed, a real rendering (headless) that takes a screenshot."""
 
 from __future__ import annotations
 
+import math
 import re
 import shutil
 import subprocess
@@ -227,3 +228,134 @@ def test_a_crowded_bench_gets_an_enlarged_inset():
     assert len(panels) == 2 and "A: enlarged below" in svg and "times larger" in svg
     inset_optics = {text for kind, text, _ in panels[1]["labels"] if kind == "optic"}
     assert {"M2", "X1", "M3"} <= inset_optics
+
+
+def _relay_line(n: int, per_row: int = 20) -> str:
+    """An invented long relay line: rows of f = 200 mm lenses 50 mm apart, turned at each
+    row end by two 90-degree fold mirrors, ending on a dump; ``n`` optics in all."""
+    out = ["format = 1", "", "[bench]", f'name = "long relay line, {n} optics"',
+           f"size = [{per_row * 50.0 + 200.0:.1f}, {(-(-n // per_row)) * 60.0 + 200.0:.1f}]", ""]
+    path = []
+    for k in range(n):
+        row, j = divmod(k, per_row)
+        distance = 60.0 if (j == 0 and row > 0) else 50.0
+        if k == n - 1:
+            out += ["[[optic]]", f'id = "O{k}"', 'kind = "dump"', "diameter = 25.0", ""]
+            path.append(f'{{ id = "O{k}", distance = {distance} }}')
+        elif j == per_row - 1 or (j == 0 and row > 0):
+            fold = 90.0 if (row % 2 == 0) == (j == per_row - 1) else -90.0
+            out += ["[[optic]]", f'id = "O{k}"', 'kind = "mirror"', "diameter = 12.7", ""]
+            path.append(f'{{ id = "O{k}", distance = {distance}, fold = {fold} }}')
+        else:
+            out += ["[[optic]]", f'id = "O{k}"', 'kind = "lens"', "focal_length = 200.0", "diameter = 12.7", ""]
+            path.append(f'{{ id = "O{k}", distance = {distance} }}')
+    out += ["[[source]]", 'id = "LAS"', "at = [50.0, 100.0]", "heading = 0.0", "wavelength_nm = 1064",
+            "power_w = 0.5", "waist = 0.2", "waist_at = 0.0", "",
+            "[[beam]]", 'id = "line"', 'from = "LAS"', "path = [", *(f"  {p}," for p in path), "]", ""]
+    return "\n".join(out)
+
+
+def test_a_large_bench_labels_what_matters_without_overlap(tmp_path, capsys):
+    """On a bench of more optics than LABEL_ALL_UP_TO, the plan labels the optics that
+    matter (the first and last of the beam, the dump, every optic a finding names), says
+    how many further optics are not labelled, and still no label or marker overlaps another
+    or covers an optic; the long caustic says the same of its optics and waists."""
+    from benchcheck.planview import LABEL_ALL_UP_TO, plan_drawing
+
+    n = 150
+    assert n > LABEL_ALL_UP_TO
+    layout = tmp_path / "long.toml"
+    layout.write_text(_relay_line(n), encoding="utf-8")
+    (tmp_path / "benchcheck.toml").write_text("# defaults\n", encoding="utf-8")
+    solution, numbered = _reviewed(layout)
+    svg, panels = plan_drawing(solution, numbered)
+    labels = panels[0]["labels"]
+    optics = {text for kind, text, _ in labels if kind == "optic"}
+    named = {t for _, f in numbered for t in f.targets if t in solution.placement.optics}
+    assert {"O0", f"O{n - 1}"} | named <= optics
+    assert len(optics) < n
+    assert f"{n - len(optics)} further optics not labelled; see the optics table" in svg
+    for panel in panels:
+        boxes = np.array([box for _, _, box in panel["labels"]])
+        blocked = np.array(panel["optics"])
+        for others, skip_self in ((boxes, True), (blocked, False)):
+            w = np.minimum(boxes[:, None, 2], others[None, :, 2]) - np.maximum(boxes[:, None, 0], others[None, :, 0])
+            h = np.minimum(boxes[:, None, 3], others[None, :, 3]) - np.maximum(boxes[:, None, 1], others[None, :, 1])
+            area = np.clip(w, 0.0, None) * np.clip(h, 0.0, None)
+            if skip_self:
+                np.fill_diagonal(area, 0.0)
+            assert not area.any(), "a label overlaps another label or an optic"
+    html = make(layout, tmp_path / "r.html", capsys)
+    root = parse(html)
+    note = next(a for a in root.iter(SVG + "a") if "further optics" in "".join(a.itertext()))
+    assert note.get("href") == "#optics"          # the note links to the table that lists every optic
+    assert "further optics (ticks at the foot)" in html and "narrowest: t" in html     # the caustic's axis title and waist
+    assert html.count("<tr>") > n            # every optic has its row in the optics table
+
+
+def test_a_seeded_passive_cavity_shows_its_resonance_figures(tmp_path, capsys):
+    """The cavity section gives a passive cavity's finesse, linewidth, coupling, mode match,
+    build-up and reflected and transmitted fractions.  Flat input coupler R1 = 0.99 and end
+    mirror R2 = 0.999 500 mm apart, seeded with 3 W whose waist is half the cavity's.
+    Expected values derived here from the closed forms (Siegman, "Lasers", 1986, ch. 11, from
+    memory), rho = sqrt(R1 R2): finesse pi sqrt(rho) / (1 - rho); FWHM (2 FSR / pi)
+    arcsin((1 - rho) / (2 sqrt(rho))) with FSR = c / (2 L); build-up T1 / (1 - rho)^2;
+    reflected (sqrt(R2) - sqrt(R1))^2 / (1 - rho)^2; transmitted T1 T2 / (1 - rho)^2; mode
+    match of coincident waists w and w / 2, (2 r / (1 + r^2))^2 with r = 0.5 (Kogelnik 1964,
+    from memory)."""
+    from test_enhancement import seeded
+
+    from layouts_util import C_M_S
+
+    r1, r2 = 0.99, 0.999
+    rho = math.sqrt(r1 * r2)
+    finesse = math.pi * math.sqrt(rho) / (1 - rho)
+    fsr = C_M_S / (2 * 0.5)
+    fwhm_khz = 2 * fsr / math.pi * math.asin((1 - rho) / (2 * math.sqrt(rho))) / 1e3
+    build = (1 - r1) / (1 - rho) ** 2
+    reflected = (math.sqrt(r2) - math.sqrt(r1)) ** 2 / (1 - rho) ** 2
+    transmitted = (1 - r1) * (1 - r2) / (1 - rho) ** 2
+    match = (2 * 0.5 / (1 + 0.25)) ** 2
+    layout = tmp_path / "seeded.toml"
+    layout.write_text(seeded(r1, r2, 3.0, 3.0, ratio=0.5), encoding="utf-8")
+    (tmp_path / "benchcheck.toml").write_text("# defaults\n", encoding="utf-8")
+    root = parse(make(layout, tmp_path / "r.html", capsys))
+    section = next(e for e in root.iter() if e.get("id") == "cavities")
+    table = next(t for t in section.iter("table") if any(th.text == "finesse" for th in t.iter("th")))
+    row = ["".join(td.itertext()) for td in next(iter(table.iter("tbody"))).iter("td")]
+    assert row[0] == "enh"
+    assert row[1] == f"{finesse:.1f}"
+    assert row[2] == f"{fwhm_khz:.4g} kHz"
+    assert row[3] == "1 % / 0.1 %" and row[4] == "over-coupled"
+    assert row[5] == "seed" and row[6] == "3 W (layout: input 3 W)"
+    assert row[7] == f"{match:.4f}" and row[8] == f"{3.0 * match:.4g} W"
+    assert row[9] == f"{build:.4g}"
+    assert row[10] == f"{reflected * 100:.3g}" and row[11] == f"{transmitted * 100:.3g}"
+
+
+def test_without_a_configuration_file_the_report_says_built_in_defaults(tmp_path, capsys):
+    layout = tmp_path / "bench.toml"
+    shutil.copyfile(ROOT / "layouts" / "two-mirror.toml", layout)
+    html = make(layout, tmp_path / "r.html", capsys)
+    assert "configuration built-in defaults (no configuration file found)" in html
+    assert "(built-in default)" in html and "repository configuration" not in html
+    (tmp_path / "benchcheck.toml").write_text("# the repository's own\n", encoding="utf-8")
+    html = make(layout, tmp_path / "r.html", capsys)
+    assert "configuration <code>" in html and "(repository configuration)" in html
+
+
+def test_report_exits_0_on_error_findings_where_check_fails(tmp_path, capsys):
+    """The report is a document, `check` the gate: on a layout with unwaived error findings
+    `check` exits 1 and `report` writes the report and exits 0 (README, exit status)."""
+    layout = ROOT / "layouts" / "flawed" / "every-rule-fires.toml"
+    assert main(["check", str(layout)]) == 1
+    capsys.readouterr()
+    html = make(layout, tmp_path / "r.html", capsys)
+    assert '<span class="sev error">error</span>' in html
+    # a problem with the configuration: the report is written, the status is 2
+    (tmp_path / "bench").mkdir()
+    shutil.copyfile(layout, tmp_path / "bench" / "b.toml")
+    (tmp_path / "bench" / "benchcheck.toml").write_text("[rules.no-such-rule]\nx = 1\n", encoding="utf-8")
+    assert main(["report", str(tmp_path / "bench" / "b.toml"), "-o", str(tmp_path / "bench.html")]) == 2
+    assert "no rule 'no-such-rule'" in capsys.readouterr().err
+    assert (tmp_path / "bench.html").read_text(encoding="utf-8").startswith(MARKER)
