@@ -8,7 +8,6 @@ reported as an internal error with the layout's name, also with status 2.
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from pathlib import Path
 
@@ -87,6 +86,8 @@ def cmd_beams(args) -> int:
         docs = [solution_json(s) for s in results]
         payload = docs[0] if len(docs) == 1 and len(files) == 1 else {"format": 1, "layouts": docs}
         if results or len(files) > 1:
+            import json
+
             json.dump(payload, sys.stdout, indent=2, allow_nan=False)
             sys.stdout.write("\n")
     else:
