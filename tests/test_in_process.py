@@ -343,3 +343,30 @@ def test_the_quick_look_agrees_on_this_interpreter(monkeypatch):
     scan = plugins._scan_entry_points(sys.path)
     assert scan in (metadata_says(monkeypatch, list(sys.path)), None)
     assert entry_points_installed() == metadata_says(monkeypatch, list(sys.path))
+
+
+# --- the command line's help, laid out without importing shutil -------------------------
+
+@pytest.mark.parametrize("columns", [None, "57", "200", "0", "wide"])
+def test_the_help_is_laid_out_as_argparse_lays_it_out(monkeypatch, columns):
+    """The same text as argparse's own formatter (which asks shutil for the width) gives,
+    for the main help and every command's."""
+    import argparse
+
+    from benchcheck import cli
+
+    if columns is None:
+        monkeypatch.delenv("COLUMNS", raising=False)
+    else:
+        monkeypatch.setenv("COLUMNS", columns)
+
+    def helps():
+        parser = cli.build_parser()
+        sub = next(a for a in parser._actions if isinstance(a, argparse._SubParsersAction))
+        return [parser.format_help()] + [p.format_help() for p in sub.choices.values()]
+
+    ours = helps()
+    monkeypatch.setattr(cli, "_Formatter", argparse.HelpFormatter)
+    theirs = helps()
+    assert ours == theirs
+    assert len(ours) == 9 and all("usage: benchcheck" in h for h in ours)
