@@ -290,14 +290,19 @@ class _Here:
 
 
 def _run_here(jobs: list[Job], cache: dict) -> Outcome:
+    """The jobs one after the other in this process.  What the check prints goes to standard
+    error, as a worker's does: standard output holds the report alone."""
+    import contextlib
+
     out = Outcome(results=[None] * len(jobs))
     conn = _Here(out)
-    for index, job in enumerate(jobs):
-        result = _answer(job, conn, cache, here=True)
-        result.errors = job.errors + result.errors
-        if job.path is None:
-            out.errors = result.errors
-        out.results[index] = result
+    with contextlib.redirect_stdout(sys.stderr):
+        for index, job in enumerate(jobs):
+            result = _answer(job, conn, cache, here=True)
+            result.errors = job.errors + result.errors
+            if job.path is None:
+                out.errors = result.errors
+            out.results[index] = result
     return out
 
 

@@ -52,14 +52,14 @@ def paths(monkeypatch):
     return taken
 
 
-def both_ways(capsys, monkeypatch, paths, argv: list[str]):
+def both_ways(capture, monkeypatch, paths, argv: list[str]):
     """(exit status, stdout, stderr) of ``argv`` in this process, then through workers."""
     code_here = main(argv)
-    here = capsys.readouterr()
+    here = capture.readouterr()
     with monkeypatch.context() as m:
         m.setattr(pool, "_plugin_free", lambda jobs, cache: False)
         code_workers = main(argv)
-    workers = capsys.readouterr()
+    workers = capture.readouterr()
     assert paths == ["here", "workers"]
     return (code_here, here.out, here.err), (code_workers, workers.out, workers.err)
 
@@ -370,3 +370,21 @@ def test_the_help_is_laid_out_as_argparse_lays_it_out(monkeypatch, columns):
     theirs = helps()
     assert ours == theirs
     assert len(ours) == 9 and all("usage: benchcheck" in h for h in ours)
+
+
+def test_what_the_check_prints_goes_to_standard_error_both_ways(capfd, monkeypatch, paths):
+    """Built-in code does not print, but should it ever, standard output still holds the
+    report alone, in this process as in a worker (whose output is caught at the file
+    descriptors)."""
+    import benchcheck.engine
+
+    real = benchcheck.engine.run_rules
+
+    def chatty(*a, **k):
+        print("a stray line")
+        return real(*a, **k)
+
+    monkeypatch.setattr(benchcheck.engine, "run_rules", chatty)
+    here, workers = both_ways(capfd, monkeypatch, paths, ["check", str(FLAWED), "--format", "json"])
+    assert here == workers
+    assert "a stray line" in here[2] and json.loads(here[1])["findings"]
