@@ -8,7 +8,8 @@ reported as an internal error with the layout's name, also with status 2.
 from __future__ import annotations
 
 import argparse
-import json
+import functools
+import os
 import sys
 from pathlib import Path
 
@@ -87,6 +88,8 @@ def cmd_beams(args) -> int:
         docs = [solution_json(s) for s in results]
         payload = docs[0] if len(docs) == 1 and len(files) == 1 else {"format": 1, "layouts": docs}
         if results or len(files) > 1:
+            import json
+
             json.dump(payload, sys.stdout, indent=2, allow_nan=False)
             sys.stdout.write("\n")
     else:
@@ -276,13 +279,37 @@ def cmd_diff(args) -> int:
     return exit_status(diffs)
 
 
+class _Formatter(argparse.HelpFormatter):
+    """argparse's help layout, the terminal's width found as ``shutil.get_terminal_size``
+    finds it without importing shutil (argparse makes a formatter for every option it is
+    given, and the import is a few ms of every start, a pre-commit hook's included)."""
+
+    def __init__(self, prog, indent_increment=2, max_help_position=24, width=None):
+        super().__init__(prog, indent_increment, max_help_position, _columns() - 2 if width is None else width)
+
+
+def _columns() -> int:
+    try:
+        columns = int(os.environ["COLUMNS"])
+    except (KeyError, ValueError):
+        columns = 0
+    if columns <= 0:
+        try:
+            columns = os.get_terminal_size(sys.__stdout__.fileno()).columns
+        except (AttributeError, ValueError, OSError):    # no standard output, or not a terminal
+            columns = 0
+    return columns or 80
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="benchcheck",
         description="Review an optical bench plan before you build it.",
+        formatter_class=_Formatter,
     )
     parser.add_argument("--version", action="version", version=f"benchcheck {__version__}")
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND",
+                                parser_class=functools.partial(argparse.ArgumentParser, formatter_class=_Formatter))
     beams = sub.add_parser(
         "beams",
         help="solve every cavity and beam and print sizes, stability and power",

@@ -15,7 +15,6 @@ import importlib.util
 import os
 import sys
 from dataclasses import dataclass, field
-from importlib import metadata
 from pathlib import Path
 from typing import Callable
 
@@ -145,6 +144,8 @@ def plugin_manager(extra_modules: tuple[str, ...] = (), entry_points: bool = Tru
 
 
 def _entry_points(errors: list[str]):
+    from importlib import metadata   # 15-20 ms to import: only where entry points are loaded
+
     try:
         return list(metadata.entry_points(group=ENTRY_POINT_GROUP))
     except Exception as exc:  # noqa: BLE001 - a broken distribution's metadata
@@ -235,6 +236,83 @@ NO_ENTRY_POINTS_ENV = "BENCHCHECK_NO_ENTRY_POINTS"
 
 def entry_points_wanted() -> bool:
     return os.environ.get(NO_ENTRY_POINTS_ENV, "") not in ("1", "true", "yes")
+
+
+def entry_points_installed() -> bool:
+    """Whether ``importlib.metadata.entry_points(group="benchcheck")`` lists anything (or
+    fails), answered from the distributions' ``entry_points.txt`` files on ``sys.path``
+    without importing ``importlib.metadata`` (15-20 ms, most of a pre-commit run's spare
+    time).  Where the files alone cannot tell, importlib.metadata is asked after all."""
+    found = _scan_entry_points(sys.path)
+    if found is not None:
+        return found
+    from importlib import metadata
+
+    try:
+        return bool(list(metadata.entry_points(group=ENTRY_POINT_GROUP)))
+    except Exception:  # noqa: BLE001 - the worker that loads the plugins reports it
+        return True
+
+
+def _scan_entry_points(paths) -> bool | None:
+    """True when a ``*.dist-info`` or ``*.egg-info`` folder in ``paths`` declares an entry
+    point in the group, False when none does, None when something is there that
+    importlib.metadata reads differently or may fail on: a zip archive, an egg, another
+    finder of distributions, an unusual folder name, an unreadable or malformed
+    ``entry_points.txt`` (in any group).  It errs towards True: a
+    declaration shadowed by an earlier copy of the same distribution still counts.  Which
+    folders and lines count follows importlib.metadata (``Lookup``, ``Sectioned``)."""
+    from importlib.machinery import PathFinder
+
+    if any(getattr(f, "find_distributions", None) is not None and f is not PathFinder for f in sys.meta_path):
+        return None
+    for entry in paths:
+        if not isinstance(entry, str):
+            return None
+        root = entry or "."
+        try:
+            children = os.listdir(root)
+        except OSError:
+            if os.path.isfile(root):
+                return None
+            continue
+        egg = os.path.basename(entry).lower().endswith(".egg")
+        for child in children:
+            low = child.lower()
+            if egg and low == "egg-info":
+                return None          # named by its PKG-INFO, which importlib.metadata reads (or fails on)
+            if not low.endswith((".dist-info", ".egg-info")):
+                continue
+            if os.path.splitext(child)[1] not in (".dist-info", ".egg-info"):
+                return None          # the same for an unusual spelling of the suffix
+            declared = _declares(os.path.join(root, child, "entry_points.txt"))
+            if declared is not False:
+                return declared
+    return False
+
+
+def _declares(path: str) -> bool | None:
+    """Whether one ``entry_points.txt`` has an entry in the group; None where
+    importlib.metadata would fail on it (not UTF-8, a line without ``=``)."""
+    try:
+        with open(path, encoding="utf-8") as f:
+            text = f.read()
+    except (FileNotFoundError, IsADirectoryError, NotADirectoryError, PermissionError):
+        return False        # what importlib.metadata takes for no entry points
+    except (OSError, ValueError):
+        return None
+    section = None
+    for line in map(str.strip, text.splitlines()):
+        if not line or line.startswith("#"):
+            continue
+        if line.startswith("[") and line.endswith("]"):
+            section = line.strip("[]")
+        elif section is not None:
+            if section == ENTRY_POINT_GROUP:
+                return True
+            if "=" not in line:
+                return None
+    return False
 
 
 def load_rules(extra_modules: tuple[str, ...] = (), entry_points: bool | None = None,

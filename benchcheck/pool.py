@@ -10,19 +10,25 @@ supervisor names the plugin and the rule, leaves that plugin or rule out of the 
 the run, and checks the layout again in a fresh worker, so the other rules' findings are
 kept.  The run then ends with status 2.  A worker's standard output goes to standard
 error, so a plugin's prints cannot corrupt JSON or SARIF output.
+
+Where no plugin code can run (the configurations that apply list no ``plugins`` and no
+entry point of the group is installed, or ``BENCHCHECK_NO_ENTRY_POINTS`` is set), there is
+nothing to watch: one layout, or several with one job, is then checked in this process,
+by the same code and with the same results, messages and exit status, without the
+start of a worker (pre-commit checks one file at a time).  The configuration read to
+decide is the one the check uses, and the in-process check loads no entry points and
+stops before importing a plugin, so a file that changes meanwhile cannot slip plugin
+code into this process: the run then goes to workers as any other.
 """
 
 from __future__ import annotations
 
 import collections
 import dataclasses
-import multiprocessing
 import os
-import signal
 import sys
 import time
 from dataclasses import dataclass, field
-from multiprocessing.connection import wait
 from pathlib import Path
 from typing import Any
 
@@ -97,6 +103,8 @@ def describe_rules(rules: dict) -> dict[str, tuple[Rule, str]]:
 
 def _worker(conn) -> None:
     """Run jobs until told to stop.  Ctrl-C is the supervisor's to handle."""
+    import signal
+
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     try:
         sys.stdout.flush()
@@ -115,15 +123,7 @@ def _worker(conn) -> None:
             return
         if job is None:
             return
-        try:
-            result = _run(job, conn, cache)
-        except BaseException as exc:  # noqa: BLE001 - a sentence for the user, never a traceback
-            from .engine import FileResult
-            from .plugins import describe
-
-            file = job.path or "<rules>"
-            result = FileResult(file, errors=[f"{file}: internal error while checking ({describe(exc)}); "
-                                              "please report it with this layout"])
+        result = _answer(job, conn, cache)
         try:
             conn.send(("done", result))
         except (OSError, EOFError):
@@ -137,26 +137,66 @@ def _worker(conn) -> None:
             conn.send(("done", result))
 
 
-def _run(job: Job, conn, cache: dict):
-    from .config import find_config, load_config
+class _PluginCode(Exception):
+    """An in-process check met a configuration that lists plugins: workers must run it."""
+
+
+def _answer(job: Job, conn, cache: dict, here: bool = False):
+    """The result of one job; whatever goes wrong is a sentence, never a traceback.  In a
+    worker that includes what plugin code raises (``SystemExit`` and ``KeyboardInterrupt``
+    too); in this process (``here``) only built-in code runs and Ctrl-C stays Ctrl-C."""
+    try:
+        return _run(job, conn, cache, here)
+    except _PluginCode:
+        raise
+    except BaseException as exc:  # noqa: BLE001 - a sentence for the user, never a traceback
+        if here and not isinstance(exc, Exception):
+            raise
+        from .engine import FileResult
+        from .plugins import describe
+
+        file = job.path or "<rules>"
+        return FileResult(file, errors=[f"{file}: internal error while checking ({describe(exc)}); "
+                                        "please report it with this layout"])
+
+
+def _config_path(job: Job) -> Path | None:
+    from .config import find_config
+
+    return Path(job.config) if job.config else find_config(Path(job.path or job.start or "."))
+
+
+def _config(cfg_path: Path | None, cache: dict, exclude: tuple[str, ...] = ()):
+    """The configuration at ``cfg_path``, read once for each set of plugins left out."""
+    from .config import load_config
+
+    configs = cache.setdefault("configs", {})
+    key = (str(cfg_path), exclude)
+    if key not in configs:
+        configs[key] = load_config(cfg_path)
+    return configs[key]
+
+
+def _run(job: Job, conn, cache: dict, here: bool = False):
     from .engine import FileResult, check_file, config_folder
     from .model import LayoutError
     from .plugins import BUILTIN, load_rules
 
     name = job.path or "<rules>"
     try:
-        if job.config:
-            cfg_path = Path(job.config)
-        else:
-            cfg_path = find_config(Path(job.path or job.start or "."))
+        cfg_path = _config_path(job)
         key = (str(cfg_path), job.exclude)
         if key not in cache:
-            config = load_config(cfg_path)
+            config = _config(cfg_path, cache, job.exclude)
+            if here and config.plugins:
+                raise _PluginCode(str(cfg_path))
 
             def step(what, plugin):
                 conn.send(("step", what, plugin, None, config.rule_timeout_s))
 
-            ruleset = load_rules(config.plugins, search_path=config_folder(config), exclude=job.exclude,
+            # in this process: no entry point is installed, or they are turned off
+            ruleset = load_rules(config.plugins, entry_points=False if here else None,
+                                 search_path=config_folder(config), exclude=job.exclude,
                                  where=config.plugins_loc, progress=step)
             conn.send(("step", "solve", None, None, None))
             conn.send(("rules", describe_rules(ruleset.rules)))
@@ -209,7 +249,67 @@ class _Worker:
 
 def run_jobs(jobs: list[Job], n: int, timeout_s: float | None = None) -> Outcome:
     """Check every job in up to ``n`` worker processes; results in the order of ``jobs``.
-    ``timeout_s`` overrides each configuration's ``rule_timeout_s``."""
+    ``timeout_s`` overrides each configuration's ``rule_timeout_s``.  Without plugin code
+    to watch, one job, or several with ``n`` 1, run in this process (module docstring)."""
+    if len(jobs) == 1 or n == 1:
+        cache: dict = {}
+        if _plugin_free(jobs, cache):
+            try:
+                return _run_here(jobs, cache)
+            except _PluginCode:
+                pass        # a configuration changed since it was read: its plugins run in workers
+    return _run_workers(jobs, n, timeout_s)
+
+
+def _plugin_free(jobs: list[Job], cache: dict) -> bool:
+    """No configuration of these jobs lists a plugin, and no entry point is installed (or
+    they are turned off).  A configuration that cannot be read is left for the check to
+    report (it then loads no plugin)."""
+    from .plugins import entry_points_installed, entry_points_wanted
+
+    for job in jobs:
+        try:
+            config = _config(_config_path(job), cache)
+        except Exception:  # noqa: BLE001 - the same failure is reported by the check itself
+            continue
+        if config.plugins:
+            return False
+    return not (entry_points_wanted() and entry_points_installed())
+
+
+class _Here:
+    """Takes what ``_run`` would send the supervisor from a worker: the rules' metadata
+    (the steps only matter where plugin code runs)."""
+
+    def __init__(self, out: Outcome):
+        self.out = out
+
+    def send(self, msg: tuple) -> None:
+        if msg[0] == "rules":
+            self.out.rules.update(msg[1])
+
+
+def _run_here(jobs: list[Job], cache: dict) -> Outcome:
+    """The jobs one after the other in this process.  What the check prints goes to standard
+    error, as a worker's does: standard output holds the report alone."""
+    import contextlib
+
+    out = Outcome(results=[None] * len(jobs))
+    conn = _Here(out)
+    with contextlib.redirect_stdout(sys.stderr):
+        for index, job in enumerate(jobs):
+            result = _answer(job, conn, cache, here=True)
+            result.errors = job.errors + result.errors
+            if job.path is None:
+                out.errors = result.errors
+            out.results[index] = result
+    return out
+
+
+def _run_workers(jobs: list[Job], n: int, timeout_s: float | None) -> Outcome:
+    import multiprocessing
+    from multiprocessing.connection import wait
+
     from .engine import FileResult
 
     ctx = multiprocessing.get_context()

@@ -6,8 +6,6 @@ README and only added to within a format version.
 
 from __future__ import annotations
 
-import hashlib
-import json
 import math
 import os
 import re
@@ -22,6 +20,12 @@ from .textsafe import one_line
 JSON_FORMAT = 1
 SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
 SARIF_LEVEL = {"error": "error", "warning": "warning", "note": "note"}
+
+
+def _dumps(doc: dict) -> str:
+    import json   # the JSON formats only: a quicker start for the text report pre-commit shows
+
+    return json.dumps(doc, indent=2, allow_nan=False) + "\n"
 
 
 def all_findings(results: Iterable[FileResult]) -> list[Finding]:
@@ -118,7 +122,7 @@ def json_report(results: list[FileResult], rules: dict) -> str:
         "verdict": verdict(results),
         "caution": SAFETY_CAUTION,
     }
-    return json.dumps(doc, indent=2, allow_nan=False) + "\n"
+    return _dumps(doc)
 
 
 # --- SARIF ------------------------------------------------------------------------------
@@ -177,13 +181,15 @@ def sarif_report(results: list[FileResult], rules: dict, root: Path | None = Non
         "properties": {"verdict": verdict(results), "caution": SAFETY_CAUTION},
     }
     doc = {"$schema": SARIF_SCHEMA, "version": "2.1.0", "runs": [run]}
-    return json.dumps(doc, indent=2, allow_nan=False) + "\n"
+    return _dumps(doc)
 
 
 def _fingerprint(f: Finding) -> str:
     """Stable across runs while the problem stays the same (numbers may change), distinct
     between two problems of one rule on the same targets (the two planes of a cavity, the
     two leaks of a fold mirror): the message with its numbers taken out."""
+    import hashlib   # SARIF only: a few ms of start spared for the other formats
+
     words = re.sub(r"[-+]?\d[\d.,]*(?:e[-+]?\d+)?", "#", f.message)
     digest = hashlib.sha1(words.encode("utf-8")).hexdigest()[:16]
     return f"{f.rule}:{'/'.join(f.targets)}:{digest}"
@@ -260,7 +266,7 @@ def rules_json(rules: dict) -> str:
                      for o in rules[rid][0].options],
          "opt_in": rules[rid][0].opt_in}
         for rid in sorted(rules)]}
-    return json.dumps(doc, indent=2, allow_nan=False) + "\n"
+    return _dumps(doc)
 
 
 def _json_safe(x, depth: int = 0):

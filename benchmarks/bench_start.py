@@ -1,12 +1,18 @@
 """Benchmark: how long a one-file `benchcheck check` takes to start, as pre-commit runs it;
 not a test.
 
-Prints the median wall time (of 9 runs, fresh processes) of
+Prints the median wall and CPU times (of 9 runs, fresh processes, taken in turns so that
+the load of a shared machine falls on both alike) of
   1. the floor: `python -c "import numpy, shapely, pluggy, tomllib"`, the libraries every
      check needs;
-  2. `python -m benchcheck check --jobs 1 two-mirror.toml` on a demo layout;
-their ratios in wall and CPU time (target <= 1.3), and the `python -X importtime` figures of the check for the
-benchcheck modules and the slowest other imports (cumulative microseconds).
+  2. `python -m benchcheck check --jobs 1 two-mirror.toml` on a demo layout, installed
+     plugins off (BENCHCHECK_NO_ENTRY_POINTS=1): checked in the command's own process, as
+     no plugin code is involved (benchcheck/pool.py);
+their ratios in wall and CPU time (target <= 1.3); then the same check with installed
+plugins looked for (as a pre-commit hook runs it: with no plugin installed it also stays
+in its process; with one, such as the example plugin, it starts a worker process); then
+the `python -X importtime` figures of the check for the benchcheck modules and the slowest
+other imports (cumulative microseconds).
 
 Run: python benchmarks/bench_start.py [runs]
 """
@@ -27,27 +33,42 @@ FLOOR = "import numpy, shapely, pluggy, tomllib" if sys.version_info >= (3, 11) 
     "import numpy, shapely, pluggy, tomli"
 
 
-def _env() -> dict:
+def _env(entry_points: bool = False) -> dict:
     """As a user's pre-commit hook runs: bytecode cached (a PYTHONDONTWRITEBYTECODE in the
-    environment would make every run compile every module again), installed plugins off."""
+    environment would make every run compile every module again), installed plugins off
+    unless ``entry_points``."""
     env = dict(os.environ, BENCHCHECK_NO_ENTRY_POINTS="1")
+    if entry_points:
+        env.pop("BENCHCHECK_NO_ENTRY_POINTS")
     env.pop("PYTHONDONTWRITEBYTECODE", None)
     return env
 
 
-def timed(args: list[str], runs: int) -> tuple[float, float]:
-    """Median wall time and median CPU time (user + system) of ``runs`` fresh processes.
-    On a shared machine the CPU time is the steadier figure."""
-    env = _env()
-    walls, cpus = [], []
+def _once(args: list[str], env: dict) -> tuple[float, float]:
+    """Wall time and CPU time (user + system, the worker processes' included) of one run."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    t0 = time.perf_counter()
+    subprocess.run(args, cwd=ROOT, env=env, capture_output=True, check=False)
+    wall = time.perf_counter() - t0
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return wall, after.ru_utime - before.ru_utime + after.ru_stime - before.ru_stime
+
+
+def timed(commands: list[tuple[list[str], dict]], runs: int) -> list[tuple[float, float]]:
+    """Median wall time and median CPU time of ``runs`` fresh processes of each command,
+    run in turns.  On a shared machine the CPU time is the steadier figure."""
+    times: list[list[tuple[float, float]]] = [[] for _ in commands]
     for _ in range(runs):
-        before = resource.getrusage(resource.RUSAGE_CHILDREN)
-        t0 = time.perf_counter()
-        subprocess.run(args, cwd=ROOT, env=env, capture_output=True, check=False)
-        walls.append(time.perf_counter() - t0)
-        after = resource.getrusage(resource.RUSAGE_CHILDREN)
-        cpus.append(after.ru_utime - before.ru_utime + after.ru_stime - before.ru_stime)
-    return statistics.median(walls), statistics.median(cpus)
+        for (args, env), out in zip(commands, times):
+            out.append(_once(args, env))
+    return [(statistics.median(t[0] for t in out), statistics.median(t[1] for t in out)) for out in times]
+
+
+def _plugins_installed() -> str:
+    proc = subprocess.run([sys.executable, "-c", "from benchcheck.plugins import entry_points_installed as e; "
+                           "print(e())"], cwd=ROOT, env=_env(), capture_output=True, text=True)
+    return {"True": "an entry-point plugin is installed: a worker process",
+            "False": "no entry-point plugin installed: in process"}.get(proc.stdout.strip(), proc.stderr.strip())
 
 
 def import_times() -> list[tuple[int, int, str]]:
@@ -65,13 +86,16 @@ def import_times() -> list[tuple[int, int, str]]:
 
 def main(runs: int = 9) -> None:
     check = [sys.executable, "-m", "benchcheck", "check", "--jobs", "1", str(LAYOUT)]
-    timed(check, 1)   # warm the bytecode caches
-    floor, floor_cpu = timed([sys.executable, "-c", FLOOR], runs)
-    total, total_cpu = timed(check, runs)
+    floor_cmd = [sys.executable, "-c", FLOOR]
+    timed([(check, _env()), (check, _env(True))], 1)   # warm the bytecode caches
+    (floor, floor_cpu), (total, total_cpu), (eps, eps_cpu) = timed(
+        [(floor_cmd, _env()), (check, _env()), (check, _env(True))], runs)
     print(f"floor  ({FLOOR}): {floor * 1e3:5.0f} ms wall, {floor_cpu * 1e3:5.0f} ms CPU  (medians of {runs})")
     print(f"check  (one layout, one job):            {total * 1e3:5.0f} ms wall, {total_cpu * 1e3:5.0f} ms CPU")
     for label, ratio in (("wall", total / floor), ("CPU", total_cpu / floor_cpu)):
         print(f"ratio ({label}) {ratio:.2f}  (target <= 1.3: {'ok' if ratio <= 1.3 else 'OVER TARGET'})")
+    print(f"check, installed plugins looked for:     {eps * 1e3:5.0f} ms wall, {eps_cpu * 1e3:5.0f} ms CPU  "
+          f"(ratios {eps / floor:.2f} wall, {eps_cpu / floor_cpu:.2f} CPU; {_plugins_installed()})")
     print()
     rows = import_times()
     ours = sorted((r for r in rows if r[2].strip().startswith(("benchcheck", "rules"))), reverse=True)
