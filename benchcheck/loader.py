@@ -16,6 +16,8 @@ import os
 import re
 import stat
 import sys
+from collections.abc import Mapping
+from functools import partial
 from pathlib import Path
 from typing import Any, Iterable
 
@@ -24,7 +26,7 @@ from .model import (
     Waiver, Zone,
 )
 from . import tolspec
-from .tomlpos import key_positions
+from .tomlpos import LazyPositions
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -177,11 +179,7 @@ def load_text(text: str, file: str = "<layout>") -> Layout:
         raise LayoutError("the layout is nested too deeply to read", Loc(file, 1, 1)) from None
     except ValueError:  # an integer beyond Python's int-string limit (about 4,300 digits)
         raise _long_integer(text, file) from None
-    try:
-        positions = key_positions(text)
-    except Exception:  # the scanner must never turn a good file into a crash
-        positions = {}
-    return _Reader(file, positions, doc).layout(doc)
+    return _Reader(file, LazyPositions(text), doc).layout(doc)
 
 
 #: What brackets inside are not structure: comments and strings of every kind (an
@@ -259,6 +257,62 @@ def _syntax_error(exc: Exception, text: str, file: str) -> LayoutError:
     return LayoutError("TOML syntax: " + msg, Loc(file, line, col or 1))
 
 
+class _KeyLocs(Mapping):
+    """key -> ``Loc`` for the keys of one table (a record's ``key_locs``); each Loc's line is
+    found when first read."""
+
+    __slots__ = ("_file", "_positions", "_path", "_keys")
+
+    def __init__(self, file: str, positions: LazyPositions, path: tuple, keys: tuple) -> None:
+        self._file, self._positions, self._path, self._keys = file, positions, path, keys
+
+    def __getitem__(self, key: str) -> Loc:
+        if key not in self._keys:
+            raise KeyError(key)
+        return Loc.pending(self._file, partial(self._positions.nearest, self._path + (key,)))
+
+    def get(self, key: str, default: Any = None) -> Any:
+        return self[key] if key in self._keys else default
+
+    def __contains__(self, key: object) -> bool:
+        return key in self._keys
+
+    def __iter__(self):
+        return iter(self._keys)
+
+    def __len__(self) -> int:
+        return len(self._keys)
+
+    def __repr__(self) -> str:
+        return repr(dict(self))
+
+
+class _AllKeyLocs(Mapping):
+    """path -> ``Loc`` for every key, table and array element of the file (``Layout.key_locs``),
+    read from the text when first asked for."""
+
+    __slots__ = ("_file", "_positions")
+
+    def __init__(self, file: str, positions: LazyPositions) -> None:
+        self._file, self._positions = file, positions
+
+    def __getitem__(self, path: tuple) -> Loc:
+        return Loc(self._file, *self._positions.map[path])
+
+    def __iter__(self):
+        return iter(self._positions.map)
+
+    def __len__(self) -> int:
+        return len(self._positions.map)
+
+    def __repr__(self) -> str:
+        return repr(dict(self))
+
+
+def _in(unit: str) -> str:
+    return f" in {unit}" if unit else ""
+
+
 def _kind_name(value: Any) -> str:
     if isinstance(value, bool):
         return "a boolean"
@@ -278,7 +332,7 @@ def _kind_name(value: Any) -> str:
 class _Reader:
     """Walks the parsed document, converting and checking values against their paths."""
 
-    def __init__(self, file: str, positions: dict, doc: dict | None = None):
+    def __init__(self, file: str, positions: LazyPositions, doc: dict | None = None):
         self.file = file
         self.positions = positions
         #: (section, index) -> id, so messages say optic "M2" rather than optic[3]
@@ -292,13 +346,8 @@ class _Reader:
 
     # -- locations and errors ------------------------------------------------------
     def loc(self, path: tuple) -> Loc:
-        p = tuple(path)
-        while p:
-            if p in self.positions:
-                line, col = self.positions[p]
-                return Loc(self.file, line, col)
-            p = p[:-1]
-        return Loc(self.file, 1, 1)
+        """Where *path* is written (or the table holding it); the line is found when first read."""
+        return Loc.pending(self.file, partial(self.positions.nearest, tuple(path)))
 
     def fail(self, path: tuple, message: str) -> LayoutError:
         return LayoutError(message, self.loc(path))
@@ -319,8 +368,8 @@ class _Reader:
             out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out and not out.endswith(" ") else part)
         return out
 
-    def key_locs(self, path: tuple, table: dict) -> dict:
-        return {k: self.loc(path + (k,)) for k in table}
+    def key_locs(self, path: tuple, table: dict) -> Mapping:
+        return _KeyLocs(self.file, self.positions, path, tuple(table))
 
     # -- primitive checks ------------------------------------------------------------
     def table(self, value: Any, path: tuple, allowed: Iterable[str], what: str) -> dict:
@@ -351,27 +400,25 @@ class _Reader:
                tiny: float = MIN_MAGNITUDE) -> float:
         """A finite number in range; ``tiny`` is the smallest magnitude a quantity that must be
         positive or non-zero may have (smaller ones underflow the beam arithmetic)."""
-        label = self.name(path)
-        unit_txt = f" in {unit}" if unit else ""
         if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise self.fail(path, f"{label} must be a number{unit_txt}, found {_kind_name(value)}")
+            raise self.fail(path, f"{self.name(path)} must be a number{_in(unit)}, found {_kind_name(value)}")
         try:
             x = float(value)
         except OverflowError:
-            raise self.fail(path, f"{label} is far too large{unit_txt} (a {len(str(value))}-digit integer)") from None
+            raise self.fail(path, f"{self.name(path)} is far too large{_in(unit)} (a {len(str(value))}-digit integer)") from None
         if math.isnan(x) or math.isinf(x):
-            raise self.fail(path, f"{label} must be a finite number{unit_txt}, found {value}")
+            raise self.fail(path, f"{self.name(path)} must be a finite number{_in(unit)}, found {value}")
         if abs(x) > MAX_MAGNITUDE:
-            raise self.fail(path, f"{label} = {value:g} is far too large{unit_txt}")
+            raise self.fail(path, f"{self.name(path)} = {value:g} is far too large{_in(unit)}")
         if nonzero and x == 0:
-            raise self.fail(path, f"{label} must not be zero")
+            raise self.fail(path, f"{self.name(path)} must not be zero")
         if low is not None and (x <= low if low_open else x < low):
             op = ">" if low_open else ">="
-            raise self.fail(path, f"{label} must be {op} {low:g}{unit_txt}, found {value}")
+            raise self.fail(path, f"{self.name(path)} must be {op} {low:g}{_in(unit)}, found {value}")
         if high is not None and x > high:
-            raise self.fail(path, f"{label} must be <= {high:g}{unit_txt}, found {value}")
+            raise self.fail(path, f"{self.name(path)} must be <= {high:g}{_in(unit)}, found {value}")
         if (nonzero or (low == 0.0 and low_open)) and abs(x) < tiny:
-            raise self.fail(path, f"{label} = {value:g} is far too small{unit_txt}; the smallest accepted is {tiny:g}")
+            raise self.fail(path, f"{self.name(path)} = {value:g} is far too small{_in(unit)}; the smallest accepted is {tiny:g}")
         return x
 
     def wavelength(self, value: Any, path: tuple) -> float:
@@ -391,14 +438,13 @@ class _Reader:
         return x
 
     def string(self, value: Any, path: tuple, choices: tuple | None = None) -> str:
-        label = self.name(path)
         if not isinstance(value, str):
-            raise self.fail(path, f"{label} must be a string, found {_kind_name(value)}")
+            raise self.fail(path, f"{self.name(path)} must be a string, found {_kind_name(value)}")
         if choices is not None and value not in choices:
             close = difflib.get_close_matches(value, choices, n=1, cutoff=0.6)
             hint = f" (did you mean \"{close[0]}\"?)" if close else ""
             opts = " | ".join(f'"{c}"' for c in choices)
-            raise self.fail(path, f"{label} must be one of {opts}, found \"{value}\"{hint}")
+            raise self.fail(path, f"{self.name(path)} must be one of {opts}, found \"{value}\"{hint}")
         return value
 
     def ident(self, value: Any, path: tuple) -> str:
@@ -506,7 +552,7 @@ class _Reader:
         return Layout(
             file=self.file, format=fmt, bench=bench, optics=optics, sources=sources,
             cavities=cavities, beams=beams, zones=tuple(zones), waivers=waivers,
-            key_locs={k: Loc(self.file, *v) for k, v in self.positions.items()},
+            key_locs=_AllKeyLocs(self.file, self.positions),
         )
 
     def _dangling(self, path: tuple, ident: str, known: Iterable[str], what: str) -> LayoutError:

@@ -9,19 +9,43 @@ from __future__ import annotations
 
 import datetime as _dt
 from dataclasses import dataclass, field
-from typing import Mapping
+from typing import Callable, Mapping
 
 from .textsafe import one_line
 
 
 @dataclass(frozen=True)
 class Loc:
+    """A place in a file: 1-based line and column (characters)."""
+
     file: str
     line: int
     column: int
 
     def __str__(self) -> str:
         return f"{self.file}:{self.line}:{self.column}"
+
+    @classmethod
+    def pending(cls, file: str, where: "Callable[[], tuple[int, int]]") -> "Loc":
+        """A Loc whose line and column ``where()`` works out the first time either is read.
+
+        The loader hands one of these to every record: finding the line of each key costs a
+        second pass over the text, which a layout without errors or findings never needs.
+        Read, compared, hashed, printed or pickled, it behaves as ``Loc(file, *where())``."""
+        loc = object.__new__(cls)
+        loc.__dict__.update(file=file, _where=where)
+        return loc
+
+    def __getattr__(self, name: str):
+        # only reached for a pending Loc's line or column not yet worked out
+        where = self.__dict__.get("_where") if name in ("line", "column") else None
+        if where is None:
+            raise AttributeError(f"'Loc' object has no attribute '{name}'")
+        line, column = where()
+        d = self.__dict__
+        d["line"], d["column"] = line, column
+        del d["_where"]
+        return d[name]
 
 
 class LayoutError(Exception):

@@ -36,7 +36,7 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover - exercised only on Python 3.10
     import tomli as tomllib
 
-__all__ = ["key_positions"]
+__all__ = ["key_positions", "LazyPositions"]
 
 # Runs of characters are matched with regular expressions (no per-character Python loop),
 # so the scan stays linear and quick on the largest layout the loader reads.
@@ -60,6 +60,38 @@ def key_positions(text: str) -> dict[tuple, tuple[int, int]]:
     except (_Stop, ValueError, IndexError):
         pass  # keep the partial map; callers then just lack some positions
     return scanner.line_columns()
+
+
+class LazyPositions:
+    """``key_positions(text)``, worked out the first time a position is asked for.
+
+    A layout that loads without an error and gets no finding never needs a line number, so
+    the second pass over its text is put off until something is reported (and skipped
+    when nothing is)."""
+
+    def __init__(self, text: str) -> None:
+        self._text = text
+        self._map: dict | None = None
+
+    @property
+    def map(self) -> dict[tuple, tuple[int, int]]:
+        if self._map is None:
+            try:
+                self._map = key_positions(self._text)
+            except Exception:  # noqa: BLE001 - a missing position must never turn a good file into a crash
+                self._map = {}
+            self._text = ""
+        return self._map
+
+    def nearest(self, path: tuple) -> tuple[int, int]:
+        """(line, column) of *path*, else of the nearest table or array holding it, else (1, 1)."""
+        positions = self.map
+        while path:
+            found = positions.get(path)
+            if found is not None:
+                return found
+            path = path[:-1]
+        return 1, 1
 
 
 class _Stop(Exception):
