@@ -48,8 +48,22 @@ _SCALAR = re.compile(r"[^,\]}#\n]+")  # a bare value runs up to a character it c
 _BASIC = re.compile(r'"[^"\\\n]*(?:\\.[^"\\\n]*)*"')
 _ML_BASIC = re.compile(r'"""[^"\\]*(?:(?:\\[\s\S]|"(?!""))[^"\\]*)*""""{0,2}')
 _ML_LITERAL = re.compile(r"'''[^']*(?:'(?!'')[^']*)*''''{0,2}")
-#: ``key = 1.5`` or ``key = "text"``: a bare key and a scalar or a string without escapes
-_SIMPLE_KEY_VALUE = re.compile(r'([A-Za-z0-9_-]+)[ \t]*=[ \t]*(?:"[^"\\\n]*"(?!")|[^,\]}#\n\[{"\' \t][^,\]}#\n]*)')
+#: a scalar (number, boolean, date) or a one-line string without escapes
+_SIMPLE_VALUE = r'(?:"[^"\\\n]*"(?!")|[^,\]}#\n\[{"\' \t][^,\]}#\n]*)'
+_SIMPLE_KV = r'([A-Za-z0-9_-]+)[ \t]*=[ \t]*' + _SIMPLE_VALUE
+#: whitespace, newlines and comments, taken whole: the lookahead reads the longest run and
+#: the backreference consumes exactly it, so a failed match never backtracks into a
+#: comment (and never finds a key in one) nor splits a long run of blanks many ways
+_BLANKS = r'(?=(?P<blanks>(?:[ \t\n]+|#[^\n]*)*))(?P=blanks)'
+# The common cases, each read in one match (the step-by-step scan reads the rest):
+#: ``key = 1.5`` or ``key = "text"``: a bare key and a simple value
+_SIMPLE_KEY_VALUE = re.compile(_SIMPLE_KV)
+#: the same after blank lines and comments, at the top level or in a table
+_BLANK_KEY_VALUE = re.compile(_BLANKS + _SIMPLE_KV)
+#: ``key = value`` and its comma in an inline table
+_INLINE_KEY_VALUE = re.compile(r'[ \t\n]*' + _SIMPLE_KV + r'[ \t\n]*,?')
+#: one simple element of an array and its comma
+_ARRAY_ITEM = re.compile(_BLANKS + "(" + _SIMPLE_VALUE + r")[ \t\n]*(?:#[^\n]*\n[ \t\n]*)*,?")
 
 
 def key_positions(text: str) -> dict[tuple, tuple[int, int]]:
@@ -159,7 +173,13 @@ class _Scanner:
 
     def document(self) -> None:
         table: tuple = ()
+        text = self.text
         while True:
+            simple = _BLANK_KEY_VALUE.match(text, self.i)
+            if simple is not None:
+                self.record(table + (simple.group(2),), simple.start(2))
+                self.i = simple.end()
+                continue
             self.skip_blank()
             if self.i >= len(self.text):
                 return
@@ -253,7 +273,14 @@ class _Scanner:
     def array(self, path: tuple) -> None:
         self.expect("[")
         index = 0
+        text, positions = self.text, self.positions
         while True:
+            simple = _ARRAY_ITEM.match(text, self.i)
+            if simple is not None:   # an element path is new: never implied, never seen before
+                positions.setdefault(path + (index,), simple.start(2))
+                self.i = simple.end()
+                index += 1
+                continue
             self.skip_blank()
             if self.peek() == "]":
                 self.i += 1
@@ -267,7 +294,13 @@ class _Scanner:
 
     def inline_table(self, path: tuple) -> None:
         self.expect("{")
+        text = self.text
         while True:
+            simple = _INLINE_KEY_VALUE.match(text, self.i)
+            if simple is not None:
+                self.record(path + (simple.group(1),), simple.start(1))
+                self.i = simple.end()
+                continue
             self.skip_blank()
             if self.peek() == "}":
                 self.i += 1
