@@ -66,9 +66,12 @@ _INLINE_KEY_VALUE = re.compile(r'[ \t\n]*' + _SIMPLE_KV + r'[ \t\n]*,?')
 _ARRAY_ITEM = re.compile(_BLANKS + "(" + _SIMPLE_VALUE + r")[ \t\n]*(?:#[^\n]*\n[ \t\n]*)*,?")
 
 
-def key_positions(text: str) -> dict[tuple, tuple[int, int]]:
-    """Map each path in the parsed document to the (line, column) where it is written, both 1-based."""
-    scanner = _Scanner(text)
+def key_positions(text: str, until: tuple | None = None) -> dict[tuple, tuple[int, int]]:
+    """Map each path in the parsed document to the (line, column) where it is written, both 1-based.
+
+    With *until*, the scan stops where that path is written: the map then holds it and the
+    paths before it (all of them where it is not written explicitly)."""
+    scanner = _Scanner(text, until)
     try:
         scanner.document()
     except (_Stop, ValueError, IndexError):
@@ -86,6 +89,7 @@ class LazyPositions:
     def __init__(self, text: str) -> None:
         self._text = text
         self._map: dict | None = None
+        self._asked = False
 
     @property
     def map(self) -> dict[tuple, tuple[int, int]]:
@@ -98,7 +102,20 @@ class LazyPositions:
         return self._map
 
     def nearest(self, path: tuple) -> tuple[int, int]:
-        """(line, column) of *path*, else of the nearest table or array holding it, else (1, 1)."""
+        """(line, column) of *path*, else of the nearest table or array holding it, else (1, 1).
+
+        The first question (often the only one: an error) scans only up to *path*; a
+        second one scans the whole text, once."""
+        if not self._asked and self._map is None:
+            self._asked = True
+            try:
+                first = key_positions(self._text, until=path)
+            except Exception:  # noqa: BLE001 - the whole scan below tries again
+                first = {}
+            if path in first:
+                return first[path]
+            if first:        # not written explicitly: the scan went through the whole text
+                self._map, self._text = first, ""
         positions = self.map
         while path:
             found = positions.get(path)
@@ -109,14 +126,15 @@ class LazyPositions:
 
 
 class _Stop(Exception):
-    """The scanner met text it cannot make sense of."""
+    """The scanner met text it cannot make sense of, or found the path it was asked for."""
 
 
 class _Scanner:
     """A cursor over the text plus the bookkeeping needed to build paths."""
 
-    def __init__(self, text: str) -> None:
+    def __init__(self, text: str, target: tuple | None = None) -> None:
         self.text = text.replace("\r\n", "\n")
+        self.target = target  # stop once this path is written explicitly
         self.i = 0
         self.line_starts = [0] + [m.end() for m in re.finditer("\n", self.text)]
         self.positions: dict[tuple, int] = {}  # path -> offset; lines and columns at the end
@@ -168,6 +186,8 @@ class _Scanner:
             self.implicit.add(path)
         else:
             self.implicit.discard(path)
+            if path == self.target:
+                raise _Stop("found")
 
     # -- document structure -------------------------------------------------
 
@@ -277,7 +297,10 @@ class _Scanner:
         while True:
             simple = _ARRAY_ITEM.match(text, self.i)
             if simple is not None:   # an element path is new: never implied, never seen before
-                positions.setdefault(path + (index,), simple.start(2))
+                element = path + (index,)
+                positions.setdefault(element, simple.start(2))
+                if element == self.target:
+                    raise _Stop("found")
                 self.i = simple.end()
                 index += 1
                 continue

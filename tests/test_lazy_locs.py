@@ -17,9 +17,9 @@ def _counting(monkeypatch) -> list:
     calls = []
     real = tomlpos.key_positions
 
-    def counted(text):
-        calls.append(len(text))
-        return real(text)
+    def counted(text, until=None):
+        calls.append(until)
+        return real(text, until)
 
     monkeypatch.setattr(tomlpos, "key_positions", counted)
     return calls
@@ -41,11 +41,21 @@ def test_a_clean_layout_is_loaded_without_the_position_scan(monkeypatch):
     where = m2.where("roc")
     assert calls == []                                   # made, not yet read
     assert (where.line, where.column) == _line_col(text, "roc = 100.0")
-    assert len(calls) == 1
+    assert calls == [("optic", 1, "roc")]                # scanned only up to that key
     assert m2.loc == Loc("demo.toml", *_line_col(text, '[[optic]]\nid = "M2"'))
     assert layout.cavities["osc"].path[1].loc == Loc("demo.toml", *_line_col(text, '{ id = "M2", distance = 500.0'))
-    assert len(calls) == 1                               # one scan serves every later Loc
-    assert clone.optics["M2"].where("roc") == where and len(calls) == 2
+    assert calls == [("optic", 1, "roc"), None]         # then once through the whole text for every later Loc
+    assert clone.optics["M2"].where("roc") == where and len(calls) == 3
+
+
+def test_a_scan_stopped_at_a_path_finds_it_where_the_whole_scan_does():
+    for path in sorted((DEMO.parent).glob("*.toml")) + sorted((DEMO.parent / "flawed").glob("*.toml")):
+        text = path.read_text(encoding="utf-8")
+        whole = tomlpos.key_positions(text)
+        for key, pos in whole.items():
+            part = tomlpos.key_positions(text, until=key)
+            assert part[key] == pos, (path.name, key)
+            assert set(part) <= set(whole) and len(part) <= len(whole)
 
 
 def test_an_error_still_names_line_and_column(monkeypatch):
