@@ -105,9 +105,15 @@ SYNONYMS = {
 }
 
 
-#: Largest layout file read (bytes): a hand-written bench of thousands of optics is well
-#: under 1 MiB; anything far larger is not a layout and is refused before it is read.
-MAX_LAYOUT_BYTES = 8 * 1024 * 1024
+#: Largest layout file read (bytes).  A plan of 5,000 optics with coatings, mounts and LIDT
+#: is about 0.7 MiB; at 1 MiB the TOML parser alone takes about half a second of CPU (up to
+#: 0.7 s on contrived files) and grows in proportion, so a larger file would keep a
+#: pre-commit hook waiting for seconds.  It is refused before it is read
+#: (benchmarks/bench_load.py has the figures; README, "Layout format").
+MAX_LAYOUT_BYTES = 1024 * 1024
+#: How the limit is explained where a file is refused.
+_TOO_LARGE = (f"layouts larger than {MAX_LAYOUT_BYTES // 2**20} MiB are not read ({MAX_LAYOUT_BYTES:,} bytes; a plan "
+              "of 5,000 optics is about 0.7 MiB, and a larger file would take seconds to read)")
 #: Most points in one polygon (zone or obstacle outline).
 MAX_POLYGON_POINTS = 1000
 
@@ -123,8 +129,7 @@ def load_path(path: str | Path) -> Layout:
             raise LayoutError("is not a regular file (a device, pipe or socket); a layout is a TOML text file",
                               file=name)
         if info.st_size > MAX_LAYOUT_BYTES:
-            raise LayoutError(f"is {info.st_size / 2**20:.1f} MiB; layouts larger than "
-                              f"{MAX_LAYOUT_BYTES // 2**20} MiB are not read", file=name)
+            raise LayoutError(f"is {info.st_size:,} bytes; {_TOO_LARGE}", file=name)
         with open(path, "rb") as fh:
             data = fh.read(MAX_LAYOUT_BYTES + 1)
     except IsADirectoryError:
@@ -132,11 +137,13 @@ def load_path(path: str | Path) -> Layout:
     except OSError as exc:
         raise LayoutError(f"cannot read the file: {exc.strerror or exc}", file=name) from None
     if len(data) > MAX_LAYOUT_BYTES:   # it grew while being read
-        raise LayoutError(f"layouts larger than {MAX_LAYOUT_BYTES // 2**20} MiB are not read", file=name)
+        raise LayoutError(_TOO_LARGE, file=name)
     return load_bytes(data, name)
 
 
 def load_bytes(data: bytes, file: str = "<layout>") -> Layout:
+    if len(data) > MAX_LAYOUT_BYTES:   # e.g. a revision read from git
+        raise LayoutError(f"is {len(data):,} bytes; {_TOO_LARGE}", file=file)
     nul = data.find(b"\x00")
     if nul >= 0:
         raise LayoutError(
