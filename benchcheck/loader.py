@@ -427,6 +427,12 @@ class _Reader:
                tiny: float = MIN_MAGNITUDE) -> float:
         """A finite number in range; ``tiny`` is the smallest magnitude a quantity that must be
         positive or non-zero may have (smaller ones underflow the beam arithmetic)."""
+        kind = value.__class__
+        if ((kind is float or kind is int) and -MAX_MAGNITUDE <= value <= MAX_MAGNITUDE
+                and (low is None or (value > low if low_open else value >= low))
+                and (high is None or value <= high)
+                and not ((nonzero or (low == 0.0 and low_open)) and -tiny < value < tiny)):
+            return float(value)   # the common case, all checks passed; below, which one failed
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise self.fail(path, f"{self.name(path)} must be a number{_in(unit)}, found {_kind_name(value)}")
         try:
