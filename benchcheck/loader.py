@@ -10,12 +10,14 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as _dt
-import difflib
+import gc
 import math
 import os
 import re
 import stat
 import sys
+from collections.abc import Mapping
+from functools import partial
 from pathlib import Path
 from typing import Any, Iterable
 
@@ -24,7 +26,7 @@ from .model import (
     Waiver, Zone,
 )
 from . import tolspec
-from .tomlpos import key_positions
+from .tomlpos import LazyPositions
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -103,9 +105,15 @@ SYNONYMS = {
 }
 
 
-#: Largest layout file read (bytes): a hand-written bench of thousands of optics is well
-#: under 1 MiB; anything far larger is not a layout and is refused before it is read.
-MAX_LAYOUT_BYTES = 8 * 1024 * 1024
+#: Largest layout file read (bytes).  A plan of 5,000 optics with coatings, mounts and LIDT
+#: is about 0.7 MiB; at 1 MiB the TOML parser alone takes about half a second of CPU (up to
+#: 0.7 s on contrived files) and grows in proportion, so a larger file would keep a
+#: pre-commit hook waiting for seconds.  It is refused before it is read
+#: (benchmarks/bench_load.py has the figures; README, "Layout format").
+MAX_LAYOUT_BYTES = 1024 * 1024
+#: How the limit is explained where a file is refused.
+_TOO_LARGE = (f"layouts larger than {MAX_LAYOUT_BYTES // 2**20} MiB are not read ({MAX_LAYOUT_BYTES:,} bytes; a plan "
+              "of 5,000 optics is about 0.7 MiB, and a larger file would take seconds to read)")
 #: Most points in one polygon (zone or obstacle outline).
 MAX_POLYGON_POINTS = 1000
 
@@ -121,8 +129,7 @@ def load_path(path: str | Path) -> Layout:
             raise LayoutError("is not a regular file (a device, pipe or socket); a layout is a TOML text file",
                               file=name)
         if info.st_size > MAX_LAYOUT_BYTES:
-            raise LayoutError(f"is {info.st_size / 2**20:.1f} MiB; layouts larger than "
-                              f"{MAX_LAYOUT_BYTES // 2**20} MiB are not read", file=name)
+            raise LayoutError(f"is {info.st_size:,} bytes; {_TOO_LARGE}", file=name)
         with open(path, "rb") as fh:
             data = fh.read(MAX_LAYOUT_BYTES + 1)
     except IsADirectoryError:
@@ -130,11 +137,13 @@ def load_path(path: str | Path) -> Layout:
     except OSError as exc:
         raise LayoutError(f"cannot read the file: {exc.strerror or exc}", file=name) from None
     if len(data) > MAX_LAYOUT_BYTES:   # it grew while being read
-        raise LayoutError(f"layouts larger than {MAX_LAYOUT_BYTES // 2**20} MiB are not read", file=name)
+        raise LayoutError(_TOO_LARGE, file=name)
     return load_bytes(data, name)
 
 
 def load_bytes(data: bytes, file: str = "<layout>") -> Layout:
+    if len(data) > MAX_LAYOUT_BYTES:   # e.g. a revision read from git
+        raise LayoutError(f"is {len(data):,} bytes; {_TOO_LARGE}", file=file)
     nul = data.find(b"\x00")
     if nul >= 0:
         raise LayoutError(
@@ -165,6 +174,19 @@ MAX_NESTING = 32
 
 def load_text(text: str, file: str = "<layout>") -> Layout:
     """Validate TOML text; ``file`` is only used in messages."""
+    # The parsed document and the records are many small objects without reference cycles;
+    # a garbage collection in between would only walk them again (on a plan of 5,000 optics
+    # 40 % of the validation time).  They are freed by reference counting as before.
+    collecting = gc.isenabled()
+    gc.disable()
+    try:
+        return _load_text(text, file)
+    finally:
+        if collecting:
+            gc.enable()
+
+
+def _load_text(text: str, file: str) -> Layout:
     deep = _too_deep(text)
     if deep is not None:
         raise LayoutError(f"arrays or inline tables nested more than {MAX_NESTING} deep; a layout needs a few "
@@ -177,11 +199,7 @@ def load_text(text: str, file: str = "<layout>") -> Layout:
         raise LayoutError("the layout is nested too deeply to read", Loc(file, 1, 1)) from None
     except ValueError:  # an integer beyond Python's int-string limit (about 4,300 digits)
         raise _long_integer(text, file) from None
-    try:
-        positions = key_positions(text)
-    except Exception:  # the scanner must never turn a good file into a crash
-        positions = {}
-    return _Reader(file, positions, doc).layout(doc)
+    return _Reader(file, LazyPositions(text), doc).layout(doc)
 
 
 #: What brackets inside are not structure: comments and strings of every kind (an
@@ -259,6 +277,69 @@ def _syntax_error(exc: Exception, text: str, file: str) -> LayoutError:
     return LayoutError("TOML syntax: " + msg, Loc(file, line, col or 1))
 
 
+class _KeyLocs(Mapping):
+    """key -> ``Loc`` for the keys of one table (a record's ``key_locs``); each Loc's line is
+    found when first read."""
+
+    __slots__ = ("_file", "_positions", "_path", "_keys")
+
+    def __init__(self, file: str, positions: LazyPositions, path: tuple, keys: tuple) -> None:
+        self._file, self._positions, self._path, self._keys = file, positions, path, keys
+
+    def __getitem__(self, key: str) -> Loc:
+        if key not in self._keys:
+            raise KeyError(key)
+        return Loc.pending(self._file, partial(self._positions.nearest, self._path + (key,)))
+
+    def get(self, key: str, default: Any = None) -> Any:
+        return self[key] if key in self._keys else default
+
+    def __contains__(self, key: object) -> bool:
+        return key in self._keys
+
+    def __iter__(self):
+        return iter(self._keys)
+
+    def __len__(self) -> int:
+        return len(self._keys)
+
+    def __repr__(self) -> str:
+        return repr(dict(self))
+
+
+class _AllKeyLocs(Mapping):
+    """path -> ``Loc`` for every key, table and array element of the file (``Layout.key_locs``),
+    read from the text when first asked for."""
+
+    __slots__ = ("_file", "_positions")
+
+    def __init__(self, file: str, positions: LazyPositions) -> None:
+        self._file, self._positions = file, positions
+
+    def __getitem__(self, path: tuple) -> Loc:
+        return Loc(self._file, *self._positions.map[path])
+
+    def __iter__(self):
+        return iter(self._positions.map)
+
+    def __len__(self) -> int:
+        return len(self._positions.map)
+
+    def __repr__(self) -> str:
+        return repr(dict(self))
+
+
+def _close_matches(word: str, choices, n: int, cutoff: float) -> list:
+    """``difflib.get_close_matches``, imported on the first error that suggests a word."""
+    import difflib
+
+    return difflib.get_close_matches(word, choices, n=n, cutoff=cutoff)
+
+
+def _in(unit: str) -> str:
+    return f" in {unit}" if unit else ""
+
+
 def _kind_name(value: Any) -> str:
     if isinstance(value, bool):
         return "a boolean"
@@ -278,7 +359,7 @@ def _kind_name(value: Any) -> str:
 class _Reader:
     """Walks the parsed document, converting and checking values against their paths."""
 
-    def __init__(self, file: str, positions: dict, doc: dict | None = None):
+    def __init__(self, file: str, positions: LazyPositions, doc: dict | None = None):
         self.file = file
         self.positions = positions
         #: (section, index) -> id, so messages say optic "M2" rather than optic[3]
@@ -292,13 +373,8 @@ class _Reader:
 
     # -- locations and errors ------------------------------------------------------
     def loc(self, path: tuple) -> Loc:
-        p = tuple(path)
-        while p:
-            if p in self.positions:
-                line, col = self.positions[p]
-                return Loc(self.file, line, col)
-            p = p[:-1]
-        return Loc(self.file, 1, 1)
+        """Where *path* is written (or the table holding it); the line is found when first read."""
+        return Loc.pending(self.file, partial(self.positions.nearest, tuple(path)))
 
     def fail(self, path: tuple, message: str) -> LayoutError:
         return LayoutError(message, self.loc(path))
@@ -319,8 +395,8 @@ class _Reader:
             out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out and not out.endswith(" ") else part)
         return out
 
-    def key_locs(self, path: tuple, table: dict) -> dict:
-        return {k: self.loc(path + (k,)) for k in table}
+    def key_locs(self, path: tuple, table: dict) -> Mapping:
+        return _KeyLocs(self.file, self.positions, path, tuple(table))
 
     # -- primitive checks ------------------------------------------------------------
     def table(self, value: Any, path: tuple, allowed: Iterable[str], what: str) -> dict:
@@ -334,7 +410,7 @@ class _Reader:
 
     @staticmethod
     def _unknown(key: str, allowed: tuple, what: str) -> str:
-        close = difflib.get_close_matches(key, allowed, n=1, cutoff=0.6)
+        close = _close_matches(key, allowed, n=1, cutoff=0.6)
         synonym = SYNONYMS.get(key.lower())
         if synonym in allowed and synonym != key:
             close = [synonym]
@@ -351,27 +427,31 @@ class _Reader:
                tiny: float = MIN_MAGNITUDE) -> float:
         """A finite number in range; ``tiny`` is the smallest magnitude a quantity that must be
         positive or non-zero may have (smaller ones underflow the beam arithmetic)."""
-        label = self.name(path)
-        unit_txt = f" in {unit}" if unit else ""
+        kind = value.__class__
+        if ((kind is float or kind is int) and -MAX_MAGNITUDE <= value <= MAX_MAGNITUDE
+                and (low is None or (value > low if low_open else value >= low))
+                and (high is None or value <= high)
+                and not ((nonzero or (low == 0.0 and low_open)) and -tiny < value < tiny)):
+            return float(value)   # the common case, all checks passed; below, which one failed
         if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise self.fail(path, f"{label} must be a number{unit_txt}, found {_kind_name(value)}")
+            raise self.fail(path, f"{self.name(path)} must be a number{_in(unit)}, found {_kind_name(value)}")
         try:
             x = float(value)
         except OverflowError:
-            raise self.fail(path, f"{label} is far too large{unit_txt} (a {len(str(value))}-digit integer)") from None
+            raise self.fail(path, f"{self.name(path)} is far too large{_in(unit)} (a {len(str(value))}-digit integer)") from None
         if math.isnan(x) or math.isinf(x):
-            raise self.fail(path, f"{label} must be a finite number{unit_txt}, found {value}")
+            raise self.fail(path, f"{self.name(path)} must be a finite number{_in(unit)}, found {value}")
         if abs(x) > MAX_MAGNITUDE:
-            raise self.fail(path, f"{label} = {value:g} is far too large{unit_txt}")
+            raise self.fail(path, f"{self.name(path)} = {value:g} is far too large{_in(unit)}")
         if nonzero and x == 0:
-            raise self.fail(path, f"{label} must not be zero")
+            raise self.fail(path, f"{self.name(path)} must not be zero")
         if low is not None and (x <= low if low_open else x < low):
             op = ">" if low_open else ">="
-            raise self.fail(path, f"{label} must be {op} {low:g}{unit_txt}, found {value}")
+            raise self.fail(path, f"{self.name(path)} must be {op} {low:g}{_in(unit)}, found {value}")
         if high is not None and x > high:
-            raise self.fail(path, f"{label} must be <= {high:g}{unit_txt}, found {value}")
+            raise self.fail(path, f"{self.name(path)} must be <= {high:g}{_in(unit)}, found {value}")
         if (nonzero or (low == 0.0 and low_open)) and abs(x) < tiny:
-            raise self.fail(path, f"{label} = {value:g} is far too small{unit_txt}; the smallest accepted is {tiny:g}")
+            raise self.fail(path, f"{self.name(path)} = {value:g} is far too small{_in(unit)}; the smallest accepted is {tiny:g}")
         return x
 
     def wavelength(self, value: Any, path: tuple) -> float:
@@ -391,14 +471,13 @@ class _Reader:
         return x
 
     def string(self, value: Any, path: tuple, choices: tuple | None = None) -> str:
-        label = self.name(path)
         if not isinstance(value, str):
-            raise self.fail(path, f"{label} must be a string, found {_kind_name(value)}")
+            raise self.fail(path, f"{self.name(path)} must be a string, found {_kind_name(value)}")
         if choices is not None and value not in choices:
-            close = difflib.get_close_matches(value, choices, n=1, cutoff=0.6)
+            close = _close_matches(value, choices, n=1, cutoff=0.6)
             hint = f" (did you mean \"{close[0]}\"?)" if close else ""
             opts = " | ".join(f'"{c}"' for c in choices)
-            raise self.fail(path, f"{label} must be one of {opts}, found \"{value}\"{hint}")
+            raise self.fail(path, f"{self.name(path)} must be one of {opts}, found \"{value}\"{hint}")
         return value
 
     def ident(self, value: Any, path: tuple) -> str:
@@ -412,9 +491,9 @@ class _Reader:
         if not isinstance(value, list) or len(value) != 2:
             raise self.fail(path, f"{self.name(path)} must be {what}, found {_kind_name(value)}"
                                   + (f" of {len(value)} items" if isinstance(value, list) else ""))
-        return tuple(self.number(v, path + (i,), "mm", low=0.0 if positive else -MAX_EXTENT_MM, low_open=positive,
-                                 high=MAX_EXTENT_MM)
-                     for i, v in enumerate(value))  # type: ignore[return-value]
+        low = 0.0 if positive else -MAX_EXTENT_MM
+        return (self.number(value[0], path + (0,), "mm", low=low, low_open=positive, high=MAX_EXTENT_MM),
+                self.number(value[1], path + (1,), "mm", low=low, low_open=positive, high=MAX_EXTENT_MM))
 
     def polygon(self, value: Any, path: tuple) -> tuple[tuple[float, float], ...]:
         if not isinstance(value, list) or len(value) < 3:
@@ -466,12 +545,13 @@ class _Reader:
         if "bench" not in doc:
             raise LayoutError("the layout needs a [bench] table with name and size", Loc(self.file, 1, 1))
         bench = self.bench(doc["bench"])
-        seen: dict[str, Loc] = {}
+        seen: dict[str, tuple] = {}
 
         def claim(ident: str, path: tuple) -> None:
             if ident in seen:
-                raise self.fail(path, f"id \"{ident}\" is used twice (first at line {seen[ident].line}); ids must be unique")
-            seen[ident] = self.loc(path)
+                raise self.fail(path, f"id \"{ident}\" is used twice (first at line {self.loc(seen[ident]).line}); "
+                                      "ids must be unique")
+            seen[ident] = path
 
         zones = []
         for i, z in enumerate(self.array_of_tables(doc, "zone")):
@@ -506,12 +586,12 @@ class _Reader:
         return Layout(
             file=self.file, format=fmt, bench=bench, optics=optics, sources=sources,
             cavities=cavities, beams=beams, zones=tuple(zones), waivers=waivers,
-            key_locs={k: Loc(self.file, *v) for k, v in self.positions.items()},
+            key_locs=_AllKeyLocs(self.file, self.positions),
         )
 
     def _dangling(self, path: tuple, ident: str, known: Iterable[str], what: str) -> LayoutError:
         known = list(known)
-        close = difflib.get_close_matches(ident, known, n=1, cutoff=0.5)
+        close = _close_matches(ident, known, n=1, cutoff=0.5)
         hint = f"; did you mean \"{close[0]}\"?" if close else (f"; known: {', '.join(known)}" if known else "")
         return self.fail(path, f"\"{ident}\" is not {what} in this layout{hint}")
 
@@ -539,7 +619,7 @@ class _Reader:
         for key in value:
             if key not in allowed:
                 others = [k for k, keys in OPTIC_KEYS.items() if key in keys]
-                if others and difflib.get_close_matches(key, allowed, n=1, cutoff=0.8) == []:
+                if others and _close_matches(key, allowed, n=1, cutoff=0.8) == []:
                     raise self.fail(path + (key,), f"'{key}' does not apply to a {kind} (optic \"{ident}\"); "
                                                    f"it is a key of: {', '.join(others)}. Keys for a {kind}: {', '.join(allowed)}")
                 raise self.fail(path + (key,), self._unknown(key, allowed, f"optic \"{ident}\" ({kind})"))

@@ -8,20 +8,74 @@ line they wrote without knowing anything about TOML.
 from __future__ import annotations
 
 import datetime as _dt
-from dataclasses import dataclass, field
-from typing import Mapping
+from dataclasses import dataclass, field, fields
+from operator import attrgetter
+from typing import Callable, Mapping
 
 from .textsafe import one_line
 
 
-@dataclass(frozen=True)
+def _record(cls):
+    """``@dataclass(frozen=True)`` with the same ``==``, ``hash`` and ``repr``, made of shared
+    functions: ``dataclass`` writes and compiles each method anew for every class, and for
+    the records of this module that was a third of the time ``import benchcheck.model``
+    took (every command imports it)."""
+    cls = dataclass(frozen=True, eq=False, repr=False)(cls)
+    names = tuple(f.name for f in fields(cls))
+    values = attrgetter(*names) if len(names) > 1 else (lambda obj: (getattr(obj, names[0]),))
+
+    def __eq__(self, other):
+        if other.__class__ is self.__class__:
+            return values(self) == values(other)
+        return NotImplemented
+
+    def __hash__(self):
+        return hash(values(self))
+
+    def __repr__(self):
+        return f"{self.__class__.__qualname__}(" + ", ".join(
+            f"{n}={v!r}" for n, v in zip(names, values(self))) + ")"
+
+    for method in (__eq__, __hash__, __repr__):
+        method.__qualname__ = f"{cls.__qualname__}.{method.__name__}"
+        setattr(cls, method.__name__, method)
+    return cls
+
+
+@_record
 class Loc:
+    """A place in a file: 1-based line and column (characters)."""
+
     file: str
     line: int
     column: int
 
     def __str__(self) -> str:
         return f"{self.file}:{self.line}:{self.column}"
+
+    @classmethod
+    def pending(cls, file: str, where: "Callable[[], tuple[int, int]]") -> "Loc":
+        """A Loc whose line and column ``where()`` works out the first time either is read.
+
+        The loader hands one of these to every record: finding the line of each key costs a
+        second pass over the text, which a layout without errors or findings never needs.
+        Read, compared, hashed, printed or pickled, it behaves as ``Loc(file, *where())``."""
+        loc = object.__new__(cls)
+        d = loc.__dict__
+        d["file"] = file
+        d["_where"] = where
+        return loc
+
+    def __getattr__(self, name: str):
+        # only reached for a pending Loc's line or column not yet worked out
+        where = self.__dict__.get("_where") if name in ("line", "column") else None
+        if where is None:
+            raise AttributeError(f"'Loc' object has no attribute '{name}'")
+        line, column = where()
+        d = self.__dict__
+        d["line"], d["column"] = line, column
+        del d["_where"]
+        return d[name]
 
 
 class LayoutError(Exception):
@@ -46,7 +100,7 @@ class LayoutError(Exception):
 WAVELENGTH_MATCH = 0.02
 
 
-@dataclass(frozen=True)
+@_record
 class Spectral:
     """One number for every wavelength, or a table keyed by wavelength in nm."""
 
@@ -70,8 +124,10 @@ class Spectral:
         return ", ".join(f"{nm:g} nm" for nm, _ in self.table)
 
 
-@dataclass(frozen=True)
+@_record
 class Lidt:
+    """Laser-induced damage threshold as the coating's data sheet gives it (one or more of w_cm, w_cm2, j_cm2)."""
+
     w_cm: float | None = None          # CW, linear power density
     w_cm2: float | None = None         # CW, intensity
     j_cm2: float | None = None         # pulsed, fluence
@@ -79,8 +135,10 @@ class Lidt:
     wavelength_nm: float | None = None
 
 
-@dataclass(frozen=True)
+@_record
 class Optic:
+    """One ``[[optic]]``: where it sits, what it does to the beam, and its ratings."""
+
     id: str
     kind: str
     loc: Loc
@@ -117,15 +175,17 @@ class Optic:
         return self.key_locs.get(key, self.loc)
 
 
-@dataclass(frozen=True)
+@_record
 class PathEntry:
+    """One element of a cavity's or beam's ``path``: an optic id, with the distance and fold given there."""
+
     id: str
     loc: Loc
     distance: float | None = None
     fold: float | None = None
 
 
-@dataclass(frozen=True)
+@_record
 class Coaxial:
     """A source placed on a cavity leg's line: ``distance`` mm behind the mirror ``through``
     (on the far side from the leg), shining through it along the leg toward ``toward``."""
@@ -135,8 +195,10 @@ class Coaxial:
     distance: float                              # mm behind the mirror's face
 
 
-@dataclass(frozen=True)
+@_record
 class Source:
+    """One ``[[source]]``: a laser beam's start, waist and power."""
+
     id: str
     loc: Loc
     key_locs: Mapping[str, Loc]
@@ -160,8 +222,10 @@ class Source:
         return self.key_locs.get(key, self.loc)
 
 
-@dataclass(frozen=True)
+@_record
 class Cavity:
+    """One ``[[cavity]]``: its mirrors in travel order, wavelength and coupling."""
+
     id: str
     kind: str                                    # "linear" | "ring"
     loc: Loc
@@ -186,8 +250,10 @@ class Cavity:
         return self.key_locs.get(key, self.loc)
 
 
-@dataclass(frozen=True)
+@_record
 class Beam:
+    """One ``[[beam]]``: an open path from a source or out of a cavity's output coupler."""
+
     id: str
     origin: str                                  # the `from` key: a source or cavity id
     loc: Loc
@@ -200,16 +266,20 @@ class Beam:
         return self.key_locs.get(key, self.loc)
 
 
-@dataclass(frozen=True)
+@_record
 class Zone:
+    """One ``[[zone]]``: a keep-out area or an enclosure, as a polygon in mm."""
+
     id: str
     kind: str                                    # "keepout" | "enclosure"
     polygon: tuple[tuple[float, float], ...]
     loc: Loc
 
 
-@dataclass(frozen=True)
+@_record
 class Waiver:
+    """One ``[[waiver]]``: a finding accepted by someone, for a reason, maybe until a date."""
+
     rule: str
     target: str
     reason: str
@@ -218,15 +288,19 @@ class Waiver:
     until: _dt.date | None = None
 
 
-@dataclass(frozen=True)
+@_record
 class Bench:
+    """The ``[bench]`` table: the table's name and extent."""
+
     name: str
     size: tuple[float, float]
     loc: Loc
 
 
-@dataclass(frozen=True)
+@_record
 class Layout:
+    """A whole layout file, validated; optics, sources, cavities and beams by id."""
+
     file: str
     format: int
     bench: Bench

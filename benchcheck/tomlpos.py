@@ -36,7 +36,7 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover - exercised only on Python 3.10
     import tomli as tomllib
 
-__all__ = ["key_positions"]
+__all__ = ["key_positions", "LazyPositions"]
 
 # Runs of characters are matched with regular expressions (no per-character Python loop),
 # so the scan stays linear and quick on the largest layout the loader reads.
@@ -48,13 +48,30 @@ _SCALAR = re.compile(r"[^,\]}#\n]+")  # a bare value runs up to a character it c
 _BASIC = re.compile(r'"[^"\\\n]*(?:\\.[^"\\\n]*)*"')
 _ML_BASIC = re.compile(r'"""[^"\\]*(?:(?:\\[\s\S]|"(?!""))[^"\\]*)*""""{0,2}')
 _ML_LITERAL = re.compile(r"'''[^']*(?:'(?!'')[^']*)*''''{0,2}")
-#: ``key = 1.5`` or ``key = "text"``: a bare key and a scalar or a string without escapes
-_SIMPLE_KEY_VALUE = re.compile(r'([A-Za-z0-9_-]+)[ \t]*=[ \t]*(?:"[^"\\\n]*"(?!")|[^,\]}#\n\[{"\' \t][^,\]}#\n]*)')
+#: a scalar (number, boolean, date) or a one-line string without escapes
+_SIMPLE_VALUE = r'(?:"[^"\\\n]*"(?!")|[^,\]}#\n\[{"\' \t][^,\]}#\n]*)'
+_SIMPLE_KV = r'([A-Za-z0-9_-]+)[ \t]*=[ \t]*' + _SIMPLE_VALUE
+#: whitespace, newlines and comments, taken whole: the lookahead reads the longest run and
+#: the backreference consumes exactly it, so a failed match never backtracks into a
+#: comment (and never finds a key in one) nor splits a long run of blanks many ways
+_BLANKS = r'(?=(?P<blanks>(?:[ \t\n]+|#[^\n]*)*))(?P=blanks)'
+# The common cases, each read in one match (the step-by-step scan reads the rest):
+#: ``key = 1.5`` or ``key = "text"``: a bare key and a simple value
+_SIMPLE_KEY_VALUE = re.compile(_SIMPLE_KV)
+#: the same after blank lines and comments, at the top level or in a table
+_BLANK_KEY_VALUE = re.compile(_BLANKS + _SIMPLE_KV)
+#: ``key = value`` and its comma in an inline table
+_INLINE_KEY_VALUE = re.compile(r'[ \t\n]*' + _SIMPLE_KV + r'[ \t\n]*,?')
+#: one simple element of an array and its comma
+_ARRAY_ITEM = re.compile(_BLANKS + "(" + _SIMPLE_VALUE + r")[ \t\n]*(?:#[^\n]*\n[ \t\n]*)*,?")
 
 
-def key_positions(text: str) -> dict[tuple, tuple[int, int]]:
-    """Map each path in the parsed document to the (line, column) where it is written, both 1-based."""
-    scanner = _Scanner(text)
+def key_positions(text: str, until: tuple | None = None) -> dict[tuple, tuple[int, int]]:
+    """Map each path in the parsed document to the (line, column) where it is written, both 1-based.
+
+    With *until*, the scan stops where that path is written: the map then holds it and the
+    paths before it (all of them where it is not written explicitly)."""
+    scanner = _Scanner(text, until)
     try:
         scanner.document()
     except (_Stop, ValueError, IndexError):
@@ -62,15 +79,62 @@ def key_positions(text: str) -> dict[tuple, tuple[int, int]]:
     return scanner.line_columns()
 
 
+class LazyPositions:
+    """``key_positions(text)``, worked out the first time a position is asked for.
+
+    A layout that loads without an error and gets no finding never needs a line number, so
+    the second pass over its text is put off until something is reported (and skipped
+    when nothing is)."""
+
+    def __init__(self, text: str) -> None:
+        self._text = text
+        self._map: dict | None = None
+        self._asked = False
+
+    @property
+    def map(self) -> dict[tuple, tuple[int, int]]:
+        if self._map is None:
+            try:
+                self._map = key_positions(self._text)
+            except Exception:  # noqa: BLE001 - a missing position must never turn a good file into a crash
+                self._map = {}
+            self._text = ""
+        return self._map
+
+    def nearest(self, path: tuple) -> tuple[int, int]:
+        """(line, column) of *path*, else of the nearest table or array holding it, else (1, 1).
+
+        The first question (often the only one: an error) scans only up to *path*; a
+        second one scans the whole text, once."""
+        if not self._asked and self._map is None:
+            self._asked = True
+            try:
+                first = key_positions(self._text, until=path)
+            except Exception:  # noqa: BLE001 - the whole scan below tries again
+                first = {}
+            if path in first:
+                return first[path]
+            if first:        # not written explicitly: the scan went through the whole text
+                self._map, self._text = first, ""
+        positions = self.map
+        while path:
+            found = positions.get(path)
+            if found is not None:
+                return found
+            path = path[:-1]
+        return 1, 1
+
+
 class _Stop(Exception):
-    """The scanner met text it cannot make sense of."""
+    """The scanner met text it cannot make sense of, or found the path it was asked for."""
 
 
 class _Scanner:
     """A cursor over the text plus the bookkeeping needed to build paths."""
 
-    def __init__(self, text: str) -> None:
+    def __init__(self, text: str, target: tuple | None = None) -> None:
         self.text = text.replace("\r\n", "\n")
+        self.target = target  # stop once this path is written explicitly
         self.i = 0
         self.line_starts = [0] + [m.end() for m in re.finditer("\n", self.text)]
         self.positions: dict[tuple, int] = {}  # path -> offset; lines and columns at the end
@@ -122,12 +186,20 @@ class _Scanner:
             self.implicit.add(path)
         else:
             self.implicit.discard(path)
+            if path == self.target:
+                raise _Stop("found")
 
     # -- document structure -------------------------------------------------
 
     def document(self) -> None:
         table: tuple = ()
+        text = self.text
         while True:
+            simple = _BLANK_KEY_VALUE.match(text, self.i)
+            if simple is not None:
+                self.record(table + (simple.group(2),), simple.start(2))
+                self.i = simple.end()
+                continue
             self.skip_blank()
             if self.i >= len(self.text):
                 return
@@ -221,7 +293,17 @@ class _Scanner:
     def array(self, path: tuple) -> None:
         self.expect("[")
         index = 0
+        text, positions = self.text, self.positions
         while True:
+            simple = _ARRAY_ITEM.match(text, self.i)
+            if simple is not None:   # an element path is new: never implied, never seen before
+                element = path + (index,)
+                positions.setdefault(element, simple.start(2))
+                if element == self.target:
+                    raise _Stop("found")
+                self.i = simple.end()
+                index += 1
+                continue
             self.skip_blank()
             if self.peek() == "]":
                 self.i += 1
@@ -235,7 +317,13 @@ class _Scanner:
 
     def inline_table(self, path: tuple) -> None:
         self.expect("{")
+        text = self.text
         while True:
+            simple = _INLINE_KEY_VALUE.match(text, self.i)
+            if simple is not None:
+                self.record(path + (simple.group(1),), simple.start(1))
+                self.i = simple.end()
+                continue
             self.skip_blank()
             if self.peek() == "}":
                 self.i += 1

@@ -6,6 +6,7 @@ import datetime
 import math
 import re
 import tomllib
+from pathlib import Path
 
 import pytest
 
@@ -649,3 +650,43 @@ else:
         for path, token in expected.items():
             assert text_at(doc, *positions[path]).startswith(token), (path, token)
         assert key_positions(doc.replace("\n", "\r\n")) == positions
+
+
+# -- the one-match fast paths agree with the step-by-step scan -----------------------
+
+FAST_PATHS = ("_SIMPLE_KEY_VALUE", "_BLANK_KEY_VALUE", "_INLINE_KEY_VALUE", "_ARRAY_ITEM")
+
+
+def test_a_comment_that_looks_like_a_key_or_a_value_is_never_read_as_one():
+    # a failed one-match try must not backtrack into the comment and find "a = 1" or "5" there
+    doc = "# a = 1\n[t]\nx = [  # 5 items\n  { y = 2 },  # 6\n  'lit',\n]\nz = [ # 7\n]\n"
+    check(doc, {("t",): (2, 1), ("t", "x"): (3, 1), ("t", "x", 0): (4, 3), ("t", "x", 0, "y"): (4, 5),
+                ("t", "x", 1): (5, 3), ("t", "z"): (7, 1)})
+
+
+def test_long_runs_of_blanks_before_what_the_fast_paths_do_not_read():
+    # blanks before a header, a quoted key and a nested array: each must be read in one
+    # pass (a regular expression that split the run many ways would not finish)
+    pad = " \n" * 20000 + "# c\n" * 3 + "\t" * 20000
+    doc = f"a = 1\n{pad}[t]\n{pad}'q' = [{pad}[1, {pad}2]{pad}]\n"
+    positions = check(doc, {("a",): (1, 1)})
+    assert positions[("t", "q", 0, 1)][0] == positions[("t", "q", 0, 0)][0] + pad.count("\n")
+
+
+@pytest.mark.parametrize("name", sorted(p.name for p in (Path(__file__).resolve().parents[1] / "layouts").rglob("*.toml"))
+                         + ["hostile"])
+def test_the_fast_paths_agree_with_the_step_by_step_scan(name, monkeypatch):
+    import benchcheck.tomlpos as tomlpos
+    root = Path(__file__).resolve().parents[1] / "layouts"
+    if name == "hostile":
+        text = ("x = [" + "[1.5, 2], " * 50 + "]\n" + "y = " + "{ a = " * 10 + '"s"' + " }" * 10 + "\n"
+                + 'p = [{ id = "M1", distance = 5.0 }, "M2", # c\n  { id = "M3" },\n]\n'
+                + "[[o]]\nk = 1 # c\nl = [ 1 , # two\n 2 ]\n")
+    else:
+        text = next(root.rglob(name)).read_text(encoding="utf-8")
+    fast = key_positions(text)
+    for pattern in FAST_PATHS:
+        monkeypatch.setattr(tomlpos, pattern, re.compile(r"(?!)"))   # never matches
+    slow = key_positions(text)
+    assert fast == slow
+    assert set(fast) == set(all_paths(tomllib.loads(text)))

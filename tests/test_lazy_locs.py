@@ -1,0 +1,106 @@
+"""The loader finds line numbers only when something reads one (tomlpos.LazyPositions)."""
+
+from __future__ import annotations
+
+import copy
+import pickle
+from pathlib import Path
+
+from benchcheck import tomlpos
+from benchcheck.loader import load_text
+from benchcheck.model import Loc
+
+DEMO = Path(__file__).resolve().parents[1] / "layouts" / "folded-brewster.toml"
+
+
+def _counting(monkeypatch) -> list:
+    calls = []
+    real = tomlpos.key_positions
+
+    def counted(text, until=None):
+        calls.append(until)
+        return real(text, until)
+
+    monkeypatch.setattr(tomlpos, "key_positions", counted)
+    return calls
+
+
+def _line_col(text: str, needle: str) -> tuple[int, int]:
+    offset = text.index(needle)
+    return text.count("\n", 0, offset) + 1, offset - (text.rfind("\n", 0, offset) + 1) + 1
+
+
+def test_a_clean_layout_is_loaded_without_the_position_scan(monkeypatch):
+    calls = _counting(monkeypatch)
+    text = DEMO.read_text(encoding="utf-8")
+    layout = load_text(text, "demo.toml")
+    assert calls == []
+    clone = pickle.loads(pickle.dumps(layout))           # as a plugin's copy of the bench is made
+    assert calls == []
+    m2 = layout.optics["M2"]
+    where = m2.where("roc")
+    assert calls == []                                   # made, not yet read
+    assert (where.line, where.column) == _line_col(text, "roc = 100.0")
+    assert calls == [("optic", 1, "roc")]                # scanned only up to that key
+    assert m2.loc == Loc("demo.toml", *_line_col(text, '[[optic]]\nid = "M2"'))
+    assert layout.cavities["osc"].path[1].loc == Loc("demo.toml", *_line_col(text, '{ id = "M2", distance = 500.0'))
+    assert calls == [("optic", 1, "roc"), None]         # then once through the whole text for every later Loc
+    assert clone.optics["M2"].where("roc") == where and len(calls) == 3
+
+
+def test_a_scan_stopped_at_a_path_finds_it_where_the_whole_scan_does():
+    for path in sorted((DEMO.parent).glob("*.toml")) + sorted((DEMO.parent / "flawed").glob("*.toml")):
+        text = path.read_text(encoding="utf-8")
+        whole = tomlpos.key_positions(text)
+        for key, pos in whole.items():
+            part = tomlpos.key_positions(text, until=key)
+            assert part[key] == pos, (path.name, key)
+            assert set(part) <= set(whole) and len(part) <= len(whole)
+
+
+def test_an_error_still_names_line_and_column(monkeypatch):
+    text = DEMO.read_text(encoding="utf-8").replace("focal_length = 150.0", "focal_length = 0.0")
+    try:
+        load_text(text, "demo.toml")
+    except Exception as exc:  # noqa: BLE001
+        line, col = _line_col(text, "focal_length = 0.0")
+        assert str(exc).startswith(f"demo.toml:{line}:{col}: error: "), str(exc)
+    else:
+        raise AssertionError("a zero focal length loaded")
+
+
+def test_a_pending_loc_behaves_as_the_plain_one():
+    calls = []
+
+    def where():
+        calls.append(1)
+        return 7, 3
+
+    plain = Loc("f.toml", 7, 3)
+    before = Loc.pending("f.toml", where)
+    copied = pickle.loads(pickle.dumps(Loc.pending("f.toml", _seven_three)))
+    assert calls == []
+    assert copied == plain and hash(copied) == hash(plain) and str(copied) == "f.toml:7:3"
+    assert before == plain and repr(before) == repr(plain) and vars(before) == vars(plain)
+    assert copy.deepcopy(Loc.pending("g", where)) == Loc("g", 7, 3)
+    try:
+        before.line = 1
+    except AttributeError:
+        pass
+    else:
+        raise AssertionError("a Loc is frozen")
+
+
+def test_the_layout_key_locs_are_the_scanned_positions():
+    text = DEMO.read_text(encoding="utf-8")
+    layout = load_text(text, "demo.toml")
+    expected = {path: Loc("demo.toml", *pos) for path, pos in tomlpos.key_positions(text).items()}
+    assert dict(layout.key_locs) == expected
+    assert layout.key_locs[("optic", 1, "roc")] == Loc("demo.toml", *_line_col(text, "roc = 100.0"))
+    assert dict(layout.optics["M2"].key_locs) == {k: Loc("demo.toml", *tomlpos.key_positions(text)[("optic", 1, k)])
+                                                  for k in ("id", "kind", "roc", "reflectivity", "diameter",
+                                                            "substrate", "lidt")}
+
+
+def _seven_three():
+    return 7, 3
