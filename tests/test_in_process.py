@@ -8,6 +8,7 @@ points says what importlib.metadata says."""
 from __future__ import annotations
 
 import json
+import os
 import re
 import shutil
 import sys
@@ -388,3 +389,37 @@ def test_what_the_check_prints_goes_to_standard_error_both_ways(capfd, monkeypat
     here, workers = both_ways(capfd, monkeypatch, paths, ["check", str(FLAWED), "--format", "json"])
     assert here == workers
     assert "a stray line" in here[2] and json.loads(here[1])["findings"]
+
+
+# --- the command line's own start ------------------------------------------------------------
+
+def _fresh(code: str) -> str:
+    import subprocess
+    import sys as _sys
+
+    env = {k: v for k, v in os.environ.items() if k not in ("OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
+                                                             "OMP_NUM_THREADS")}
+    return subprocess.run([_sys.executable, "-c", code], capture_output=True, text=True, env=env,
+                          check=True).stdout.strip()
+
+
+def test_importing_the_command_line_does_not_import_numpy():
+    """The command line sets numpy's BLAS threads before numpy starts; that needs an import
+    of benchcheck.cli that leaves numpy alone."""
+    assert _fresh("import sys, benchcheck.cli; print('numpy' in sys.modules)") == "False"
+
+
+def test_the_command_line_runs_blas_on_one_thread_unless_the_user_says_otherwise():
+    code = ("import os, benchcheck.cli as c; c._one_blas_thread(); "
+            "print(os.environ['OPENBLAS_NUM_THREADS'], os.environ['OMP_NUM_THREADS'])")
+    assert _fresh(code) == "1 1"
+    assert _fresh("import os; os.environ['OPENBLAS_NUM_THREADS'] = '4'; " + code) == "4 1"
+
+
+def test_the_api_names_stay_functions_after_their_modules_are_imported():
+    """``benchcheck.solve`` is the documented function, also once the module solve.py
+    (imported by every check) is loaded."""
+    out = _fresh("import benchcheck.solve, benchcheck.api, benchcheck; from benchcheck import solve, load; "
+                 "print(solve is benchcheck.api.solve, load is benchcheck.api.load, "
+                 "benchcheck.solve is benchcheck.api.solve)")
+    assert out == "True True True"
