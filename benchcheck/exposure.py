@@ -21,6 +21,8 @@ Units: wavelength nm, time s, lengths mm, radiant exposure J/m^2, irradiance W/m
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
 CAUTION = (
@@ -193,6 +195,20 @@ def mpe_j_m2(wavelength_nm, t_s):
     At the cornea, averaged over ``limiting_aperture_mm``; NaN where no built-in limit
     (outside 180 nm - 1 mm, or t_s <= 0 / NaN).
     """
+    if np.ndim(wavelength_nm) == 0 and np.ndim(t_s) == 0:
+        return _mpe_j_m2_one(float(_f(wavelength_nm)), float(_f(t_s)))
+    return _mpe_j_m2(wavelength_nm, t_s)
+
+
+@lru_cache(maxsize=4096)
+def _mpe_j_m2_one(wavelength_nm: float, t_s: float):
+    """One limit, remembered: a bench asks for the same few (wavelength, duration) pairs
+    again and again (every segment, every pulse rule, every class estimate).  The key is
+    the two plain floats, which are all the limit depends on."""
+    return _mpe_j_m2(wavelength_nm, t_s)
+
+
+def _mpe_j_m2(wavelength_nm, t_s):
     lam, t = np.broadcast_arrays(_f(wavelength_nm), _f(t_s))
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         h = np.where(
@@ -219,6 +235,18 @@ def limiting_aperture_mm(wavelength_nm, t_s):
     (ANSI Z136.1-2014 Table 8 may use the time-dependent aperture in the ultraviolet too;
     not modelled.)  NaN outside 180 nm - 1 mm.
     """
+    if np.ndim(wavelength_nm) == 0 and np.ndim(t_s) == 0:
+        return _aperture_one(float(_f(wavelength_nm)), float(_f(t_s)))
+    return _aperture_mm(wavelength_nm, t_s)
+
+
+@lru_cache(maxsize=4096)
+def _aperture_one(wavelength_nm: float, t_s: float):
+    """One aperture, remembered on the two plain floats it depends on (as ``_mpe_j_m2_one``)."""
+    return _aperture_mm(wavelength_nm, t_s)
+
+
+def _aperture_mm(wavelength_nm, t_s):
     lam, t = np.broadcast_arrays(_f(wavelength_nm), _f(t_s))
     with np.errstate(invalid="ignore"):
         ir = np.where(t < 0.35, 1.0, np.where(t < 10.0, 1.5 * np.abs(t) ** 0.375, 3.5))

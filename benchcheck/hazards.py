@@ -18,6 +18,7 @@ wavelength) the segment says why in ``problem``; it is never dropped.
 from __future__ import annotations
 
 import math
+from bisect import bisect_left, bisect_right
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -228,21 +229,44 @@ def _tail_energy(layout, b, wavelength_nm):
 
 def _smallest_radius(profile: dict, s0: float, s1: float) -> float | None:
     """Smallest 1/e^2 radius (mm, either plane) between path coordinates s0 and s1."""
-    best = None
+    return _smallest_radii(profile, [(s0, s1)])[0]
+
+
+def _smallest_radii(profile: dict, spans) -> list[float | None]:
+    """``_smallest_radius`` of each (s0, s1) span of one path, with one radius look-up per
+    plane for all of them (a path's legs share its pieces; the radius at a point does not
+    depend on the other points asked)."""
+    best: list[float | None] = [None] * len(spans)
+    if not spans:
+        return best
     for plane in PLANES:
         pieces = profile.get(plane) or []
         if not pieces:
-            return None          # a plane without a mode: size unknown
-        s = list(np.linspace(s0, s1, _SAMPLES))
-        for p in pieces:         # the waists inside the stretch, exactly
+            return [None] * len(spans)    # a plane without a mode: size unknown
+        waists = []
+        for p in pieces:                  # the waists inside each stretch, exactly
             z = float(gauss.waist_offset(p.q0)) / p.k if p.k > 0 else -1.0
-            if 0.0 <= z <= p.length and s0 <= p.s0 + z <= s1:
-                s.append(p.s0 + z)
-        w = radius_along(pieces, np.asarray(s))
-        if np.all(np.isnan(w)):
-            continue
-        m = float(np.nanmin(w))
-        best = m if best is None else min(best, m)
+            if 0.0 <= z <= p.length:
+                waists.append(p.s0 + z)
+        waists.sort()                     # found by bisection: linear time on long paths
+        parts, ends, n = [], [], 0
+        for s0, s1 in spans:
+            parts.append(np.linspace(s0, s1, _SAMPLES))
+            n += _SAMPLES
+            inside = waists[bisect_left(waists, s0):bisect_right(waists, s1)]
+            if inside:
+                parts.append(np.asarray(inside, dtype=float))
+                n += len(inside)
+            ends.append(n)
+        w_all = radius_along(pieces, np.concatenate(parts))
+        start = 0
+        for i, end in enumerate(ends):
+            w = w_all[start:end]
+            start = end
+            if np.all(np.isnan(w)):
+                continue
+            m = float(np.nanmin(w))
+            best[i] = m if best[i] is None else min(best[i], m)
     return best
 
 
@@ -307,13 +331,13 @@ def segments(solution) -> list[Segment]:
         if path.role == "ring":
             pairs.append((len(hits) - 1, 0))
         total = sum(path.segments)
-        for i, j in pairs:
+        radii = _smallest_radii(res.profile, [(hits[i].s, hits[j].s if j > i else total) for i, j in pairs])
+        for (i, j), w_mm in zip(pairs, radii):
             a, b = hits[i], hits[j]
-            s1 = b.s if j > i else total
             seg = Segment(CAVITY_LEG, f"{cid}:{a.optic}-{b.optic}", cid, (cid,), path.wavelength_nm,
                           _xy(a.point), _xy(b.point), res.circulating_w,
                           None if res.circulating_w is None or rep_hz is None else res.circulating_w / rep_hz,
-                          pulse_s, rep_hz, _smallest_radius(res.profile, a.s, s1),
+                          pulse_s, rep_hz, w_mm,
                           directions=2 if path.role == "linear" else 1)
             _cover(seg, cover)
             out.append(seg)
@@ -322,13 +346,16 @@ def segments(solution) -> list[Segment]:
         pulse_s, rep_hz = _pulse_of(layout, res.origin)
         pts = [_xy(path.start)] + [_xy(h.point) for h in path.hits]
         s_at = [0.0] + [h.s for h in path.hits]
+        spans = [(s_at[k], s_at[k + 1]) for k in range(len(path.hits))]
+        if path.tail is not None:
+            spans.append((path.hits[-1].s, path.hits[-1].s + path.tail.length))
+        radii = _smallest_radii(res.profile, spans)
         for k in range(len(path.hits)):
             a_name = res.origin if k == 0 else path.hits[k - 1].optic
             seg = Segment(BEAM, f"{bid}:{a_name}-{path.hits[k].optic}", bid, (bid,), path.wavelength_nm,
                           # what travels into hit k is what arrives there (solve gives it per hit)
                           pts[k], pts[k + 1], res.hits[k].power_w, res.hits[k].energy_j, pulse_s, rep_hz,
-                          _smallest_radius(res.profile, s_at[k], s_at[k + 1]),
-                          end_kind="optic", end_id=path.hits[k].optic)
+                          radii[k], end_kind="optic", end_id=path.hits[k].optic)
             _cover(seg, cover)
             out.append(seg)
         if path.tail is not None:
@@ -337,7 +364,7 @@ def segments(solution) -> list[Segment]:
             seg = Segment(EXTENSION, f"{bid}:{last.optic}-onward", bid, (bid, last.optic), path.wavelength_nm,
                           _xy(last.point), _xy(end.point), tail_power(layout, res, path.wavelength_nm),
                           _tail_energy(layout, res, path.wavelength_nm), pulse_s, rep_hz,
-                          _smallest_radius(res.profile, last.s, last.s + end.length),
+                          radii[-1],
                           end_kind=end.kind, end_id=end.id, end_zone_kind=end.zone_kind)
             beams = []
             for plane in PLANES:
