@@ -348,6 +348,8 @@ def od_required(exposure, mpe):
     Same units both sides.  An MPE that is NaN (no built-in limit) or not positive is an
     error, never a silent OD 0.
     """
+    if np.ndim(exposure) == 0 and np.ndim(mpe) == 0:
+        return _od_one(np.float64(_f(exposure)), np.float64(_f(mpe)))
     e, m = np.broadcast_arrays(_f(exposure), _f(mpe))
     if np.any(~np.isfinite(m) | (m <= 0)):
         raise ValueError("od_required: the MPE is NaN or not positive (no limit for this "
@@ -359,6 +361,20 @@ def od_required(exposure, mpe):
         # a hair below an exact power of ten is not one more decade
         od = np.ceil(np.log10(np.where(ratio > 1.0, ratio, 1.0)) - 1e-12)
     return np.where(ratio > 1.0, np.maximum(od, 1.0), 0.0).astype(int)[()]
+
+
+def _od_one(e: np.float64, m: np.float64):
+    """``od_required`` of one segment: the same steps on numpy scalars, without the array
+    machinery (the hazard assessment asks once per segment)."""
+    if not (np.isfinite(m) and m > 0):
+        raise ValueError("od_required: the MPE is NaN or not positive (no limit for this "
+                         "wavelength); configure an MPE for it")
+    if np.isnan(e) or e < 0:
+        raise ValueError("od_required: the exposure is NaN or negative")
+    ratio = e / m
+    if not ratio > 1.0:
+        return np.int64(0)
+    return np.maximum(np.ceil(np.log10(ratio) - 1e-12), 1.0).astype(int)
 
 
 def nohd_mm(power_w, w0_mm, waist_at_mm, rayleigh_mm, mpe_w_m2, aperture_mm):

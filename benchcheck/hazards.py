@@ -22,6 +22,7 @@ from bisect import bisect_left, bisect_right
 from dataclasses import dataclass, field
 
 import numpy as np
+import shapely
 from shapely.geometry import LineString, Polygon
 from shapely.ops import substring, unary_union
 
@@ -235,10 +236,13 @@ def _smallest_radius(profile: dict, s0: float, s1: float) -> float | None:
 def _smallest_radii(profile: dict, spans) -> list[float | None]:
     """``_smallest_radius`` of each (s0, s1) span of one path, with one radius look-up per
     plane for all of them (a path's legs share its pieces; the radius at a point does not
-    depend on the other points asked)."""
-    best: list[float | None] = [None] * len(spans)
+    depend on the other points asked).  The samples are those of ``np.linspace(s0, s1,
+    _SAMPLES)`` span by span (``_spaced``) plus the waists inside each span."""
     if not spans:
-        return best
+        return []
+    lo = np.array([float(a) for a, _ in spans])
+    hi = np.array([float(b) for _, b in spans])
+    best = np.full(len(spans), np.nan)
     for plane in PLANES:
         pieces = profile.get(plane) or []
         if not pieces:
@@ -248,26 +252,32 @@ def _smallest_radii(profile: dict, spans) -> list[float | None]:
             z = float(gauss.waist_offset(p.q0)) / p.k if p.k > 0 else -1.0
             if 0.0 <= z <= p.length:
                 waists.append(p.s0 + z)
-        waists.sort()                     # found by bisection: linear time on long paths
-        parts, ends, n = [], [], 0
-        for s0, s1 in spans:
-            parts.append(np.linspace(s0, s1, _SAMPLES))
-            n += _SAMPLES
-            inside = waists[bisect_left(waists, s0):bisect_right(waists, s1)]
-            if inside:
-                parts.append(np.asarray(inside, dtype=float))
-                n += len(inside)
-            ends.append(n)
-        w_all = radius_along(pieces, np.concatenate(parts))
-        start = 0
-        for i, end in enumerate(ends):
-            w = w_all[start:end]
-            start = end
-            if np.all(np.isnan(w)):
-                continue
-            m = float(np.nanmin(w))
-            best[i] = m if best[i] is None else min(best[i], m)
-    return best
+        waists = np.sort(np.asarray(waists, dtype=float))
+        # which waists fall in which span (by bisection: linear time on long paths)
+        first = np.searchsorted(waists, lo, side="left")
+        count = np.maximum(np.searchsorted(waists, hi, side="right") - first, 0)
+        owner = np.repeat(np.arange(len(spans)), count)
+        at = np.repeat(first - (np.cumsum(count) - count), count) + np.arange(int(count.sum()))
+        samples = _spaced(lo, hi)
+        w = radius_along(pieces, np.concatenate([samples.ravel(), waists[at]]))
+        m = np.fmin.reduce(w[:samples.size].reshape(samples.shape), axis=1)   # NaN only where all are
+        np.fmin.at(m, owner, w[samples.size:])
+        best = np.fmin(best, m)
+    return [None if math.isnan(v) else v for v in best.tolist()]
+
+
+def _spaced(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Row i is ``np.linspace(lo[i], hi[i], _SAMPLES)`` to the last bit (the same
+    arithmetic, step by step: k * step + start, the end set to stop; where the step
+    underflows to 0, k / div * delta + start), for many spans at once."""
+    div = _SAMPLES - 1
+    k = np.arange(_SAMPLES, dtype=float)
+    delta = hi - lo
+    step = delta / div
+    y = np.where((step == 0)[:, None], (k / div)[None, :] * delta[:, None], k[None, :] * step[:, None])
+    y += lo[:, None]
+    y[:, -1] = hi
+    return y
 
 
 def _piece_at(pieces, s: float, arriving: bool):
@@ -339,7 +349,6 @@ def segments(solution) -> list[Segment]:
                           None if res.circulating_w is None or rep_hz is None else res.circulating_w / rep_hz,
                           pulse_s, rep_hz, w_mm,
                           directions=2 if path.role == "linear" else 1)
-            _cover(seg, cover)
             out.append(seg)
     for bid, path in traced.beams.items():
         res = solution.beams[bid]
@@ -356,7 +365,6 @@ def segments(solution) -> list[Segment]:
                           # what travels into hit k is what arrives there (solve gives it per hit)
                           pts[k], pts[k + 1], res.hits[k].power_w, res.hits[k].energy_j, pulse_s, rep_hz,
                           radii[k], end_kind="optic", end_id=path.hits[k].optic)
-            _cover(seg, cover)
             out.append(seg)
         if path.tail is not None:
             last = path.hits[-1]
@@ -372,14 +380,14 @@ def segments(solution) -> list[Segment]:
                 if g is not None:
                     beams.append(g)
             seg.beam = tuple(beams) if len(beams) == len(PLANES) else ()
-            _cover(seg, cover)
             out.append(seg)
     for r in solution.strays:
-        out.append(_stray_segment(solution, r, cover))
+        out.append(_stray_segment(solution, r))
+    _cover(out, cover)
     return out
 
 
-def _stray_segment(solution, r, cover) -> Segment:
+def _stray_segment(solution, r) -> Segment:
     """A leak or secondary beam along the polyline it follows (it may pass optics inside
     their clear aperture), with its power where it starts."""
     layout, traced = solution.layout, solution.trace
@@ -430,7 +438,6 @@ def _stray_segment(solution, r, cover) -> Segment:
                          f"on \"{st.optic}\"")
     if st.optic in layout.optics and layout.optics[st.optic].roc is not None and st.kind == "leak":
         seg.notes.append(f"the lens of \"{st.optic}\"'s curved substrate is not applied to this leak")
-    _cover(seg, cover)
     return seg
 
 
@@ -450,11 +457,32 @@ def _arrives_backwards(path, st) -> bool:
     return False
 
 
-def _cover(seg: Segment, cover) -> None:
-    """Whether the enclosures hold the segment, and how much of it (mm) they leave open."""
-    line = _line(seg.polyline)
-    seg.inside_enclosure = cover is not None and cover.covers(line)
-    seg.open_mm = float(line.length if cover is None else line.difference(cover).length)
+def _cover(segs: list[Segment], cover) -> None:
+    """Whether the enclosures hold each segment, and how much of it (mm) they leave open:
+    the geometry of all segments made and tested in one vectorised shapely call each."""
+    if not segs:
+        return
+    lines = np.empty(len(segs), dtype=object)
+    plain = []
+    for k, seg in enumerate(segs):
+        pts = seg.polyline
+        if len(pts) > 1 and tuple(map(float, pts[0])) != tuple(map(float, pts[-1])):
+            plain.append(k)
+        else:
+            lines[k] = _line(pts)          # a point: a segment of no length
+    if plain:
+        counts = [len(segs[k].polyline) for k in plain]
+        coords = np.array([tuple(map(float, p)) for k in plain for p in segs[k].polyline], dtype=float)
+        lines[plain] = shapely.linestrings(coords, indices=np.repeat(np.arange(len(plain)), counts))
+    if cover is None:
+        inside = np.zeros(len(segs), dtype=bool)
+        open_mm = shapely.length(lines)
+    else:
+        inside = shapely.covers(cover, lines)
+        open_mm = shapely.length(shapely.difference(lines, cover))
+    for seg, held, length in zip(segs, inside.tolist(), open_mm.tolist()):
+        seg.inside_enclosure = bool(held)
+        seg.open_mm = float(length)
 
 
 def _xy(p) -> tuple[float, float]:

@@ -327,6 +327,26 @@ def test_od_required_edges_and_bad_input():
         ex.od_required(1.0, ex.mpe_w_m2(2e6, 10.0))   # no built-in limit: never OD 0
 
 
+
+def test_od_required_one_segment_at_a_time_agrees_with_arrays():
+    """One exposure and one MPE take a shorter path than arrays (once per segment): it
+    must give the array's answer everywhere, powers of ten and a hair either side
+    included, and refuse the same bad input (definition as above, common practice)."""
+    ratios = [0.0, 0.5, 1.0, 1.0 + 1e-15, 1.0 + 1e-9, 9.999999999999, 10.0, 10.0 * (1 + 1e-15), 10.5, 99.9,
+              100.0, 1e3, 1e3 * (1 - 1e-13), 1e6, 3.7e11, 1e300]
+    for mpe in (1e-3, 0.7, 1.0, 25.456, 5e4):
+        exposures = np.array([r * mpe for r in ratios])
+        arrays = ex.od_required(exposures, mpe)
+        for e, od in zip(exposures, arrays):
+            one = ex.od_required(float(e), mpe)
+            assert one == od and type(one) is np.int64, (e, mpe)
+    for e, m in ((1.0, math.nan), (1.0, 0.0), (1.0, -2.0), (1.0, math.inf), (math.nan, 1.0), (-1.0, 1.0)):
+        with pytest.raises(ValueError, match="od_required"):
+            ex.od_required(e, m)
+        with pytest.raises(ValueError, match="od_required"):
+            ex.od_required(np.array([e]), m)
+
+
 # ---------------------------------------------------------------- hazard distance
 
 

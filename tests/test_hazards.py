@@ -473,3 +473,21 @@ def test_an_upper_bound_power_stays_marked_in_the_hazard_figures(tmp_path, capsy
     segs = {s["id"]: s for s in json.loads(capsys.readouterr().out)["segments"]}
     assert segs["enh/IC"]["power_is_upper_bound"] is True         # the cavity's reflection: at most
     assert segs["enh/M2"]["power_is_upper_bound"] is False
+
+
+def test_the_samples_along_many_spans_are_numpys_linspace_to_the_last_bit():
+    """The smallest radius of a segment is taken over np.linspace(s0, s1, 33) plus its
+    waists; all the segments of a path are sampled at once, so each row must be numpy's
+    own linspace exactly (numpy's result, compared bit for bit), zero-length and
+    subnormal spans included."""
+    import numpy as np
+
+    from benchcheck.hazards import _SAMPLES, _spaced
+
+    rng = np.random.default_rng(9)
+    lo = np.concatenate([rng.uniform(-1e3, 1e4, 200), [0.0, 5.0, 1e-320, 100.0, 3.0, -2.5]])
+    hi = np.concatenate([lo[:200] + rng.uniform(0.0, 2e3, 200), [0.0, 5.0, 3e-320, 100.0, 1.0, 7.25]])
+    rows = _spaced(lo, hi)
+    for i in range(len(lo)):
+        expected = np.linspace(lo[i], hi[i], _SAMPLES)
+        assert rows[i].tobytes() == expected.tobytes(), (lo[i], hi[i])
