@@ -424,6 +424,24 @@ def class_estimate(wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j=None,
     conservative side for a diverging beam).  Never a replacement for the manufacturer's
     classification; see detail["simplified"] and detail["caution"].
     """
+    args = (wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j, pulse_s, rep_hz, w_mm_at_2000mm)
+    if all(a is None or np.ndim(a) == 0 for a in args):
+        cls, detail = _class_one(*(None if a is None else float(_f(a)) for a in args))
+        return cls, dict(detail)
+    return _class_estimate(*args)
+
+
+@lru_cache(maxsize=1024)
+def _class_one(wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j, pulse_s, rep_hz, w_mm_at_2000mm):
+    """One source's estimate, remembered on every argument as a plain float (None kept
+    apart from NaN: an absent pulse energy means CW).  The caller gets its own copy of the
+    detail dict; its values are immutable numpy scalars and strings."""
+    return _class_estimate(wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j, pulse_s, rep_hz,
+                           w_mm_at_2000mm)
+
+
+def _class_estimate(wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j=None,
+                    pulse_s=None, rep_hz=None, w_mm_at_2000mm=None):
     lam = _f(wavelength_nm)
     w100 = _f(w_mm_at_100mm)
     w2000 = w100 if w_mm_at_2000mm is None else _f(w_mm_at_2000mm)

@@ -247,12 +247,7 @@ def _smallest_radii(profile: dict, spans) -> list[float | None]:
         pieces = profile.get(plane) or []
         if not pieces:
             return [None] * len(spans)    # a plane without a mode: size unknown
-        waists = []
-        for p in pieces:                  # the waists inside each stretch, exactly
-            z = float(gauss.waist_offset(p.q0)) / p.k if p.k > 0 else -1.0
-            if 0.0 <= z <= p.length:
-                waists.append(p.s0 + z)
-        waists = np.sort(np.asarray(waists, dtype=float))
+        waists = np.sort(_waists(pieces))
         # which waists fall in which span (by bisection: linear time on long paths)
         first = np.searchsorted(waists, lo, side="left")
         count = np.maximum(np.searchsorted(waists, hi, side="right") - first, 0)
@@ -264,6 +259,18 @@ def _smallest_radii(profile: dict, spans) -> list[float | None]:
         np.fmin.at(m, owner, w[samples.size:])
         best = np.fmin(best, m)
     return [None if math.isnan(v) else v for v in best.tolist()]
+
+
+def _waists(pieces) -> np.ndarray:
+    """Path coordinates of the waists inside the pieces (z = -Re q^ / k into a piece of
+    reduced length factor k > 0, kept where 0 <= z <= its length), in piece order."""
+    q0 = np.array([p.q0 for p in pieces], dtype=complex)
+    k = np.array([p.k for p in pieces], dtype=float)
+    length = np.array([p.length for p in pieces], dtype=float)
+    s0 = np.array([p.s0 for p in pieces], dtype=float)
+    z = np.divide(-q0.real, k, out=np.full(len(pieces), -1.0), where=k > 0)
+    inside = (z >= 0.0) & (z <= length)
+    return (s0 + z)[inside]
 
 
 def _spaced(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:

@@ -471,3 +471,36 @@ def test_class_estimate_bad_input():
         ex.class_estimate(532.0, None, 1.0)
     with pytest.raises(ValueError, match="pulse_s"):
         ex.class_estimate(532.0, None, 1.0, pulse_energy_j=1e-3, rep_hz=10.0)
+    # asked twice (the second answer would come from the memo), the error is the same
+    for _ in range(2):
+        with pytest.raises(ValueError, match="power_w"):
+            ex.class_estimate(532.0, math.nan, 1.0)
+
+
+def test_class_estimate_of_one_source_is_remembered_exactly():
+    """One source's estimate comes from a memo keyed on every argument: it must be what
+    the uncached estimate (``_class_estimate``) gives, detail for detail, for CW and
+    pulsed sources; a caller changing its detail must not change the next answer; and an
+    absent pulse energy (CW) is not the same question as a NaN one."""
+    def same(a, b):
+        if isinstance(a, (str, type(None))) or isinstance(b, (str, type(None))):
+            return a == b
+        return bool(np.all((np.asarray(a) == np.asarray(b)) | (np.isnan(np.asarray(a, dtype=float))
+                                                               & np.isnan(np.asarray(b, dtype=float)))))
+
+    cases = [(532.0, 1e-4, 1.0, None, None, None, None), (532.0, 5e-3, 0.5, None, None, None, None),
+             (1064.0, 2.0, 0.8, None, None, None, 3.0), (1064.0, 0.0, 0.8, 1e-3, 1e-8, 1e3, None),
+             (355.0, 0.01, 0.2, 1e-6, 5e-9, None, None), (1550.0, 0.3, 2.0, None, None, None, None),
+             (800.0, math.nan, 0.3, 2e-9, 1e-13, 8e7, None), (2e6, 1.0, 1.0, None, None, None, None)]
+    for _ in range(2):
+        for wl, p, w100, e, tp, rep, w2000 in cases:
+            cls, detail = ex.class_estimate(wl, p, w100, pulse_energy_j=e, pulse_s=tp, rep_hz=rep, w_mm_at_2000mm=w2000)
+            cls0, detail0 = ex._class_estimate(wl, p, w100, e, tp, rep, w2000)
+            assert cls == cls0 and detail.keys() == detail0.keys(), (wl, p)
+            for key in detail:
+                assert same(detail[key], detail0[key]), (wl, p, key)
+            detail["fraction_condition3"] = "changed by a caller"
+    cls, detail = ex.class_estimate(1064.0, 2.0, 0.8)
+    assert detail["fraction_condition3"] != "changed by a caller"
+    with pytest.raises(ValueError, match="pulse_s"):
+        ex.class_estimate(1064.0, 2.0, 0.8, pulse_energy_j=math.nan)   # NaN energy: pulsed, unlike None
