@@ -288,17 +288,55 @@ def _spaced(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
 
 
 def _piece_at(pieces, s: float, arriving: bool):
-    """The free-propagation piece that arrives at (``arriving``) or leaves from ``s``."""
-    best = None
-    for p in pieces:
-        edge = p.s0 + p.length if arriving else p.s0
-        inside = p.s0 - 1e-6 <= s <= p.s0 + p.length + 1e-6
-        if not inside:
-            continue
-        d = abs(edge - s)
-        if best is None or d < best[0]:
-            best = (d, p)
-    return None if best is None else best[1]
+    """The free-propagation piece that arrives at (``arriving``) or leaves from ``s``: of the
+    pieces that hold ``s`` (within 1e-6 mm), the one whose end (or start) is nearest, the
+    first in the list on a tie.  Pieces in path order are searched by bisection (a long
+    path has thousands of pieces and a stray for every few of them)."""
+    cols = _piece_columns(pieces)
+    if cols is None or not math.isfinite(s):
+        best = None
+        for p in pieces:
+            edge = p.s0 + p.length if arriving else p.s0
+            inside = p.s0 - 1e-6 <= s <= p.s0 + p.length + 1e-6
+            if not inside:
+                continue
+            d = abs(edge - s)
+            if best is None or d < best[0]:
+                best = (d, p)
+        return None if best is None else best[1]
+    s0, end, lower, upper = cols
+    # holding s is lower <= s <= upper; both columns are non-decreasing, so the pieces that
+    # hold s are one run of the list
+    i, j = int(np.searchsorted(upper, s, side="left")), int(np.searchsorted(lower, s, side="right"))
+    if i >= j:
+        return None
+    d = np.abs((end if arriving else s0)[i:j] - s)
+    return pieces[i + int(np.argmin(d))]
+
+
+#: The columns of a few recent piece lists (see ``_piece_at``), by list identity.
+_COLUMNS: dict[int, tuple] = {}
+_COLUMNS_SIZE = 16
+
+
+def _piece_columns(pieces):
+    """(s0, end, s0 - 1e-6, end + 1e-6) of pieces in path order, or None where the starts
+    or ends go backwards (then every piece is looked at)."""
+    if not pieces:
+        return None
+    hit = _COLUMNS.get(id(pieces))
+    if hit is not None and hit[0] is pieces and hit[1] == len(pieces) and hit[2] is pieces[0] \
+            and hit[3] is pieces[-1]:
+        return hit[4]
+    s0 = np.array([p.s0 for p in pieces], dtype=float)
+    end = s0 + np.array([p.length for p in pieces], dtype=float)
+    lower, upper = s0 - 1e-6, end + 1e-6
+    cols = (s0, end, lower, upper) if bool(np.all(np.diff(lower) >= 0.0) and np.all(np.diff(upper) >= 0.0)) \
+        else None
+    if len(_COLUMNS) >= _COLUMNS_SIZE:
+        _COLUMNS.pop(next(iter(_COLUMNS)))
+    _COLUMNS[id(pieces)] = (pieces, len(pieces), pieces[0], pieces[-1], cols)
+    return cols
 
 
 def _gaussian(piece, s: float, reverse: bool = False) -> Gaussian | None:

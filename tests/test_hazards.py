@@ -491,3 +491,39 @@ def test_the_samples_along_many_spans_are_numpys_linspace_to_the_last_bit():
     for i in range(len(lo)):
         expected = np.linspace(lo[i], hi[i], _SAMPLES)
         assert rows[i].tobytes() == expected.tobytes(), (lo[i], hi[i])
+
+
+def test_the_piece_at_a_point_is_found_by_bisection_as_by_looking_at_every_piece():
+    """A stray's beam starts from the piece that holds its start (within 1e-6 mm), the one
+    whose end (arriving) or start (leaving) is nearest, the first on a tie.  Pieces in path
+    order are bisected; every answer must be the one a look at every piece gives (written
+    out here), for touching pieces, zero-length pieces, gaps and points just outside."""
+    import numpy as np
+
+    from benchcheck.hazards import _piece_at
+    from benchcheck.solve import Piece
+
+    def every(pieces, s, arriving):
+        best = None
+        for p in pieces:
+            if p.s0 - 1e-6 <= s <= p.s0 + p.length + 1e-6:
+                d = abs((p.s0 + p.length if arriving else p.s0) - s)
+                if best is None or d < best[0]:
+                    best = (d, p)
+        return None if best is None else best[1]
+
+    rng = np.random.default_rng(3)
+    for trial in range(60):
+        s0, pieces = 0.0, []
+        for _ in range(int(rng.integers(1, 40))):
+            length = float(rng.choice([0.0, 1e-7, 2.5, 50.0, float(rng.uniform(0, 100))]))
+            pieces.append(Piece(s0, length, 1.0, 1.0, complex(-1.0, 5.0), 1e-3, 1.0))
+            s0 += length + float(rng.choice([0.0, 0.0, 5e-7, 3.0]))
+        if trial % 10 == 9:
+            pieces.reverse()        # out of path order: every piece is looked at
+        probes = [p.s0 + d for p in pieces for d in (-2e-6, -1e-6, 0.0, 5e-7, 1e-6, 2e-6)]
+        probes += [p.s0 + p.length + d for p in pieces for d in (-1e-6, 0.0, 1e-6, 3e-6)]
+        probes += list(rng.uniform(-5.0, s0 + 5.0, 30)) + [float("nan")]
+        for s in probes:
+            for arriving in (True, False):
+                assert _piece_at(pieces, float(s), arriving) is every(pieces, float(s), arriving), (trial, s)
