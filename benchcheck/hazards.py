@@ -243,6 +243,7 @@ def _smallest_radii(profile: dict, spans) -> list[float | None]:
     lo = np.array([float(a) for a, _ in spans])
     hi = np.array([float(b) for _, b in spans])
     best = np.full(len(spans), np.nan)
+    samples = _spaced(lo, hi)             # the same in both planes
     for plane in PLANES:
         pieces = profile.get(plane) or []
         if not pieces:
@@ -253,7 +254,6 @@ def _smallest_radii(profile: dict, spans) -> list[float | None]:
         count = np.maximum(np.searchsorted(waists, hi, side="right") - first, 0)
         owner = np.repeat(np.arange(len(spans)), count)
         at = np.repeat(first - (np.cumsum(count) - count), count) + np.arange(int(count.sum()))
-        samples = _spaced(lo, hi)
         w = radius_along(pieces, np.concatenate([samples.ravel(), waists[at]]))
         m = np.fmin.reduce(w[:samples.size].reshape(samples.shape), axis=1)   # NaN only where all are
         np.fmin.at(m, owner, w[samples.size:])

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 from shapely import STRtree
-from shapely.geometry import LineString, box
+from shapely.geometry import box
 
 #: a ray starting this close (mm) to an obstacle does not count as meeting it
 START_CLEARANCE = 1e-6
@@ -59,7 +59,7 @@ class Table:
         """First thing the ray from ``origin`` along unit ``direction`` meets."""
         o = np.asarray(origin, dtype=float)
         d = np.asarray(direction, dtype=float)
-        ray = LineString([tuple(o), tuple(o + d * self.reach)])
+        ray = shapely.linestrings(np.array([o, o + d * self.reach]))
         best = self._edge(o, d)
         if self.tree is not None:
             found = self.tree.query(ray, predicate="intersects")
