@@ -230,6 +230,18 @@ def _tail_energy(layout, b, wavelength_nm):
 
 def _smallest_radius(profile: dict, s0: float, s1: float) -> float | None:
     """Smallest 1/e^2 radius (mm, either plane) between path coordinates s0 and s1."""
+    if s0 == s1:
+        # every sample of an empty stretch (and any waist in it) is s0 itself: the radius
+        # there, in the smaller plane, is the smallest
+        best = None
+        for plane in PLANES:
+            pieces = profile.get(plane) or []
+            if not pieces:
+                return None
+            w = float(radius_along(pieces, np.array([float(s0)]))[0])
+            if not math.isnan(w):
+                best = w if best is None else min(best, w)
+        return best
     return _smallest_radii(profile, [(s0, s1)])[0]
 
 

@@ -527,3 +527,19 @@ def test_the_piece_at_a_point_is_found_by_bisection_as_by_looking_at_every_piece
         for s in probes:
             for arriving in (True, False):
                 assert _piece_at(pieces, float(s), arriving) is every(pieces, float(s), arriving), (trial, s)
+
+
+def test_the_radius_at_one_point_is_the_smallest_over_a_stretch_of_no_length():
+    """A source's class estimate takes its beam size 100 mm out (a stretch from 100 to 100
+    mm): that shortcut must give what the sampling of a stretch gives (33 samples, all at
+    that point, and any waist there), inside pieces, on their edges and outside them."""
+    from benchcheck import solve_file
+    from benchcheck.hazards import _smallest_radii, _smallest_radius
+
+    root = Path(__file__).resolve().parent.parent / "layouts"
+    for name in ("delivery-line.toml", "two-mirror.toml", "bowtie-enhancement.toml"):
+        solution = solve_file(root / name)
+        for res in list(solution.beams.values()) + list(solution.cavities.values()):
+            edges = [p.s0 for ps in res.profile.values() for p in ps]
+            for s in [0.0, 1e-9, 100.0, 250.5, 1e5, -3.0] + edges:
+                assert _smallest_radius(res.profile, s, s) == _smallest_radii(res.profile, [(s, s)])[0], (name, s)
