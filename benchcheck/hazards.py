@@ -18,7 +18,6 @@ wavelength) the segment says why in ``problem``; it is never dropped.
 from __future__ import annotations
 
 import math
-from bisect import bisect_left, bisect_right
 from dataclasses import dataclass, field
 
 import numpy as np
