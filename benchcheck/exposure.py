@@ -21,6 +21,8 @@ Units: wavelength nm, time s, lengths mm, radiant exposure J/m^2, irradiance W/m
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
 CAUTION = (
@@ -193,6 +195,20 @@ def mpe_j_m2(wavelength_nm, t_s):
     At the cornea, averaged over ``limiting_aperture_mm``; NaN where no built-in limit
     (outside 180 nm - 1 mm, or t_s <= 0 / NaN).
     """
+    if np.ndim(wavelength_nm) == 0 and np.ndim(t_s) == 0:
+        return _mpe_j_m2_one(float(_f(wavelength_nm)), float(_f(t_s)))
+    return _mpe_j_m2(wavelength_nm, t_s)
+
+
+@lru_cache(maxsize=4096)
+def _mpe_j_m2_one(wavelength_nm: float, t_s: float):
+    """One limit, remembered: a bench asks for the same few (wavelength, duration) pairs
+    again and again (every segment, every pulse rule, every class estimate).  The key is
+    the two plain floats, which are all the limit depends on."""
+    return _mpe_j_m2(wavelength_nm, t_s)
+
+
+def _mpe_j_m2(wavelength_nm, t_s):
     lam, t = np.broadcast_arrays(_f(wavelength_nm), _f(t_s))
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         h = np.where(
@@ -219,6 +235,18 @@ def limiting_aperture_mm(wavelength_nm, t_s):
     (ANSI Z136.1-2014 Table 8 may use the time-dependent aperture in the ultraviolet too;
     not modelled.)  NaN outside 180 nm - 1 mm.
     """
+    if np.ndim(wavelength_nm) == 0 and np.ndim(t_s) == 0:
+        return _aperture_one(float(_f(wavelength_nm)), float(_f(t_s)))
+    return _aperture_mm(wavelength_nm, t_s)
+
+
+@lru_cache(maxsize=4096)
+def _aperture_one(wavelength_nm: float, t_s: float):
+    """One aperture, remembered on the two plain floats it depends on (as ``_mpe_j_m2_one``)."""
+    return _aperture_mm(wavelength_nm, t_s)
+
+
+def _aperture_mm(wavelength_nm, t_s):
     lam, t = np.broadcast_arrays(_f(wavelength_nm), _f(t_s))
     with np.errstate(invalid="ignore"):
         ir = np.where(t < 0.35, 1.0, np.where(t < 10.0, 1.5 * np.abs(t) ** 0.375, 3.5))
@@ -320,6 +348,8 @@ def od_required(exposure, mpe):
     Same units both sides.  An MPE that is NaN (no built-in limit) or not positive is an
     error, never a silent OD 0.
     """
+    if np.ndim(exposure) == 0 and np.ndim(mpe) == 0:
+        return _od_one(np.float64(_f(exposure)), np.float64(_f(mpe)))
     e, m = np.broadcast_arrays(_f(exposure), _f(mpe))
     if np.any(~np.isfinite(m) | (m <= 0)):
         raise ValueError("od_required: the MPE is NaN or not positive (no limit for this "
@@ -331,6 +361,20 @@ def od_required(exposure, mpe):
         # a hair below an exact power of ten is not one more decade
         od = np.ceil(np.log10(np.where(ratio > 1.0, ratio, 1.0)) - 1e-12)
     return np.where(ratio > 1.0, np.maximum(od, 1.0), 0.0).astype(int)[()]
+
+
+def _od_one(e: np.float64, m: np.float64):
+    """``od_required`` of one segment: the same steps on numpy scalars, without the array
+    machinery (the hazard assessment asks once per segment)."""
+    if not (np.isfinite(m) and m > 0):
+        raise ValueError("od_required: the MPE is NaN or not positive (no limit for this "
+                         "wavelength); configure an MPE for it")
+    if np.isnan(e) or e < 0:
+        raise ValueError("od_required: the exposure is NaN or negative")
+    ratio = e / m
+    if not ratio > 1.0:
+        return np.int64(0)
+    return np.maximum(np.ceil(np.log10(ratio) - 1e-12), 1.0).astype(int)
 
 
 def nohd_mm(power_w, w0_mm, waist_at_mm, rayleigh_mm, mpe_w_m2, aperture_mm):
@@ -380,6 +424,24 @@ def class_estimate(wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j=None,
     conservative side for a diverging beam).  Never a replacement for the manufacturer's
     classification; see detail["simplified"] and detail["caution"].
     """
+    args = (wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j, pulse_s, rep_hz, w_mm_at_2000mm)
+    if all(a is None or np.ndim(a) == 0 for a in args):
+        cls, detail = _class_one(*(None if a is None else float(_f(a)) for a in args))
+        return cls, dict(detail)
+    return _class_estimate(*args)
+
+
+@lru_cache(maxsize=1024)
+def _class_one(wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j, pulse_s, rep_hz, w_mm_at_2000mm):
+    """One source's estimate, remembered on every argument as a plain float (None kept
+    apart from NaN: an absent pulse energy means CW).  The caller gets its own copy of the
+    detail dict; its values are immutable numpy scalars and strings."""
+    return _class_estimate(wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j, pulse_s, rep_hz,
+                           w_mm_at_2000mm)
+
+
+def _class_estimate(wavelength_nm, power_w, w_mm_at_100mm, pulse_energy_j=None,
+                    pulse_s=None, rep_hz=None, w_mm_at_2000mm=None):
     lam = _f(wavelength_nm)
     w100 = _f(w_mm_at_100mm)
     w2000 = w100 if w_mm_at_2000mm is None else _f(w_mm_at_2000mm)

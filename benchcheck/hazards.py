@@ -21,6 +21,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+import shapely
 from shapely.geometry import LineString, Polygon
 from shapely.ops import substring, unary_union
 
@@ -228,36 +229,125 @@ def _tail_energy(layout, b, wavelength_nm):
 
 def _smallest_radius(profile: dict, s0: float, s1: float) -> float | None:
     """Smallest 1/e^2 radius (mm, either plane) between path coordinates s0 and s1."""
-    best = None
+    if s0 == s1:
+        # every sample of an empty stretch (and any waist in it) is s0 itself: the radius
+        # there, in the smaller plane, is the smallest
+        best = None
+        for plane in PLANES:
+            pieces = profile.get(plane) or []
+            if not pieces:
+                return None
+            w = float(radius_along(pieces, np.array([float(s0)]))[0])
+            if not math.isnan(w):
+                best = w if best is None else min(best, w)
+        return best
+    return _smallest_radii(profile, [(s0, s1)])[0]
+
+
+def _smallest_radii(profile: dict, spans) -> list[float | None]:
+    """``_smallest_radius`` of each (s0, s1) span of one path, with one radius look-up per
+    plane for all of them (a path's legs share its pieces; the radius at a point does not
+    depend on the other points asked).  The samples are those of ``np.linspace(s0, s1,
+    _SAMPLES)`` span by span (``_spaced``) plus the waists inside each span."""
+    if not spans:
+        return []
+    lo = np.array([float(a) for a, _ in spans])
+    hi = np.array([float(b) for _, b in spans])
+    best = np.full(len(spans), np.nan)
+    samples = _spaced(lo, hi)             # the same in both planes
     for plane in PLANES:
         pieces = profile.get(plane) or []
         if not pieces:
-            return None          # a plane without a mode: size unknown
-        s = list(np.linspace(s0, s1, _SAMPLES))
-        for p in pieces:         # the waists inside the stretch, exactly
-            z = float(gauss.waist_offset(p.q0)) / p.k if p.k > 0 else -1.0
-            if 0.0 <= z <= p.length and s0 <= p.s0 + z <= s1:
-                s.append(p.s0 + z)
-        w = radius_along(pieces, np.asarray(s))
-        if np.all(np.isnan(w)):
-            continue
-        m = float(np.nanmin(w))
-        best = m if best is None else min(best, m)
-    return best
+            return [None] * len(spans)    # a plane without a mode: size unknown
+        waists = np.sort(_waists(pieces))
+        # which waists fall in which span (by bisection: linear time on long paths)
+        first = np.searchsorted(waists, lo, side="left")
+        count = np.maximum(np.searchsorted(waists, hi, side="right") - first, 0)
+        owner = np.repeat(np.arange(len(spans)), count)
+        at = np.repeat(first - (np.cumsum(count) - count), count) + np.arange(int(count.sum()))
+        w = radius_along(pieces, np.concatenate([samples.ravel(), waists[at]]))
+        m = np.fmin.reduce(w[:samples.size].reshape(samples.shape), axis=1)   # NaN only where all are
+        np.fmin.at(m, owner, w[samples.size:])
+        best = np.fmin(best, m)
+    return [None if math.isnan(v) else v for v in best.tolist()]
+
+
+def _waists(pieces) -> np.ndarray:
+    """Path coordinates of the waists inside the pieces (z = -Re q^ / k into a piece of
+    reduced length factor k > 0, kept where 0 <= z <= its length), in piece order."""
+    q0 = np.array([p.q0 for p in pieces], dtype=complex)
+    k = np.array([p.k for p in pieces], dtype=float)
+    length = np.array([p.length for p in pieces], dtype=float)
+    s0 = np.array([p.s0 for p in pieces], dtype=float)
+    z = np.divide(-q0.real, k, out=np.full(len(pieces), -1.0), where=k > 0)
+    inside = (z >= 0.0) & (z <= length)
+    return (s0 + z)[inside]
+
+
+def _spaced(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Row i is ``np.linspace(lo[i], hi[i], _SAMPLES)`` to the last bit (the same
+    arithmetic, step by step: k * step + start, the end set to stop; where the step
+    underflows to 0, k / div * delta + start), for many spans at once."""
+    div = _SAMPLES - 1
+    k = np.arange(_SAMPLES, dtype=float)
+    delta = hi - lo
+    step = delta / div
+    y = np.where((step == 0)[:, None], (k / div)[None, :] * delta[:, None], k[None, :] * step[:, None])
+    y += lo[:, None]
+    y[:, -1] = hi
+    return y
 
 
 def _piece_at(pieces, s: float, arriving: bool):
-    """The free-propagation piece that arrives at (``arriving``) or leaves from ``s``."""
-    best = None
-    for p in pieces:
-        edge = p.s0 + p.length if arriving else p.s0
-        inside = p.s0 - 1e-6 <= s <= p.s0 + p.length + 1e-6
-        if not inside:
-            continue
-        d = abs(edge - s)
-        if best is None or d < best[0]:
-            best = (d, p)
-    return None if best is None else best[1]
+    """The free-propagation piece that arrives at (``arriving``) or leaves from ``s``: of the
+    pieces that hold ``s`` (within 1e-6 mm), the one whose end (or start) is nearest, the
+    first in the list on a tie.  Pieces in path order are searched by bisection (a long
+    path has thousands of pieces and a stray for every few of them)."""
+    cols = _piece_columns(pieces)
+    if cols is None or not math.isfinite(s):
+        best = None
+        for p in pieces:
+            edge = p.s0 + p.length if arriving else p.s0
+            inside = p.s0 - 1e-6 <= s <= p.s0 + p.length + 1e-6
+            if not inside:
+                continue
+            d = abs(edge - s)
+            if best is None or d < best[0]:
+                best = (d, p)
+        return None if best is None else best[1]
+    s0, end, lower, upper = cols
+    # holding s is lower <= s <= upper; both columns are non-decreasing, so the pieces that
+    # hold s are one run of the list
+    i, j = int(np.searchsorted(upper, s, side="left")), int(np.searchsorted(lower, s, side="right"))
+    if i >= j:
+        return None
+    d = np.abs((end if arriving else s0)[i:j] - s)
+    return pieces[i + int(np.argmin(d))]
+
+
+#: The columns of a few recent piece lists (see ``_piece_at``), by list identity.
+_COLUMNS: dict[int, tuple] = {}
+_COLUMNS_SIZE = 16
+
+
+def _piece_columns(pieces):
+    """(s0, end, s0 - 1e-6, end + 1e-6) of pieces in path order, or None where the starts
+    or ends go backwards (then every piece is looked at)."""
+    if not pieces:
+        return None
+    hit = _COLUMNS.get(id(pieces))
+    if hit is not None and hit[0] is pieces and hit[1] == len(pieces) and hit[2] is pieces[0] \
+            and hit[3] is pieces[-1]:
+        return hit[4]
+    s0 = np.array([p.s0 for p in pieces], dtype=float)
+    end = s0 + np.array([p.length for p in pieces], dtype=float)
+    lower, upper = s0 - 1e-6, end + 1e-6
+    cols = (s0, end, lower, upper) if bool(np.all(np.diff(lower) >= 0.0) and np.all(np.diff(upper) >= 0.0)) \
+        else None
+    if len(_COLUMNS) >= _COLUMNS_SIZE:
+        _COLUMNS.pop(next(iter(_COLUMNS)))
+    _COLUMNS[id(pieces)] = (pieces, len(pieces), pieces[0], pieces[-1], cols)
+    return cols
 
 
 def _gaussian(piece, s: float, reverse: bool = False) -> Gaussian | None:
@@ -307,29 +397,30 @@ def segments(solution) -> list[Segment]:
         if path.role == "ring":
             pairs.append((len(hits) - 1, 0))
         total = sum(path.segments)
-        for i, j in pairs:
+        radii = _smallest_radii(res.profile, [(hits[i].s, hits[j].s if j > i else total) for i, j in pairs])
+        for (i, j), w_mm in zip(pairs, radii):
             a, b = hits[i], hits[j]
-            s1 = b.s if j > i else total
             seg = Segment(CAVITY_LEG, f"{cid}:{a.optic}-{b.optic}", cid, (cid,), path.wavelength_nm,
                           _xy(a.point), _xy(b.point), res.circulating_w,
                           None if res.circulating_w is None or rep_hz is None else res.circulating_w / rep_hz,
-                          pulse_s, rep_hz, _smallest_radius(res.profile, a.s, s1),
+                          pulse_s, rep_hz, w_mm,
                           directions=2 if path.role == "linear" else 1)
-            _cover(seg, cover)
             out.append(seg)
     for bid, path in traced.beams.items():
         res = solution.beams[bid]
         pulse_s, rep_hz = _pulse_of(layout, res.origin)
         pts = [_xy(path.start)] + [_xy(h.point) for h in path.hits]
         s_at = [0.0] + [h.s for h in path.hits]
+        spans = [(s_at[k], s_at[k + 1]) for k in range(len(path.hits))]
+        if path.tail is not None:
+            spans.append((path.hits[-1].s, path.hits[-1].s + path.tail.length))
+        radii = _smallest_radii(res.profile, spans)
         for k in range(len(path.hits)):
             a_name = res.origin if k == 0 else path.hits[k - 1].optic
             seg = Segment(BEAM, f"{bid}:{a_name}-{path.hits[k].optic}", bid, (bid,), path.wavelength_nm,
                           # what travels into hit k is what arrives there (solve gives it per hit)
                           pts[k], pts[k + 1], res.hits[k].power_w, res.hits[k].energy_j, pulse_s, rep_hz,
-                          _smallest_radius(res.profile, s_at[k], s_at[k + 1]),
-                          end_kind="optic", end_id=path.hits[k].optic)
-            _cover(seg, cover)
+                          radii[k], end_kind="optic", end_id=path.hits[k].optic)
             out.append(seg)
         if path.tail is not None:
             last = path.hits[-1]
@@ -337,7 +428,7 @@ def segments(solution) -> list[Segment]:
             seg = Segment(EXTENSION, f"{bid}:{last.optic}-onward", bid, (bid, last.optic), path.wavelength_nm,
                           _xy(last.point), _xy(end.point), tail_power(layout, res, path.wavelength_nm),
                           _tail_energy(layout, res, path.wavelength_nm), pulse_s, rep_hz,
-                          _smallest_radius(res.profile, last.s, last.s + end.length),
+                          radii[-1],
                           end_kind=end.kind, end_id=end.id, end_zone_kind=end.zone_kind)
             beams = []
             for plane in PLANES:
@@ -345,14 +436,14 @@ def segments(solution) -> list[Segment]:
                 if g is not None:
                     beams.append(g)
             seg.beam = tuple(beams) if len(beams) == len(PLANES) else ()
-            _cover(seg, cover)
             out.append(seg)
     for r in solution.strays:
-        out.append(_stray_segment(solution, r, cover))
+        out.append(_stray_segment(solution, r))
+    _cover(out, cover)
     return out
 
 
-def _stray_segment(solution, r, cover) -> Segment:
+def _stray_segment(solution, r) -> Segment:
     """A leak or secondary beam along the polyline it follows (it may pass optics inside
     their clear aperture), with its power where it starts."""
     layout, traced = solution.layout, solution.trace
@@ -403,7 +494,6 @@ def _stray_segment(solution, r, cover) -> Segment:
                          f"on \"{st.optic}\"")
     if st.optic in layout.optics and layout.optics[st.optic].roc is not None and st.kind == "leak":
         seg.notes.append(f"the lens of \"{st.optic}\"'s curved substrate is not applied to this leak")
-    _cover(seg, cover)
     return seg
 
 
@@ -423,11 +513,32 @@ def _arrives_backwards(path, st) -> bool:
     return False
 
 
-def _cover(seg: Segment, cover) -> None:
-    """Whether the enclosures hold the segment, and how much of it (mm) they leave open."""
-    line = _line(seg.polyline)
-    seg.inside_enclosure = cover is not None and cover.covers(line)
-    seg.open_mm = float(line.length if cover is None else line.difference(cover).length)
+def _cover(segs: list[Segment], cover) -> None:
+    """Whether the enclosures hold each segment, and how much of it (mm) they leave open:
+    the geometry of all segments made and tested in one vectorised shapely call each."""
+    if not segs:
+        return
+    lines = np.empty(len(segs), dtype=object)
+    plain = []
+    for k, seg in enumerate(segs):
+        pts = seg.polyline
+        if len(pts) > 1 and tuple(map(float, pts[0])) != tuple(map(float, pts[-1])):
+            plain.append(k)
+        else:
+            lines[k] = _line(pts)          # a point: a segment of no length
+    if plain:
+        counts = [len(segs[k].polyline) for k in plain]
+        coords = np.array([tuple(map(float, p)) for k in plain for p in segs[k].polyline], dtype=float)
+        lines[plain] = shapely.linestrings(coords, indices=np.repeat(np.arange(len(plain)), counts))
+    if cover is None:
+        inside = np.zeros(len(segs), dtype=bool)
+        open_mm = shapely.length(lines)
+    else:
+        inside = shapely.covers(cover, lines)
+        open_mm = shapely.length(shapely.difference(lines, cover))
+    for seg, held, length in zip(segs, inside.tolist(), open_mm.tolist()):
+        seg.inside_enclosure = bool(held)
+        seg.open_mm = float(length)
 
 
 def _xy(p) -> tuple[float, float]:

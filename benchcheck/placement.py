@@ -348,10 +348,13 @@ def mount_size(optic: Optic) -> tuple[float, float]:
 
 def _rect(center, along, width, depth) -> Polygon:
     """Rectangle with ``width`` across ``along`` and ``depth`` along it, centred at ``center``."""
-    a = np.asarray(along, dtype=float)
-    c = np.array([-a[1], a[0]])
+    ax, ay = (float(v) for v in np.asarray(along, dtype=float))
+    px, py = (float(v) for v in np.asarray(center, dtype=float))
+    cx, cy = -ay, ax
     hw, hd = width / 2.0, depth / 2.0
-    corners = [center + c * sx * hw + a * sy * hd for sx, sy in ((-1, -1), (1, -1), (1, 1), (-1, 1))]
+    # plain floats, in the order numpy would take them: center + c * sx * hw + a * sy * hd
+    corners = [(px + cx * sx * hw + ax * sy * hd, py + cy * sx * hw + ay * sy * hd)
+               for sx, sy in ((-1, -1), (1, -1), (1, 1), (-1, 1))]
     return Polygon(corners)
 
 

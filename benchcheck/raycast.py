@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 from shapely import STRtree
-from shapely.geometry import LineString, box
+from shapely.geometry import box
 
 #: a ray starting this close (mm) to an obstacle does not count as meeting it
 START_CLEARANCE = 1e-6
@@ -59,10 +59,11 @@ class Table:
         """First thing the ray from ``origin`` along unit ``direction`` meets."""
         o = np.asarray(origin, dtype=float)
         d = np.asarray(direction, dtype=float)
-        ray = LineString([tuple(o), tuple(o + d * self.reach)])
+        # a one-ray array: STRtree.query then skips its per-call reshaping of a lone geometry
+        ray = shapely.linestrings(np.array([[o, o + d * self.reach]]))
         best = self._edge(o, d)
         if self.tree is not None:
-            found = self.tree.query(ray, predicate="intersects")
+            found = self.tree.query(ray, predicate="intersects")[1]
             found = np.array([k for k in found if self.ids[int(k)] not in exclude], dtype=np.intp)
             if found.size:
                 # starting inside a mount (one's own neighbour) is not a hit on it
@@ -72,7 +73,7 @@ class Table:
                 k, dist = hit
                 best = RayEnd(FOOTPRINT, self.ids[k], tuple(o + d * dist), dist)
         if self.zone_tree is not None:
-            found = self.zone_tree.query(ray, predicate="intersects")
+            found = self.zone_tree.query(ray, predicate="intersects")[1]
             hit = self._zone_segments.first(found, o, d, best.length)
             if hit is not None:
                 k, dist = hit

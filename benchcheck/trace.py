@@ -13,7 +13,8 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from shapely.geometry import Point, Polygon, box
+import shapely
+from shapely.geometry import Polygon, box
 
 from .abcd import brewster_angle
 from .coatings import pass_factor, reflectivity_at, transmission
@@ -660,13 +661,20 @@ def _off_table(placement: Placement, issues) -> None:
     layout: Layout = placement.layout
     w, h = layout.bench.size
     table = box(0.0, 0.0, w, h)
-    for placed in placement.optics.values():
+    optics = list(placement.optics.values())
+    if not optics:
+        return
+    # every centre and every mount tested against the table in one call each
+    centres = shapely.points(np.array([np.asarray(p.point, dtype=float)[:2] for p in optics]))
+    centre_on = shapely.covers(table, centres).tolist()
+    mount_on = shapely.covers(table, np.array([p.footprint for p in optics], dtype=object)).tolist()
+    for placed, centre_ok, mount_ok in zip(optics, centre_on, mount_on):
         o = placed.optic
-        if not table.covers(Point(placed.point)) and o.kind != "obstacle":
+        if not centre_ok and o.kind != "obstacle":
             issues.append(GeometryIssue(
                 "off-table", f"\"{o.id}\" at ({placed.point[0]:.1f}, {placed.point[1]:.1f}) mm is off the "
                              f"{w:g} x {h:g} mm table", (o.id,), o.loc))
-        elif not table.covers(placed.footprint):
+        elif not mount_ok:
             over = placed.footprint.difference(table).area
             issues.append(GeometryIssue(
                 "off-table", f"the mount of \"{o.id}\" overhangs the table edge by {over:.0f} mm^2",

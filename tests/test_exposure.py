@@ -205,6 +205,35 @@ def test_broadcasting_over_arrays():
     assert n.shape == (2, 3)
 
 
+
+def test_one_limit_at_a_time_is_remembered_exactly():
+    """A scalar question is answered from a memo keyed on (wavelength, duration): every
+    answer must be what the same scalar gives computed afresh (``_mpe_j_m2``,
+    ``_aperture_mm``, bypassing the memo), NaN where that is NaN, and the memo must tell
+    apart every wavelength and every duration it is asked.  (A whole array may differ from
+    the scalar in the last bit, as numpy's vector loops round powers differently.)"""
+    lam = [150.0, 180.0, 266.0, 302.5, 310.0, 315.0, 355.0, 400.0, 450.0, 532.0, 600.0, 700.0, 808.0, 1050.0,
+           1064.0, 1150.0, 1180.0, 1200.0, 1400.0, 1550.0, 2000.0, 3000.0, 1e5, 1e6, 2e6, math.nan]
+    t = [-1.0, 0.0, 1e-14, 1e-13, 1e-11, 1e-9, 1e-7, 5e-6, 13e-6, 1e-3, 0.25, 0.35, 1.0, 10.0, 100.0, 1e3,
+         3e4, 1e5, math.inf, math.nan]
+
+    def same(a, b):
+        return a == b or (np.isnan(a) and np.isnan(b))
+
+    for _ in range(2):      # the second pass is answered from the memo
+        for wl in lam:
+            for tt in t:
+                one = ex.mpe_j_m2(wl, tt)
+                assert same(one, ex._mpe_j_m2(np.asarray(wl), np.asarray(tt))), (wl, tt)
+                assert same(ex.mpe_w_m2(wl, tt), ex._mpe_j_m2(np.asarray(wl), np.asarray(tt)) / tt), (wl, tt)
+                assert same(ex.limiting_aperture_mm(wl, tt), ex._aperture_mm(np.asarray(wl), np.asarray(tt)))
+    # different durations and wavelengths are different answers, not one remembered answer
+    assert len({float(ex.mpe_j_m2(1064.0, tt)) for tt in (1e-9, 1e-3, 0.25, 10.0)}) == 4
+    assert len({float(ex.mpe_j_m2(wl, 10.0)) for wl in (450.0, 808.0, 1064.0, 1550.0)}) == 4
+    # integers, 0-d arrays and numpy scalars are the same question as the float
+    assert ex.mpe_j_m2(1064, 10) == ex.mpe_j_m2(1064.0, 10.0) == ex.mpe_j_m2(np.asarray(1064.0), np.float32(10.0))
+    assert isinstance(ex.mpe_j_m2(1064.0, 10.0), float)
+
 # ---------------------------------------------------------------- repetitive pulses
 
 
@@ -296,6 +325,26 @@ def test_od_required_edges_and_bad_input():
     assert ex.od_required(1.0 + 1e-9, 1.0) == 1
     with pytest.raises(ValueError, match="configure an MPE"):
         ex.od_required(1.0, ex.mpe_w_m2(2e6, 10.0))   # no built-in limit: never OD 0
+
+
+
+def test_od_required_one_segment_at_a_time_agrees_with_arrays():
+    """One exposure and one MPE take a shorter path than arrays (once per segment): it
+    must give the array's answer everywhere, powers of ten and a hair either side
+    included, and refuse the same bad input (definition as above, common practice)."""
+    ratios = [0.0, 0.5, 1.0, 1.0 + 1e-15, 1.0 + 1e-9, 9.999999999999, 10.0, 10.0 * (1 + 1e-15), 10.5, 99.9,
+              100.0, 1e3, 1e3 * (1 - 1e-13), 1e6, 3.7e11, 1e300]
+    for mpe in (1e-3, 0.7, 1.0, 25.456, 5e4):
+        exposures = np.array([r * mpe for r in ratios])
+        arrays = ex.od_required(exposures, mpe)
+        for e, od in zip(exposures, arrays):
+            one = ex.od_required(float(e), mpe)
+            assert one == od and type(one) is np.int64, (e, mpe)
+    for e, m in ((1.0, math.nan), (1.0, 0.0), (1.0, -2.0), (1.0, math.inf), (math.nan, 1.0), (-1.0, 1.0)):
+        with pytest.raises(ValueError, match="od_required"):
+            ex.od_required(e, m)
+        with pytest.raises(ValueError, match="od_required"):
+            ex.od_required(np.array([e]), m)
 
 
 # ---------------------------------------------------------------- hazard distance
@@ -422,3 +471,36 @@ def test_class_estimate_bad_input():
         ex.class_estimate(532.0, None, 1.0)
     with pytest.raises(ValueError, match="pulse_s"):
         ex.class_estimate(532.0, None, 1.0, pulse_energy_j=1e-3, rep_hz=10.0)
+    # asked twice (the second answer would come from the memo), the error is the same
+    for _ in range(2):
+        with pytest.raises(ValueError, match="power_w"):
+            ex.class_estimate(532.0, math.nan, 1.0)
+
+
+def test_class_estimate_of_one_source_is_remembered_exactly():
+    """One source's estimate comes from a memo keyed on every argument: it must be what
+    the uncached estimate (``_class_estimate``) gives, detail for detail, for CW and
+    pulsed sources; a caller changing its detail must not change the next answer; and an
+    absent pulse energy (CW) is not the same question as a NaN one."""
+    def same(a, b):
+        if isinstance(a, (str, type(None))) or isinstance(b, (str, type(None))):
+            return a == b
+        return bool(np.all((np.asarray(a) == np.asarray(b)) | (np.isnan(np.asarray(a, dtype=float))
+                                                               & np.isnan(np.asarray(b, dtype=float)))))
+
+    cases = [(532.0, 1e-4, 1.0, None, None, None, None), (532.0, 5e-3, 0.5, None, None, None, None),
+             (1064.0, 2.0, 0.8, None, None, None, 3.0), (1064.0, 0.0, 0.8, 1e-3, 1e-8, 1e3, None),
+             (355.0, 0.01, 0.2, 1e-6, 5e-9, None, None), (1550.0, 0.3, 2.0, None, None, None, None),
+             (800.0, math.nan, 0.3, 2e-9, 1e-13, 8e7, None), (2e6, 1.0, 1.0, None, None, None, None)]
+    for _ in range(2):
+        for wl, p, w100, e, tp, rep, w2000 in cases:
+            cls, detail = ex.class_estimate(wl, p, w100, pulse_energy_j=e, pulse_s=tp, rep_hz=rep, w_mm_at_2000mm=w2000)
+            cls0, detail0 = ex._class_estimate(wl, p, w100, e, tp, rep, w2000)
+            assert cls == cls0 and detail.keys() == detail0.keys(), (wl, p)
+            for key in detail:
+                assert same(detail[key], detail0[key]), (wl, p, key)
+            detail["fraction_condition3"] = "changed by a caller"
+    cls, detail = ex.class_estimate(1064.0, 2.0, 0.8)
+    assert detail["fraction_condition3"] != "changed by a caller"
+    with pytest.raises(ValueError, match="pulse_s"):
+        ex.class_estimate(1064.0, 2.0, 0.8, pulse_energy_j=math.nan)   # NaN energy: pulsed, unlike None

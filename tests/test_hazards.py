@@ -483,3 +483,73 @@ def test_an_upper_bound_power_stays_marked_in_the_hazard_figures(tmp_path, capsy
     segs = {s["id"]: s for s in json.loads(capsys.readouterr().out)["segments"]}
     assert segs["enh/IC"]["power_is_upper_bound"] is True         # the cavity's reflection: at most
     assert segs["enh/M2"]["power_is_upper_bound"] is False
+
+
+def test_the_samples_along_many_spans_are_numpys_linspace_to_the_last_bit():
+    """The smallest radius of a segment is taken over np.linspace(s0, s1, 33) plus its
+    waists; all the segments of a path are sampled at once, so each row must be numpy's
+    own linspace exactly (numpy's result, compared bit for bit), zero-length and
+    subnormal spans included."""
+    import numpy as np
+
+    from benchcheck.hazards import _SAMPLES, _spaced
+
+    rng = np.random.default_rng(9)
+    lo = np.concatenate([rng.uniform(-1e3, 1e4, 200), [0.0, 5.0, 1e-320, 100.0, 3.0, -2.5]])
+    hi = np.concatenate([lo[:200] + rng.uniform(0.0, 2e3, 200), [0.0, 5.0, 3e-320, 100.0, 1.0, 7.25]])
+    rows = _spaced(lo, hi)
+    for i in range(len(lo)):
+        expected = np.linspace(lo[i], hi[i], _SAMPLES)
+        assert rows[i].tobytes() == expected.tobytes(), (lo[i], hi[i])
+
+
+def test_the_piece_at_a_point_is_found_by_bisection_as_by_looking_at_every_piece():
+    """A stray's beam starts from the piece that holds its start (within 1e-6 mm), the one
+    whose end (arriving) or start (leaving) is nearest, the first on a tie.  Pieces in path
+    order are bisected; every answer must be the one a look at every piece gives (written
+    out here), for touching pieces, zero-length pieces, gaps and points just outside."""
+    import numpy as np
+
+    from benchcheck.hazards import _piece_at
+    from benchcheck.solve import Piece
+
+    def every(pieces, s, arriving):
+        best = None
+        for p in pieces:
+            if p.s0 - 1e-6 <= s <= p.s0 + p.length + 1e-6:
+                d = abs((p.s0 + p.length if arriving else p.s0) - s)
+                if best is None or d < best[0]:
+                    best = (d, p)
+        return None if best is None else best[1]
+
+    rng = np.random.default_rng(3)
+    for trial in range(60):
+        s0, pieces = 0.0, []
+        for _ in range(int(rng.integers(1, 40))):
+            length = float(rng.choice([0.0, 1e-7, 2.5, 50.0, float(rng.uniform(0, 100))]))
+            pieces.append(Piece(s0, length, 1.0, 1.0, complex(-1.0, 5.0), 1e-3, 1.0))
+            s0 += length + float(rng.choice([0.0, 0.0, 5e-7, 3.0]))
+        if trial % 10 == 9:
+            pieces.reverse()        # out of path order: every piece is looked at
+        probes = [p.s0 + d for p in pieces for d in (-2e-6, -1e-6, 0.0, 5e-7, 1e-6, 2e-6)]
+        probes += [p.s0 + p.length + d for p in pieces for d in (-1e-6, 0.0, 1e-6, 3e-6)]
+        probes += list(rng.uniform(-5.0, s0 + 5.0, 30)) + [float("nan")]
+        for s in probes:
+            for arriving in (True, False):
+                assert _piece_at(pieces, float(s), arriving) is every(pieces, float(s), arriving), (trial, s)
+
+
+def test_the_radius_at_one_point_is_the_smallest_over_a_stretch_of_no_length():
+    """A source's class estimate takes its beam size 100 mm out (a stretch from 100 to 100
+    mm): that shortcut must give what the sampling of a stretch gives (33 samples, all at
+    that point, and any waist there), inside pieces, on their edges and outside them."""
+    from benchcheck import solve_file
+    from benchcheck.hazards import _smallest_radii, _smallest_radius
+
+    root = Path(__file__).resolve().parent.parent / "layouts"
+    for name in ("delivery-line.toml", "two-mirror.toml", "bowtie-enhancement.toml"):
+        solution = solve_file(root / name)
+        for res in list(solution.beams.values()) + list(solution.cavities.values()):
+            edges = [p.s0 for ps in res.profile.values() for p in ps]
+            for s in [0.0, 1e-9, 100.0, 250.5, 1e5, -3.0] + edges:
+                assert _smallest_radius(res.profile, s, s) == _smallest_radii(res.profile, [(s, s)])[0], (name, s)
