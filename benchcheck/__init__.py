@@ -32,11 +32,16 @@ sys.modules[__name__].__class__ = _Package
 
 
 def __getattr__(name: str):
-    module = _HOME.get(name)
-    if module is None:
-        raise AttributeError(f"module 'benchcheck' has no attribute {name!r}")
     import importlib
 
+    module = _HOME.get(name)
+    if module is None:   # a submodule, as ``import benchcheck; benchcheck.model`` once found it
+        try:
+            return importlib.import_module(f".{name}", __name__)
+        except ModuleNotFoundError as exc:
+            if exc.name != f"{__name__}.{name}":
+                raise
+        raise AttributeError(f"module 'benchcheck' has no attribute {name!r}")
     value = getattr(importlib.import_module(f".{module}", __name__), name)
     globals()[name] = value
     return value

@@ -286,12 +286,13 @@ def check_file(path: Path, config: Config | None = None, ruleset: RuleSet | None
 
 
 def check_text(data: str | bytes, file: str, config: Config | None = None, ruleset: RuleSet | None = None,
-               today: _dt.date | None = None) -> FileResult:
+               today: _dt.date | None = None, *, skip: frozenset[str] = frozenset(),
+               progress: Callable[[str], None] | None = None) -> FileResult:
     """The same for a layout that is not a file of the working tree (a git revision's
     text): ``file`` names it in messages; the configuration is the caller's (default: the
     built-in one), since a text has no folder to find one from."""
     load = (lambda: load_bytes(data, file)) if isinstance(data, bytes) else (lambda: load_text(data, file))
-    return _check(file, load, None, config or Config(), ruleset, today)
+    return _check(file, load, None, config or Config(), ruleset, today, skip, progress)
 
 
 def _check(name: str, load, path: Path | None, config: Config | None, ruleset: RuleSet | None,

@@ -55,6 +55,9 @@ class Job:
     key: str | None = None
     #: what the supervisor found out about this layout on earlier attempts
     errors: list[str] = field(default_factory=list)
+    #: the layout's text where it is no file of the working tree (a git revision for
+    #: ``diff``); ``path`` then names it, and ``start`` is where its configuration is found
+    data: str | bytes | None = None
 
 
 @dataclass
@@ -163,7 +166,7 @@ def _answer(job: Job, conn, cache: dict, here: bool = False):
 def _config_path(job: Job) -> Path | None:
     from .config import find_config
 
-    return Path(job.config) if job.config else find_config(Path(job.path or job.start or "."))
+    return Path(job.config) if job.config else find_config(Path(job.start or job.path or "."))
 
 
 def _config(cfg_path: Path | None, cache: dict, exclude: tuple[str, ...] = ()):
@@ -178,7 +181,7 @@ def _config(cfg_path: Path | None, cache: dict, exclude: tuple[str, ...] = ()):
 
 
 def _run(job: Job, conn, cache: dict, here: bool = False):
-    from .engine import FileResult, check_file, config_folder
+    from .engine import FileResult, check_file, check_text, config_folder
     from .model import LayoutError
     from .plugins import BUILTIN, load_rules
 
@@ -213,7 +216,10 @@ def _run(job: Job, conn, cache: dict, here: bool = False):
             conn.send(("step", "rule", plugin, rule_id, config.rule_timeout_s))
 
     conn.send(("step", "solve", None, None, None))
-    result = check_file(Path(job.path), config, ruleset, skip=job.skip, progress=progress)
+    if job.data is not None:
+        result = check_text(job.data, job.path, config, ruleset, skip=job.skip, progress=progress)
+    else:
+        result = check_file(Path(job.path), config, ruleset, skip=job.skip, progress=progress)
     if not job.keep_bench:
         result.bench = None   # the findings are enough: do not ship the bench between processes
     return result
@@ -358,7 +364,9 @@ def _config_key(job: Job, found: dict) -> str | None:
 
     if job.config:
         return job.config
-    start = Path(job.path).resolve().parent if job.path else Path(job.start or ".").resolve()
+    start = Path(job.start or job.path or ".").resolve()
+    if start.is_file() or not start.exists():
+        start = start.parent
     folder = str(start)
     if folder not in found:
         try:

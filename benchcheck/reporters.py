@@ -44,7 +44,8 @@ def exit_status(results: list[FileResult]) -> int:
 
 
 #: said on a run with nothing to report: a clean check is not a sign-off
-NOT_AN_APPROVAL = ("No findings: the plan passed the rules that ran. This is not a safety approval; "
+NOT_AN_APPROVAL = ("No findings left (waived ones aside): the plan passed the rules that ran. "
+                   "This is not a safety approval; "
                    "'benchcheck hazards' lists the exposure figures for the laser safety officer's review.")
 
 

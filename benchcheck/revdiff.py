@@ -18,12 +18,11 @@ from typing import Any, Callable, Mapping
 
 from .abcd import PLANES
 from .config import DIFF_ABSOLUTE, Config, find_config, load_config
-from .engine import FileResult, check_file, check_text, config_folder
+from .engine import FileResult
 from .findings import SEVERITY_RANK, Bench, Finding
 from .gitread import GitError, changed_files, is_revision_spec, read_revision
 from .model import LayoutError
 from .placement import heading_of
-from .plugins import RuleSet, load_rules
 from .reporters import _fingerprint
 
 # --- quantities and thresholds ----------------------------------------------------------
@@ -625,28 +624,28 @@ class Options:
         return cls(config, relative, limits, fail_on)
 
 
-def _check(side: Side | None, config: Config, ruleset: RuleSet) -> FileResult | None:
-    if side is None:
-        return None
-    if side.data is None:
-        return check_file(Path(side.name), config, ruleset)
-    return check_text(side.data, side.name, config, ruleset)
-
-
 def diff_sides(old: Side | None, new: Side | None, opts: Options) -> LayoutDiff:
     """Both sides checked with one configuration (``--config``, else the one found from
     the new side's working-tree path), so that a change of policy never shows as a change
-    of the layout."""
+    of the layout.  The checks run as ``check`` runs them (benchcheck/pool.py): where the
+    configuration or an installed package brings plugin code, in watched worker processes,
+    so that nothing a plugin does can hide a new finding or end this command."""
+    from .pool import Job, run_jobs
+
     anchor = (new or old).path
-    try:
+    try:   # here only for the thresholds and the fail level: plugins are never imported here
         config = load_config(Path(opts.config) if opts.config else find_config(anchor))
     except LayoutError as exc:
         return LayoutDiff(old.name if old else None, new.name if new else None, errors=[str(exc)])
-    ruleset = load_rules(config.plugins, search_path=config_folder(config))
+    sides = [s for s in (old, new) if s is not None]
+    jobs = [Job(s.name, opts.config, start=str(anchor), keep_bench=True, data=s.data) for s in sides]
+    outcome = run_jobs(jobs, len(jobs))
+    results = iter(outcome.results)
+    before = next(results) if old is not None else None
+    after = next(results) if new is not None else None
     thresholds = Thresholds.from_config(config, opts.relative, opts.absolute)
-    out = diff_results(_check(old, config, ruleset), _check(new, config, ruleset), thresholds,
-                       opts.fail_on or config.fail_on)
-    out.safety_rules = {rid for rid, (rule, _) in ruleset.rules.items() if rule.safety}
+    out = diff_results(before, after, thresholds, opts.fail_on or config.fail_on)
+    out.safety_rules = {rid for rid, (rule, _) in outcome.rules.items() if rule.safety}
     return out
 
 

@@ -196,3 +196,45 @@ def test_an_import_that_never_finishes_is_stopped_and_rules_still_listed(tmp_pat
             "configuration, or --rule-timeout) while being imported; it is left out of this run") in err
     ids = {r["id"] for r in json.loads(out)["rules"]}
     assert {"hostile-prints", "leak-beam"} <= ids
+
+
+# --- diff is a gate too ------------------------------------------------------------------------
+
+def _git_repo_with_change(tmp_path: Path, config: str) -> Path:
+    """A repository whose committed layout is a good demo and whose working copy is the
+    flawed one: 'diff --rev HEAD' must show the new errors."""
+    layout = repo(tmp_path, config)
+    shutil.copyfile(ROOT / "layouts" / "two-mirror.toml", layout)
+    shutil.rmtree(tmp_path / ".git")
+    git = ["git", "-c", "user.name=t", "-c", "user.email=t@example.invalid"]
+    subprocess.run(git + ["init", "-q"], cwd=tmp_path, check=True)
+    subprocess.run(git + ["add", "bench.toml"], cwd=tmp_path, check=True)
+    subprocess.run(git + ["commit", "-qm", "good"], cwd=tmp_path, check=True)
+    shutil.copyfile(FLAWED, layout)
+    return layout
+
+
+@pytest.mark.parametrize("how", ["files", "rev"])
+def test_a_plugin_that_ends_the_process_cannot_pass_a_diff(tmp_path, how):
+    """os._exit(0) in a plugin's rule once made 'diff' exit 0 with no output: the diff's
+    checks ran in its own process."""
+    layout = _git_repo_with_change(tmp_path, 'plugins = ["hostile_os_exit_in_check"]\n')
+    good = tmp_path / "good.toml"
+    shutil.copyfile(ROOT / "layouts" / "two-mirror.toml", good)
+    args = ["diff", str(good), str(layout)] if how == "files" else ["diff", "--rev", "HEAD"]
+    done = _subprocess(tmp_path, *args, "--format", "json")
+    assert done.returncode == 2, (done.returncode, done.stdout, done.stderr)
+    doc = json.loads(done.stdout)
+    assert "rule 'hostile-os-exit' from plugin hostile_os_exit_in_check ended the worker process" in done.stderr
+    # the flawed bench's new errors are all still there
+    added = [f for d in doc["layouts"] for f in d["findings"]["added"]] if "layouts" in doc else \
+        doc["findings"]["added"]
+    assert sum(1 for f in added if f["severity"] == "error") >= 8, doc
+
+
+def test_a_plugin_that_prints_does_not_corrupt_the_diff_json(tmp_path):
+    layout = _git_repo_with_change(tmp_path, 'plugins = ["hostile_prints"]\n')
+    done = _subprocess(tmp_path, "diff", "HEAD:bench.toml", str(layout), "--format", "json")
+    json.loads(done.stdout)
+    assert done.returncode == 1, done.stderr
+    assert "] not JSON" in done.stderr

@@ -423,3 +423,6 @@ def test_the_api_names_stay_functions_after_their_modules_are_imported():
                  "print(solve is benchcheck.api.solve, load is benchcheck.api.load, "
                  "benchcheck.solve is benchcheck.api.solve)")
     assert out == "True True True"
+    # a submodule is still reached from the package, as when the package imported them all
+    assert _fresh("import benchcheck; print(benchcheck.model.Loc.__name__, benchcheck.findings.Rule.__name__)") \
+        == "Loc Rule"
