@@ -299,15 +299,17 @@ def _piece_index(pieces) -> tuple | None:
     if hit is not None and hit[0] is pieces and hit[1] == len(pieces) and hit[2] is pieces[0] \
             and hit[3] is pieces[-1]:
         return hit[4]
-    s0 = np.fromiter((p.s0 for p in pieces), float, len(pieces))
-    length = np.fromiter((p.length for p in pieces), float, len(pieces))
-    ordered = bool(np.all(np.diff(s0) >= 0.0) and np.all(np.diff(s0 + length) >= 0.0))
+    # the real columns in one array (one row each, contiguous), q^ apart: one pass over
+    # the pieces instead of one per column
+    s0, length, k, scale, wavelength, m2 = np.array(
+        [(p.s0, p.length, p.k, p.scale, p.wavelength, p.m2) for p in pieces], dtype=float).T.copy()
+    end = s0 + length
+    ordered = bool(np.all(np.diff(s0) >= 0.0) and np.all(np.diff(end) >= 0.0))
     index = None
     if ordered:
         # with each piece's reach, 1e-9 mm of rounding either side
-        index = (s0, length, *(np.array([getattr(p, name) for p in pieces])
-                               for name in ("k", "scale", "q0", "wavelength", "m2")),
-                 s0 - 1e-9, s0 + length + 1e-9)
+        index = (s0, length, k, scale, np.array([p.q0 for p in pieces]), wavelength, m2,
+                 s0 - 1e-9, end + 1e-9)
     if len(_INDEX_CACHE) >= _INDEX_CACHE_SIZE:
         _INDEX_CACHE.pop(next(iter(_INDEX_CACHE)))
     _INDEX_CACHE[key] = (pieces, len(pieces), pieces[0], pieces[-1], index)
