@@ -316,16 +316,20 @@ def _piece_index(pieces) -> tuple | None:
     return index
 
 
-def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):
+def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0, q_marks: dict | None = None):
     """Propagate q^ through a train: radii (physical, mm) at markers, waists in spaces, and
-    the pieces of free propagation on the way out."""
+    the pieces of free propagation on the way out.  ``q_marks``, where given, receives q^
+    arriving at each marker's first visit (what ``_q_at_marker`` would walk again for)."""
     at_marks: dict[int, float] = {}
     waists: list[tuple[float, float]] = []
     pieces: list[Piece] = []
     q = q0
     for st in train.steps:
         if isinstance(st, Marker):
-            at_marks.setdefault(st.hit, float(st.scale * gauss.radius(q, wavelength, m2)))
+            if st.hit not in at_marks:
+                at_marks[st.hit] = float(st.scale * gauss.radius(q, wavelength, m2))
+                if q_marks is not None:
+                    q_marks[st.hit] = q
             continue
         if isinstance(st, Space):
             if st.forward and st.k > 0:
@@ -742,11 +746,13 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
             radii[plane] = {}
             profile[plane] = []
             continue
-        marks, raw, profile[plane] = _walk(train, complex(q0[plane]), wavelength, m2[plane])
+        q_marks: dict[int, complex] = {}
+        marks, raw, profile[plane] = _walk(train, complex(q0[plane]), wavelength, m2[plane], q_marks)
         radii[plane] = marks
         waists += _dedupe_waists(plane, raw)
         trains[plane] = train
-        q_last[plane] = _q_at_marker(train, complex(q0[plane]), len(path.hits) - 1)
+        last = len(path.hits) - 1
+        q_last[plane] = q_marks[last] if last in q_marks else _q_at_marker(train, complex(q0[plane]), last)
     waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
     notes += paraxial_notes(waists, wavelength, m2, f"beam \"{path.id}\"")
     match = None
