@@ -104,6 +104,11 @@ class _Segments:
         same = part[:-1] == part[1:]          # consecutive points of one line make a segment
         self.a = coords[:-1][same]
         self.b = coords[1:][same]
+        # the per-segment terms of every crossing test, as rows (x, y of the start, of the
+        # segment vector, and its length) so that one gather serves a query
+        e = self.b - self.a
+        self.cols = np.stack([self.a[:, 0], self.a[:, 1], e[:, 0], e[:, 1],
+                              np.maximum(np.hypot(e[:, 0], e[:, 1]), 1e-300)])
         seg_owner = owner[part[:-1][same]]
         n = len(lines)
         self.start = np.searchsorted(seg_owner, np.arange(n), side="left")
@@ -122,37 +127,35 @@ class _Segments:
         first_of = np.cumsum(counts) - counts
         idx = np.repeat(self.start[owners] - first_of, counts) + np.arange(total)
         who = np.repeat(owners, counts)
-        dist = _crossings(self.a[idx], self.b[idx], o, d)
+        dist = self._crossings(idx, o, d)
         dist[~(dist > START_CLEARANCE) | ~(dist < before)] = np.inf
         k = int(np.argmin(dist))
         return None if not np.isfinite(dist[k]) else (int(who[k]), float(dist[k]))
 
-
-def _crossings(a: np.ndarray, b: np.ndarray, o: np.ndarray, d: np.ndarray) -> np.ndarray:
-    """Distance along the ray (origin ``o``, unit direction ``d``) to the first point of each
-    segment ``a``-``b`` beyond START_CLEARANCE; inf where the ray misses it.  A segment
-    lying along the ray counts from its nearer end (or from where the ray leaves it when
-    the ray starts on it)."""
-    e = b - a
-    w = a - o
-    denom = d[0] * e[:, 1] - d[1] * e[:, 0]                 # cross(d, e)
-    along = w[:, 0] * e[:, 1] - w[:, 1] * e[:, 0]           # cross(w, e)
-    across = w[:, 0] * d[1] - w[:, 1] * d[0]                # cross(w, d)
-    scale = np.maximum(np.hypot(e[:, 0], e[:, 1]), 1e-300)
-    parallel = np.abs(denom) <= 1e-12 * scale
-    out = np.full(len(a), np.inf)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        t = along / denom
-        u = across / denom
-    tol = 1e-12
-    crossing = ~parallel & (u >= -tol) & (u <= 1.0 + tol) & (t >= 0.0)
-    out[crossing] = t[crossing]
-    # collinear segments: the ray meets the nearer end, or leaves the segment at the farther
-    collinear = parallel & (np.abs(across) <= 1e-9 * np.maximum(scale, 1.0))
-    if np.any(collinear):
-        ta = w[collinear] @ d
-        tb = (b[collinear] - o) @ d
-        near, far = np.minimum(ta, tb), np.maximum(ta, tb)
-        first = np.where(near > START_CLEARANCE, near, far)
-        out[collinear] = np.where(first > START_CLEARANCE, first, np.inf)
-    return out
+    def _crossings(self, idx: np.ndarray, o: np.ndarray, d: np.ndarray) -> np.ndarray:
+        """Distance along the ray (origin ``o``, unit direction ``d``) to the first point of
+        each segment ``idx`` beyond START_CLEARANCE; inf where the ray misses it.  A segment
+        lying along the ray counts from its nearer end (or from where the ray leaves it
+        when the ray starts on it)."""
+        ax, ay, ex, ey, scale = self.cols[:, idx]
+        ox, oy, dx, dy = float(o[0]), float(o[1]), float(d[0]), float(d[1])
+        wx, wy = ax - ox, ay - oy                   # w = a - o
+        denom = dx * ey - dy * ex                   # cross(d, e)
+        along = wx * ey - wy * ex                   # cross(w, e)
+        across = wx * dy - wy * dx                  # cross(w, d)
+        parallel = np.abs(denom) <= 1e-12 * scale
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t = along / denom
+            u = across / denom
+        tol = 1e-12
+        out = np.where(~parallel & (u >= -tol) & (u <= 1.0 + tol) & (t >= 0.0), t, np.inf)
+        # collinear segments: the ray meets the nearer end, or leaves the segment at the farther
+        collinear = parallel & (np.abs(across) <= 1e-9 * np.maximum(scale, 1.0))
+        if collinear.any():
+            rows = idx[collinear]
+            ta = (self.a[rows] - o) @ d
+            tb = (self.b[rows] - o) @ d
+            near, far = np.minimum(ta, tb), np.maximum(ta, tb)
+            first = np.where(near > START_CLEARANCE, near, far)
+            out[collinear] = np.where(first > START_CLEARANCE, first, np.inf)
+        return out

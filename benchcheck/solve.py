@@ -299,31 +299,37 @@ def _piece_index(pieces) -> tuple | None:
     if hit is not None and hit[0] is pieces and hit[1] == len(pieces) and hit[2] is pieces[0] \
             and hit[3] is pieces[-1]:
         return hit[4]
-    s0 = np.fromiter((p.s0 for p in pieces), float, len(pieces))
-    length = np.fromiter((p.length for p in pieces), float, len(pieces))
-    ordered = bool(np.all(np.diff(s0) >= 0.0) and np.all(np.diff(s0 + length) >= 0.0))
+    # the real columns in one array (one row each, contiguous), q^ apart: one pass over
+    # the pieces instead of one per column
+    s0, length, k, scale, wavelength, m2 = np.array(
+        [(p.s0, p.length, p.k, p.scale, p.wavelength, p.m2) for p in pieces], dtype=float).T.copy()
+    end = s0 + length
+    ordered = bool(np.all(np.diff(s0) >= 0.0) and np.all(np.diff(end) >= 0.0))
     index = None
     if ordered:
         # with each piece's reach, 1e-9 mm of rounding either side
-        index = (s0, length, *(np.array([getattr(p, name) for p in pieces])
-                               for name in ("k", "scale", "q0", "wavelength", "m2")),
-                 s0 - 1e-9, s0 + length + 1e-9)
+        index = (s0, length, k, scale, np.array([p.q0 for p in pieces]), wavelength, m2,
+                 s0 - 1e-9, end + 1e-9)
     if len(_INDEX_CACHE) >= _INDEX_CACHE_SIZE:
         _INDEX_CACHE.pop(next(iter(_INDEX_CACHE)))
     _INDEX_CACHE[key] = (pieces, len(pieces), pieces[0], pieces[-1], index)
     return index
 
 
-def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0):
+def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0, q_marks: dict | None = None):
     """Propagate q^ through a train: radii (physical, mm) at markers, waists in spaces, and
-    the pieces of free propagation on the way out."""
+    the pieces of free propagation on the way out.  ``q_marks``, where given, receives q^
+    arriving at each marker's first visit (what ``_q_at_marker`` would walk again for)."""
     at_marks: dict[int, float] = {}
     waists: list[tuple[float, float]] = []
     pieces: list[Piece] = []
     q = q0
     for st in train.steps:
         if isinstance(st, Marker):
-            at_marks.setdefault(st.hit, float(st.scale * gauss.radius(q, wavelength, m2)))
+            if st.hit not in at_marks:
+                at_marks[st.hit] = float(st.scale * gauss.radius(q, wavelength, m2))
+                if q_marks is not None:
+                    q_marks[st.hit] = q
             continue
         if isinstance(st, Space):
             if st.forward and st.k > 0:
@@ -740,11 +746,13 @@ def solve_beam(layout: Layout, path: PathTrace, cavities: dict, traced: Trace) -
             radii[plane] = {}
             profile[plane] = []
             continue
-        marks, raw, profile[plane] = _walk(train, complex(q0[plane]), wavelength, m2[plane])
+        q_marks: dict[int, complex] = {}
+        marks, raw, profile[plane] = _walk(train, complex(q0[plane]), wavelength, m2[plane], q_marks)
         radii[plane] = marks
         waists += _dedupe_waists(plane, raw)
         trains[plane] = train
-        q_last[plane] = _q_at_marker(train, complex(q0[plane]), len(path.hits) - 1)
+        last = len(path.hits) - 1
+        q_last[plane] = q_marks[last] if last in q_marks else _q_at_marker(train, complex(q0[plane]), last)
     waists.sort(key=lambda w: (w.plane != TANGENTIAL, w.s))
     notes += paraxial_notes(waists, wavelength, m2, f"beam \"{path.id}\"")
     match = None

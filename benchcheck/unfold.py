@@ -41,7 +41,17 @@ class Space:
     group: float | None = None
 
     def matrix(self) -> np.ndarray:
-        return abcd.free_space(self.length * self.k)
+        """[[1, length * k], [0, 1]], built once per space and length (a train's products,
+        the stability windows and the beam walks all ask for it); read-only, since it is
+        shared."""
+        b = self.length * self.k
+        cached = self.__dict__.get("_matrix")
+        if cached is not None and cached[0] == b:
+            return cached[1]
+        m = abcd.free_space(b)
+        m.flags.writeable = False
+        self.__dict__["_matrix"] = (b, m)
+        return m
 
     def reduced(self):
         """B = length * k of ``matrix()`` (the matrix is [[1, B], [0, 1]]): crossing free

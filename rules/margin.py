@@ -107,13 +107,18 @@ def step_matrices(steps: list) -> list:
     return [None if isinstance(st, Marker) else st.matrix() for st in steps]
 
 
+#: the start of every product (shared: read-only)
+_IDENTITY = abcd.identity()
+_IDENTITY.flags.writeable = False
+
+
 def _fixed_products(steps: list, where: list[int], mats: list | None = None) -> list[np.ndarray]:
     """Products of the steps before, between and after the gap's steps (light order)."""
     mats = step_matrices(steps) if mats is None else mats
     bounds = [-1] + where + [len(steps)]
     out = []
     for a, b in itertools.pairwise(bounds):
-        m = abcd.identity()
+        m = _IDENTITY
         for st in mats[a + 1:b]:
             if st is not None:
                 m = np.matmul(st, m)
@@ -179,7 +184,8 @@ class GapScan:
         full test (+-I or walk-off) only for those inside its rounding band."""
         mats = self.round_trips(x)
         scales = np.maximum(self._scale_fixed + len(self.where) * np.asarray(x, dtype=float), 1e-9)
-        disc, allowance = resonator.discriminant(mats, scales)
+        # plain floats: cheaper to compare one by one than numpy scalars
+        disc, allowance = (v.tolist() for v in resonator.discriminant(mats, scales))
         return [resonator.STABLE if disc[i] < -allowance[i] else resonator.UNSTABLE if disc[i] > allowance[i]
                 else resonator.classify(mats[i], float(scales[i])) for i in range(len(x))]
 

@@ -195,7 +195,9 @@ def signed_clearance(poly: Polygon, pts: np.ndarray) -> np.ndarray:
 class LegSampler:
     """Beam radius and clearance sampled along one leg, in one plane's radius."""
 
-    def __init__(self, leg: Leg, pieces: list, plane: str):
+    def __init__(self, leg: Leg, pieces: list, plane: str, t=None, w=None, line=None):
+        """``t``, ``w``, ``line``: the base samples, their radii and the leg's line where the
+        caller has them already (``samplers`` builds those of all legs at once)."""
         self.leg = leg
         self.pieces = pieces
         self.plane = plane
@@ -203,9 +205,9 @@ class LegSampler:
         self.length = float(np.hypot(v[0], v[1]))
         self.u = v / self.length
         self.normal = np.array([-self.u[1], self.u[0]])
-        self.line = LineString([tuple(leg.a), tuple(leg.b)])
-        self.t = np.linspace(0.0, self.length, BASE_SAMPLES)
-        self.w = self.radius(self.t)
+        self.line = LineString([tuple(leg.a), tuple(leg.b)]) if line is None else line
+        self.t = np.linspace(0.0, self.length, BASE_SAMPLES) if t is None else t
+        self.w = self.radius(self.t) if w is None else w
 
     def radius(self, t) -> np.ndarray:
         return radius_along(self.pieces, self.leg.s0 + np.asarray(t, dtype=float))
@@ -328,16 +330,50 @@ def _polygonal(geom):
 def sampler_for(leg: Leg) -> LegSampler | None:
     """Sampler in the tangential plane (the table plane, where footprints lie); the
     sagittal radius where the path has no tangential mode; None where it has neither."""
-    if float(np.hypot(*(leg.b - leg.a))) < 1e-6:
-        return None
+    return samplers([leg])[0]
+
+
+def _grids(lengths: np.ndarray) -> np.ndarray:
+    """``np.linspace(0, length, BASE_SAMPLES)`` of every length, one row each, built the
+    way linspace builds one (index times step, the end set exactly), in one product."""
+    step = lengths / (BASE_SAMPLES - 1)
+    grid = np.arange(BASE_SAMPLES, dtype=float)[None, :] * step[:, None]
+    grid += 0.0
+    grid[:, -1] = lengths
+    return grid
+
+
+def samplers(legs: list[Leg]) -> list[LegSampler | None]:
+    """``sampler_for`` of every leg, with the base radii of all the legs that share a
+    path's pieces found in one ``radius_along`` call (a per-leg call costs more in numpy
+    overhead than in arithmetic on a small layout)."""
+    out: list[LegSampler | None] = [None] * len(legs)
+    if not legs:
+        return out
+    a = np.array([leg.a for leg in legs], dtype=float)
+    b = np.array([leg.b for leg in legs], dtype=float)
+    v = b - a
+    lengths = np.hypot(v[:, 0], v[:, 1])
+    grids = _grids(lengths)
+    lines = shapely.linestrings(np.stack([a, b], axis=1))
+    pending = [i for i in range(len(legs)) if float(lengths[i]) >= 1e-6]
     for plane in ("t", "s"):
-        pieces = leg.profile.get(plane) or []
-        if not pieces:
-            continue
-        sampler = LegSampler(leg, pieces, plane)
-        if np.any(np.isfinite(sampler.w)):
-            return sampler
-    return None
+        groups: dict[int, tuple[list, list[int]]] = {}
+        for i in pending:
+            pieces = legs[i].profile.get(plane) or []
+            if pieces:
+                groups.setdefault(id(pieces), (pieces, []))[1].append(i)
+        done = set()
+        for pieces, members in groups.values():
+            s = np.concatenate([legs[i].s0 + grids[i] for i in members])
+            w_all = radius_along(pieces, s)
+            for n, i in enumerate(members):
+                w = w_all[n * BASE_SAMPLES:(n + 1) * BASE_SAMPLES]
+                if np.any(np.isfinite(w)):
+                    out[i] = LegSampler(legs[i], pieces, plane, grids[i], w, lines[i])
+                    done.add(i)
+        pending = [i for i in pending if i not in done]
+    return out
 
 
 # --- the rule ----------------------------------------------------------------------------
@@ -359,13 +395,22 @@ def check(bench, options):
     if not shapes:
         return
     tree = STRtree(shapes)
-    for leg in legs(bench, tree, ids):
-        sampler = sampler_for(leg)
-        if sampler is None:
-            continue    # no beam size on this leg in either plane (e.g. an unstable cavity)
-        margin = max(MARGIN_RADII, ratio_needed) * float(np.nanmax(sampler.w)) + MARGIN_MM
-        # the footprints within ``margin`` of the leg (exact distance: no buffer polygon built)
-        for k in sorted(int(x) for x in tree.query(sampler.line, predicate="dwithin", distance=margin)):
+    all_legs = list(legs(bench, tree, ids))
+    # no sampler: no beam size on a leg in either plane (e.g. an unstable cavity)
+    found = [(leg, sampler) for leg, sampler in zip(all_legs, samplers(all_legs)) if sampler is not None]
+    if not found:
+        return
+    # the footprints within a margin of each leg (exact distance: no buffer polygon built),
+    # every leg in one query
+    margins = np.array([max(MARGIN_RADII, ratio_needed) * float(np.nanmax(sampler.w)) + MARGIN_MM
+                        for _, sampler in found])
+    which, near = tree.query(np.array([sampler.line for _, sampler in found], dtype=object),
+                             predicate="dwithin", distance=margins)
+    by_leg: list[list[int]] = [[] for _ in found]
+    for n, k in zip(which.tolist(), near.tolist()):
+        by_leg[n].append(k)
+    for (leg, sampler), close in zip(found, by_leg):
+        for k in sorted(close):
             oid = ids[k]
             if oid in leg.exempt:
                 continue
