@@ -76,7 +76,20 @@ def key_positions(text: str, until: tuple | None = None) -> dict[tuple, tuple[in
         scanner.document()
     except (_Stop, ValueError, IndexError):
         pass  # keep the partial map; callers then just lack some positions
-    return scanner.line_columns()
+    return _Positions(scanner.line_columns(), scanner.implicit)
+
+
+class _Positions(dict):
+    """The map of ``key_positions``, which also knows the paths in it that are only implied
+    so far (a later explicit definition would move them): every other position is final,
+    even in a map of a scan that stopped early."""
+
+    def __init__(self, positions: dict, implied: set) -> None:
+        super().__init__(positions)
+        self.implied = implied
+
+    def final(self) -> dict:
+        return {p: at for p, at in self.items() if p not in self.implied}
 
 
 class LazyPositions:
@@ -90,6 +103,8 @@ class LazyPositions:
         self._text = text
         self._map: dict | None = None
         self._asked = False
+        #: what the first, partial scan found that no later text can move
+        self._final: dict = {}
 
     @property
     def map(self) -> dict[tuple, tuple[int, int]]:
@@ -99,23 +114,33 @@ class LazyPositions:
             except Exception:  # noqa: BLE001 - a missing position must never turn a good file into a crash
                 self._map = {}
             self._text = ""
+            self._final = {}
         return self._map
 
     def nearest(self, path: tuple) -> tuple[int, int]:
         """(line, column) of *path*, else of the nearest table or array holding it, else (1, 1).
 
-        The first question (often the only one: an error) scans only up to *path*; a
-        second one scans the whole text, once."""
-        if not self._asked and self._map is None:
-            self._asked = True
-            try:
-                first = key_positions(self._text, until=path)
-            except Exception:  # noqa: BLE001 - the whole scan below tries again
-                first = {}
-            if path in first:
-                return first[path]
-            if first:        # not written explicitly: the scan went through the whole text
-                self._map, self._text = first, ""
+        The first question (often the only one: an error) scans only up to *path*; a later
+        one about a path written before it (a layout's findings mostly point at its tables,
+        optics before cavities) is answered from that scan; any other scans the whole text,
+        once."""
+        if self._map is None:
+            if not self._asked:
+                self._asked = True
+                try:
+                    first = key_positions(self._text, until=path)
+                except Exception:  # noqa: BLE001 - the whole scan below tries again
+                    first = {}
+                if path in first:
+                    if isinstance(first, _Positions):
+                        self._final = first.final()
+                    return first[path]
+                if first:        # not written explicitly: the scan went through the whole text
+                    self._map, self._text = first, ""
+            else:
+                found = self._final.get(path)
+                if found is not None:
+                    return found
         positions = self.map
         while path:
             found = positions.get(path)

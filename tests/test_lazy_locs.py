@@ -104,3 +104,26 @@ def test_the_layout_key_locs_are_the_scanned_positions():
 
 def _seven_three():
     return 7, 3
+
+
+def test_a_path_written_before_the_first_asked_is_found_without_a_second_scan(monkeypatch):
+    calls = _counting(monkeypatch)
+    text = DEMO.read_text(encoding="utf-8")
+    layout = load_text(text, "demo.toml")
+    cavity = next(iter(layout.cavities.values()))
+    first = cavity.loc
+    assert (first.line, first.column) == _line_col(text, "[[cavity]]")
+    assert calls == [("cavity", 0)]
+    optic = layout.optics["M2"].loc                      # an optic's table comes before the cavity's
+    assert (optic.line, optic.column) == _line_col(text, '[[optic]]\nid = "M2"')
+    assert calls == [("cavity", 0)]                      # answered from the scan that stopped at the cavity
+
+
+def test_a_table_only_implied_before_the_first_asked_is_found_where_its_header_is():
+    # [a] is only implied by [a.b] when the scan for c.z stops; its own header comes after
+    text = "[a.b]\nx = 1\n[c]\nz = 2\n[a]\ny = 3\n"
+    positions = tomlpos.LazyPositions(text)
+    assert positions.nearest(("c", "z")) == (4, 1)
+    assert positions.nearest(("a",)) == (5, 1)           # the explicit header, as the whole scan has it
+    assert tomlpos.key_positions(text)[("a",)] == (5, 1)
+    assert positions.nearest(("a", "b", "x")) == (2, 1)
