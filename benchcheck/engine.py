@@ -122,8 +122,8 @@ def run_rules(bench: Bench, config: Config, ruleset: RuleSet, today: _dt.date | 
             progress(rule_id)
         who = f"{bench.file}: rule '{rule_id}' from plugin {plugin}"
         try:
-            options = copy.deepcopy(rule.defaults())
-            options.update(copy.deepcopy(config.options(rule_id)))
+            options = _fresh(rule.defaults())
+            options.update(_fresh(config.options(rule_id)))
             produced = list(rule.check(given, options) or ())
         except BaseException as exc:  # noqa: BLE001 - a plugin's failure is reported by name, even sys.exit
             out.errors.append(f"{who} {raised(exc)}")
@@ -145,6 +145,17 @@ def run_rules(bench: Bench, config: Config, ruleset: RuleSet, today: _dt.date | 
     out.findings = apply_waivers(out.findings, bench, today or _dt.date.today())
     out.findings.sort(key=lambda f: (f.loc.line if f.loc else 0, f.loc.column if f.loc else 0, f.rule))
     return out
+
+
+#: Values a deep copy gives back as they are (nothing in them can be changed)
+_ATOMIC = frozenset({int, float, bool, str, type(None)})
+
+
+def _fresh(options: dict) -> dict:
+    """A deep copy of a rule's options, so that nothing a rule changes in them reaches the
+    next rule or layout; plain numbers and strings (nearly every option) are taken as they
+    are, which is what ``copy.deepcopy`` does with them, without its bookkeeping."""
+    return {k: v if type(v) in _ATOMIC else copy.deepcopy(v) for k, v in options.items()}
 
 
 def _snapshot(bench: Bench) -> bytes | None:

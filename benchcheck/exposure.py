@@ -21,6 +21,7 @@ Units: wavelength nm, time s, lengths mm, radiant exposure J/m^2, irradiance W/m
 
 from __future__ import annotations
 
+import math
 from functools import lru_cache
 
 import numpy as np
@@ -338,8 +339,21 @@ def aperture_averaged_w_m2(power_w, w_mm, aperture_mm):
 
     Pass an energy (J) to get J/m^2.
     """
+    if isinstance(power_w, float) and isinstance(w_mm, float) and isinstance(aperture_mm, float) \
+            and 0.0 < w_mm < math.inf and 0.0 <= aperture_mm < math.inf and math.isfinite(power_w):
+        return _averaged_one(np.float64(power_w), np.float64(w_mm), np.float64(aperture_mm))
     area_m2 = np.pi * (_f(aperture_mm) * 1e-3 / 2.0) ** 2
     return (_f(power_w) * aperture_fraction(w_mm, aperture_mm) / area_m2)[()]
+
+
+def _averaged_one(power: np.float64, w: np.float64, aperture: np.float64) -> np.float64:
+    """``aperture_averaged_w_m2`` of one beam of finite, non-zero size: the same numpy
+    operations on the same numpy scalars (``w**2`` of an array is numpy's square, of the
+    aperture a power), without the array machinery (the hazard assessment asks once per
+    segment)."""
+    a = aperture / 2.0
+    frac = -np.expm1(-2.0 * a**2 / np.square(w))
+    return power * frac / (np.pi * (aperture * 1e-3 / 2.0) ** 2)
 
 
 def od_required(exposure, mpe):

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 import shapely
@@ -263,11 +264,16 @@ def _smallest_radii(profile: dict, spans) -> list[float | None]:
         # which waists fall in which span (by bisection: linear time on long paths)
         first = np.searchsorted(waists, lo, side="left")
         count = np.maximum(np.searchsorted(waists, hi, side="right") - first, 0)
-        owner = np.repeat(np.arange(len(spans)), count)
-        at = np.repeat(first - (np.cumsum(count) - count), count) + np.arange(int(count.sum()))
-        w = radius_along(pieces, np.concatenate([samples.ravel(), waists[at]]))
+        inside = int(count.sum())
+        if inside:
+            owner = np.repeat(np.arange(len(spans)), count)
+            at = np.repeat(first - (np.cumsum(count) - count), count) + np.arange(inside)
+            w = radius_along(pieces, np.concatenate([samples.ravel(), waists[at]]))
+        else:                             # no waist inside any span: the samples alone
+            w = radius_along(pieces, samples.ravel())
         m = np.fmin.reduce(w[:samples.size].reshape(samples.shape), axis=1)   # NaN only where all are
-        np.fmin.at(m, owner, w[samples.size:])
+        if inside:
+            np.fmin.at(m, owner, w[samples.size:])
         best = np.fmin(best, m)
     return [None if math.isnan(v) else v for v in best.tolist()]
 
@@ -535,7 +541,12 @@ def _cover(segs: list[Segment], cover) -> None:
         open_mm = shapely.length(lines)
     else:
         inside = shapely.covers(cover, lines)
-        open_mm = shapely.length(shapely.difference(lines, cover))
+        # what the cover holds whole leaves nothing open: the overlay is worked out only
+        # for the others (most segments of an enclosed bench are inside)
+        open_mm = np.zeros(len(segs))
+        out = ~inside
+        if out.any():
+            open_mm[out] = shapely.length(shapely.difference(lines[out], cover))
     for seg, held, length in zip(segs, inside.tolist(), open_mm.tolist()):
         seg.inside_enclosure = bool(held)
         seg.open_mm = float(length)
@@ -553,8 +564,7 @@ def judge(seg: Segment, policy: Policy, keepouts: dict) -> None:
     seg.exposure_s = policy.exposure_s(wl)
     over = policy.override(wl)
     t = seg.exposure_s
-    seg.aperture_mm = float(over.aperture_mm) if over and over.aperture_mm else \
-        float(exposure.limiting_aperture_mm(wl, t))
+    seg.aperture_mm = float(over.aperture_mm) if over and over.aperture_mm else _built_in_aperture(wl, t)
     if not math.isfinite(seg.aperture_mm):
         # no tabulated aperture here: the smallest of the standards' apertures, which
         # averages least and so errs on the side of the eye
@@ -578,6 +588,19 @@ def judge(seg: Segment, policy: Policy, keepouts: dict) -> None:
         _hazard_distance(seg, amount, keepouts)
 
 
+@lru_cache(maxsize=256)
+def _built_in_aperture(wl: float, t: float) -> float:
+    """The limiting aperture (mm) at one wavelength and exposure duration, remembered: the
+    segments of a bench share a few wavelengths."""
+    return float(exposure.limiting_aperture_mm(wl, t))
+
+
+@lru_cache(maxsize=256)
+def _built_in_cw_mpe(wl: float, t: float) -> float:
+    """The built-in CW MPE (W/m^2) at one wavelength and exposure duration, remembered."""
+    return float(exposure.mpe_w_m2(wl, t))
+
+
 def _mpe(seg: Segment, wl: float, t: float, over: MpeOverride | None):
     """Set the segment's MPE (per pulse for pulsed light) and return what to compare with
     it (energy per pulse or power), or None with ``problem`` saying what is missing."""
@@ -590,7 +613,7 @@ def _mpe(seg: Segment, wl: float, t: float, over: MpeOverride | None):
             if over is not None:
                 seg.notes.append(f"the configured MPE at {over.wavelength_nm:g} nm gives no w_cm2: the built-in "
                                  "CW limit is used")
-            seg.mpe, seg.mpe_rule, seg.mpe_source = float(exposure.mpe_w_m2(wl, t)), "cw", "built-in"
+            seg.mpe, seg.mpe_rule, seg.mpe_source = _built_in_cw_mpe(wl, t), "cw", "built-in"
         _finite_mpe(seg)
         if seg.power_w is None:
             seg.problem = "its power is not known"

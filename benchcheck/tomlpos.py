@@ -66,6 +66,33 @@ _INLINE_KEY_VALUE = re.compile(r'[ \t\n]*' + _SIMPLE_KV + r'[ \t\n]*,?')
 _ARRAY_ITEM = re.compile(_BLANKS + "(" + _SIMPLE_VALUE + r")[ \t\n]*(?:#[^\n]*\n[ \t\n]*)*,?")
 
 
+#: ``[[name]]`` at the start of a line: a header of an array of tables with a bare key
+#: (the key starts with a letter and nothing but a comment follows: ``[[1]]`` on a line of
+#: a multi-line array is a value)
+_AOT_HEADER = re.compile(r"^([ \t]*)\[\[[ \t]*([A-Za-z_][A-Za-z0-9_-]*)[ \t]*\]\][ \t]*(?=#|\r?\n|\Z)", re.M)
+#: a line that may be a header with a quoted key (or an array of strings): headers then
+#: are not all of the bare form above
+_QUOTED_HEADER = re.compile(r"""^[ \t]*\[\[?[ \t]*["']""", re.M)
+
+
+def aot_headers(text: str) -> dict[str, list[tuple[int, int]]] | None:
+    """(line, column) of each ``[[name]]`` header, by name in file order: where ``key_positions``
+    maps ``(name, n)``, read with one regular expression.  None where that reading could be
+    wrong: a multi-line string (which may hold a line that looks like a header) or a header
+    with a quoted key.  In text ``tomllib`` accepted, a line that starts with ``[[name]]``
+    is a header: a bare word is no value, so it is not an element of a multi-line array,
+    and inline tables and other strings stay on one line."""
+    if '"""' in text or "'''" in text or _QUOTED_HEADER.search(text) is not None:
+        return None
+    out: dict[str, list[tuple[int, int]]] = {}
+    line, counted = 1, 0
+    for m in _AOT_HEADER.finditer(text):
+        line += text.count("\n", counted, m.start())
+        counted = m.start()
+        out.setdefault(m.group(2), []).append((line, len(m.group(1)) + 1))
+    return out
+
+
 def key_positions(text: str, until: tuple | None = None) -> dict[tuple, tuple[int, int]]:
     """Map each path in the parsed document to the (line, column) where it is written, both 1-based.
 
@@ -76,7 +103,20 @@ def key_positions(text: str, until: tuple | None = None) -> dict[tuple, tuple[in
         scanner.document()
     except (_Stop, ValueError, IndexError):
         pass  # keep the partial map; callers then just lack some positions
-    return scanner.line_columns()
+    return _Positions(scanner.line_columns(), scanner.implicit)
+
+
+class _Positions(dict):
+    """The map of ``key_positions``, which also knows the paths in it that are only implied
+    so far (a later explicit definition would move them): every other position is final,
+    even in a map of a scan that stopped early."""
+
+    def __init__(self, positions: dict, implied: set) -> None:
+        super().__init__(positions)
+        self.implied = implied
+
+    def final(self) -> dict:
+        return {p: at for p, at in self.items() if p not in self.implied}
 
 
 class LazyPositions:
@@ -90,6 +130,10 @@ class LazyPositions:
         self._text = text
         self._map: dict | None = None
         self._asked = False
+        #: what the first, partial scan found that no later text can move
+        self._final: dict = {}
+        #: ``aot_headers`` of the text (False: not read yet)
+        self._headers: dict | None | bool = False
 
     @property
     def map(self) -> dict[tuple, tuple[int, int]]:
@@ -99,23 +143,44 @@ class LazyPositions:
             except Exception:  # noqa: BLE001 - a missing position must never turn a good file into a crash
                 self._map = {}
             self._text = ""
+            self._final = {}
+            self._headers = None
         return self._map
 
     def nearest(self, path: tuple) -> tuple[int, int]:
         """(line, column) of *path*, else of the nearest table or array holding it, else (1, 1).
 
-        The first question (often the only one: an error) scans only up to *path*; a
-        second one scans the whole text, once."""
-        if not self._asked and self._map is None:
-            self._asked = True
-            try:
-                first = key_positions(self._text, until=path)
-            except Exception:  # noqa: BLE001 - the whole scan below tries again
-                first = {}
-            if path in first:
-                return first[path]
-            if first:        # not written explicitly: the scan went through the whole text
-                self._map, self._text = first, ""
+        The first question (often the only one: an error) scans only up to *path*; a later
+        one about a path written before it (a layout's findings mostly point at its tables,
+        optics before cavities) is answered from that scan; any other scans the whole text,
+        once.  The header of a table of an array (``("optic", 2)``: where most findings
+        point) needs no scan at all where ``aot_headers`` can read it."""
+        if self._map is None:
+            if len(path) == 2 and type(path[1]) is int and path[1] >= 0:
+                if self._headers is False:
+                    try:
+                        self._headers = aot_headers(self._text)
+                    except Exception:  # noqa: BLE001 - the scan below answers instead
+                        self._headers = None
+                found = self._headers.get(path[0]) if self._headers else None
+                if found is not None and path[1] < len(found):
+                    return found[path[1]]
+            if not self._asked:
+                self._asked = True
+                try:
+                    first = key_positions(self._text, until=path)
+                except Exception:  # noqa: BLE001 - the whole scan below tries again
+                    first = {}
+                if path in first:
+                    if isinstance(first, _Positions):
+                        self._final = first.final()
+                    return first[path]
+                if first:        # not written explicitly: the scan went through the whole text
+                    self._map, self._text = first, ""
+            else:
+                found = self._final.get(path)
+                if found is not None:
+                    return found
         positions = self.map
         while path:
             found = positions.get(path)

@@ -504,3 +504,17 @@ def test_class_estimate_of_one_source_is_remembered_exactly():
     assert detail["fraction_condition3"] != "changed by a caller"
     with pytest.raises(ValueError, match="pulse_s"):
         ex.class_estimate(1064.0, 2.0, 0.8, pulse_energy_j=math.nan)   # NaN energy: pulsed, unlike None
+
+
+def test_one_beam_averaged_over_the_aperture_is_the_array_result_to_the_last_bit():
+    # the scalar shortcut must give exactly what the array code gives for the same beam
+    rng = np.random.default_rng(7)
+    power = 10.0 ** rng.uniform(-6, 3, 400)
+    w = 10.0 ** rng.uniform(-3, 2, 400)
+    aperture = rng.choice([1.0, 3.5, 7.0, 11.0, 50.0], 400)
+    whole = ex.aperture_averaged_w_m2(power, w, aperture)
+    for k in range(400):
+        one = ex.aperture_averaged_w_m2(float(power[k]), float(w[k]), float(aperture[k]))
+        assert one == whole[k] and isinstance(one, np.float64), (power[k], w[k], aperture[k])
+    # w = 0 passes all of it: derived from P / (pi (D/2)^2) with D = 7 mm, computed here
+    assert ex.aperture_averaged_w_m2(1.0, 0.0, 7.0) == pytest.approx(1.0 / (np.pi * 3.5e-3**2), rel=1e-15)

@@ -553,3 +553,26 @@ def test_the_radius_at_one_point_is_the_smallest_over_a_stretch_of_no_length():
             edges = [p.s0 for ps in res.profile.values() for p in ps]
             for s in [0.0, 1e-9, 100.0, 250.5, 1e5, -3.0] + edges:
                 assert _smallest_radius(res.profile, s, s) == _smallest_radii(res.profile, [(s, s)])[0], (name, s)
+
+
+def test_the_open_length_of_a_segment_is_what_the_enclosure_leaves_out():
+    from shapely.geometry import box
+
+    from benchcheck.hazards import BEAM, Segment, _cover
+
+    def seg(a, b):
+        return Segment(BEAM, "s", "b", ("b",), 1064.0, a, b, 1.0)
+
+    cover = box(0.0, 0.0, 100.0, 50.0)
+    segs = [seg((10.0, 10.0), (90.0, 10.0)),       # inside
+            seg((0.0, 0.0), (100.0, 0.0)),         # along the enclosure's edge: held
+            seg((50.0, 25.0), (150.0, 25.0)),      # half out
+            seg((200.0, 0.0), (200.0, 30.0)),      # all out
+            seg((20.0, 20.0), (20.0, 20.0))]       # no length
+    _cover(segs, cover)
+    # derived from the rectangle's extent (x <= 100), computed here
+    assert [s.inside_enclosure for s in segs] == [True, True, False, False, True]
+    assert [s.open_mm for s in segs] == [0.0, 0.0, 50.0, 30.0, 0.0]
+    _cover(segs, None)                             # no enclosure: all of each is open
+    assert [s.open_mm for s in segs] == [80.0, 100.0, 100.0, 30.0, 0.0]
+    assert not any(s.inside_enclosure for s in segs)

@@ -104,3 +104,57 @@ def test_the_layout_key_locs_are_the_scanned_positions():
 
 def _seven_three():
     return 7, 3
+
+
+def test_a_path_written_before_the_first_asked_is_found_without_a_second_scan(monkeypatch):
+    calls = _counting(monkeypatch)
+    text = DEMO.read_text(encoding="utf-8")
+    layout = load_text(text, "demo.toml")
+    cavity = next(iter(layout.cavities.values()))
+    first = cavity.where("wavelength_nm")
+    assert (first.line, first.column) == _line_col(text, "wavelength_nm = 800")
+    assert calls == [("cavity", 0, "wavelength_nm")]
+    roc = layout.optics["M2"].where("roc")               # an optic's keys come before the cavity's
+    assert (roc.line, roc.column) == _line_col(text, "roc = 100.0")
+    assert calls == [("cavity", 0, "wavelength_nm")]     # answered from the scan that stopped at the cavity
+
+
+def test_the_header_of_a_table_of_an_array_is_found_without_a_scan(monkeypatch):
+    calls = _counting(monkeypatch)
+    text = DEMO.read_text(encoding="utf-8")
+    layout = load_text(text, "demo.toml")
+    cavity = next(iter(layout.cavities.values()))
+    assert (cavity.loc.line, cavity.loc.column) == _line_col(text, "[[cavity]]")
+    m2 = layout.optics["M2"].loc
+    assert (m2.line, m2.column) == _line_col(text, '[[optic]]\nid = "M2"')
+    assert calls == []
+
+
+def test_headers_read_by_pattern_are_where_the_whole_scan_has_them():
+    for path in sorted((DEMO.parent).glob("*.toml")) + sorted((DEMO.parent / "flawed").glob("*.toml")):
+        text = path.read_text(encoding="utf-8")
+        whole = tomlpos.key_positions(text)
+        heads = tomlpos.aot_headers(text)
+        listed = {(name, n): at for name, ats in heads.items() for n, at in enumerate(ats)}
+        assert listed == {p: at for p, at in whole.items() if len(p) == 2 and isinstance(p[1], int)}, path.name
+
+
+def test_headers_are_not_read_by_pattern_where_a_string_or_quoted_key_could_fool_it():
+    text = 'note = """\n[[optic]]\n"""\n[[optic]]\nid = "A"\n'
+    assert tomlpos.aot_headers(text) is None
+    assert tomlpos.LazyPositions(text).nearest(("optic", 0)) == (4, 1)    # the scanner's answer
+    assert tomlpos.aot_headers("[[\"optic\"]]\nid = 'A'\n[[optic]]\nid = 'B'\n") is None
+    # a value of a multi-line array and a dotted header are no header of "x" or "a"
+    text = "x = [\n[[1]]\n]\n[[a]] # first\n  [[ a ]]\r\n[[a.b]]\n"
+    assert tomlpos.aot_headers(text) == {"a": [(4, 1), (5, 3)]}
+    assert [tomlpos.key_positions(text)[("a", n)] for n in (0, 1)] == [(4, 1), (5, 3)]
+
+
+def test_a_table_only_implied_before_the_first_asked_is_found_where_its_header_is():
+    # [a] is only implied by [a.b] when the scan for c.z stops; its own header comes after
+    text = "[a.b]\nx = 1\n[c]\nz = 2\n[a]\ny = 3\n"
+    positions = tomlpos.LazyPositions(text)
+    assert positions.nearest(("c", "z")) == (4, 1)
+    assert positions.nearest(("a",)) == (5, 1)           # the explicit header, as the whole scan has it
+    assert tomlpos.key_positions(text)[("a",)] == (5, 1)
+    assert positions.nearest(("a", "b", "x")) == (2, 1)
