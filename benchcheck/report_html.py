@@ -249,10 +249,10 @@ class Report:
                 f'<p class="small">{escape(a.caution)}</p>')
 
     def _safety(self) -> str:
-        from .reporters import NOT_AN_APPROVAL
+        from .reporters import not_an_approval
 
         sol = self.solution
-        clean = "" if any(not f.waived for f in self.findings) else f" {escape(NOT_AN_APPROVAL)}"
+        clean = "" if any(not f.waived for f in self.findings) else f" {escape(not_an_approval(self.findings))}"
         limits = self.bench.limits
         rows = []
         for c in sol.cavities.values():

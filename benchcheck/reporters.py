@@ -44,9 +44,16 @@ def exit_status(results: list[FileResult]) -> int:
 
 
 #: said on a run with nothing to report: a clean check is not a sign-off
-NOT_AN_APPROVAL = ("No findings left (waived ones aside): the plan passed the rules that ran. "
-                   "This is not a safety approval; "
+NOT_AN_APPROVAL = ("No findings: the plan passed the rules that ran. This is not a safety approval; "
                    "'benchcheck hazards' lists the exposure figures for the laser safety officer's review.")
+
+
+def not_an_approval(findings: Iterable[Finding]) -> str:
+    """NOT_AN_APPROVAL, saying how many findings were waived where some were."""
+    waived = sum(1 for f in findings if f.waived)
+    if not waived:
+        return NOT_AN_APPROVAL
+    return NOT_AN_APPROVAL.replace("No findings:", f"No findings apart from {waived} waived:", 1)
 
 
 def clean(results: list[FileResult]) -> bool:
@@ -58,7 +65,7 @@ def clean(results: list[FileResult]) -> bool:
 def verdict(results: list[FileResult]) -> str:
     """One sentence for machine outputs, whose readers may show nothing else."""
     if clean(results):
-        return NOT_AN_APPROVAL
+        return not_an_approval(all_findings(results))
     return "Findings or input problems remain (see 'findings' and 'errors'). " \
            "Passing the rules is never a safety approval."
 
@@ -106,7 +113,7 @@ def text_report(results: list[FileResult], rules: dict) -> str:
     files = sum(1 for r in results if r.layout)
     lines.append(f"{summary} in {files} layout{'s' if files != 1 else ''}")
     if clean(results):
-        lines.append(NOT_AN_APPROVAL)
+        lines.append(not_an_approval(findings))
     lines.append(SAFETY_CAUTION)
     return "\n".join(one_line(line) for line in lines) + "\n"
 
@@ -238,7 +245,7 @@ def github_report(results: list[FileResult], rules: dict, root: Path | None = No
     for e in dict.fromkeys(e for r in results for e in r.errors):
         lines.append(f"::error::{_escape_data(e)}")
     if clean(results):
-        lines.append(f"::notice title=benchcheck::{_escape_data(NOT_AN_APPROVAL)}")
+        lines.append(f"::notice title=benchcheck::{_escape_data(not_an_approval(all_findings(results)))}")
     lines.append(f"::notice title=benchcheck::{_escape_data(SAFETY_CAUTION)}")
     return "\n".join(lines) + ("\n" if lines else "")
 

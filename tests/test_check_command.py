@@ -215,6 +215,9 @@ def test_active_waiver(tmp_path, capsys):
     leak = [f for f in doc["findings"] if f["rule"] == "leak-beam"][0]
     assert leak["waived"] is True and "card" in leak["waiver_reason"]
     assert code == 0          # the only finding is waived
+    # the clean-run sentence says that one finding was waived, not that there were none
+    assert "No findings apart from 1 waived: the plan passed the rules that ran" in doc["verdict"]
+    assert "not a safety approval" in doc["verdict"]
 
 
 def test_expired_waiver_applies_no_more_and_is_reported(tmp_path, capsys):
