@@ -196,9 +196,21 @@ def mpe_j_m2(wavelength_nm, t_s):
     At the cornea, averaged over ``limiting_aperture_mm``; NaN where no built-in limit
     (outside 180 nm - 1 mm, or t_s <= 0 / NaN).
     """
-    if np.ndim(wavelength_nm) == 0 and np.ndim(t_s) == 0:
-        return _mpe_j_m2_one(float(_f(wavelength_nm)), float(_f(t_s)))
+    one = _scalars(wavelength_nm, t_s)
+    if one is not None:
+        return _mpe_j_m2_one(*one)
     return _mpe_j_m2(wavelength_nm, t_s)
+
+
+def _scalars(*xs):
+    """The arguments as plain floats where every one is a scalar (the remembered path of
+    one value), else None (arrays take the vectorised path).  Plain floats, as the
+    hazard assessment passes them, are recognised without numpy's dispatch."""
+    if all(type(x) is float for x in xs):
+        return xs
+    if all(np.ndim(x) == 0 for x in xs):
+        return tuple(float(_f(x)) for x in xs)
+    return None
 
 
 @lru_cache(maxsize=4096)
@@ -223,6 +235,19 @@ def _mpe_j_m2(wavelength_nm, t_s):
 
 def mpe_w_m2(wavelength_nm, t_s):
     """Ocular MPE as irradiance (W/m^2): ``mpe_j_m2 / t_s``."""
+    one = _scalars(wavelength_nm, t_s)
+    if one is not None:
+        return _mpe_w_m2_one(*one)
+    return _mpe_w_m2(wavelength_nm, t_s)
+
+
+@lru_cache(maxsize=4096)
+def _mpe_w_m2_one(wavelength_nm: float, t_s: float):
+    """One limit, remembered on the two plain floats (as ``_mpe_j_m2_one``)."""
+    return _mpe_w_m2(wavelength_nm, t_s)
+
+
+def _mpe_w_m2(wavelength_nm, t_s):
     t = _f(t_s)
     with np.errstate(invalid="ignore", divide="ignore"):
         return (mpe_j_m2(wavelength_nm, t) / t)[()]
@@ -236,8 +261,9 @@ def limiting_aperture_mm(wavelength_nm, t_s):
     (ANSI Z136.1-2014 Table 8 may use the time-dependent aperture in the ultraviolet too;
     not modelled.)  NaN outside 180 nm - 1 mm.
     """
-    if np.ndim(wavelength_nm) == 0 and np.ndim(t_s) == 0:
-        return _aperture_one(float(_f(wavelength_nm)), float(_f(t_s)))
+    one = _scalars(wavelength_nm, t_s)
+    if one is not None:
+        return _aperture_one(*one)
     return _aperture_mm(wavelength_nm, t_s)
 
 

@@ -19,7 +19,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from functools import lru_cache
 
 import numpy as np
 import shapely
@@ -564,7 +563,8 @@ def judge(seg: Segment, policy: Policy, keepouts: dict) -> None:
     seg.exposure_s = policy.exposure_s(wl)
     over = policy.override(wl)
     t = seg.exposure_s
-    seg.aperture_mm = float(over.aperture_mm) if over and over.aperture_mm else _built_in_aperture(wl, t)
+    seg.aperture_mm = float(over.aperture_mm) if over and over.aperture_mm else \
+        float(exposure.limiting_aperture_mm(wl, t))
     if not math.isfinite(seg.aperture_mm):
         # no tabulated aperture here: the smallest of the standards' apertures, which
         # averages least and so errs on the side of the eye
@@ -588,19 +588,6 @@ def judge(seg: Segment, policy: Policy, keepouts: dict) -> None:
         _hazard_distance(seg, amount, keepouts)
 
 
-@lru_cache(maxsize=256)
-def _built_in_aperture(wl: float, t: float) -> float:
-    """The limiting aperture (mm) at one wavelength and exposure duration, remembered: the
-    segments of a bench share a few wavelengths."""
-    return float(exposure.limiting_aperture_mm(wl, t))
-
-
-@lru_cache(maxsize=256)
-def _built_in_cw_mpe(wl: float, t: float) -> float:
-    """The built-in CW MPE (W/m^2) at one wavelength and exposure duration, remembered."""
-    return float(exposure.mpe_w_m2(wl, t))
-
-
 def _mpe(seg: Segment, wl: float, t: float, over: MpeOverride | None):
     """Set the segment's MPE (per pulse for pulsed light) and return what to compare with
     it (energy per pulse or power), or None with ``problem`` saying what is missing."""
@@ -613,7 +600,7 @@ def _mpe(seg: Segment, wl: float, t: float, over: MpeOverride | None):
             if over is not None:
                 seg.notes.append(f"the configured MPE at {over.wavelength_nm:g} nm gives no w_cm2: the built-in "
                                  "CW limit is used")
-            seg.mpe, seg.mpe_rule, seg.mpe_source = _built_in_cw_mpe(wl, t), "cw", "built-in"
+            seg.mpe, seg.mpe_rule, seg.mpe_source = float(exposure.mpe_w_m2(wl, t)), "cw", "built-in"
         _finite_mpe(seg)
         if seg.power_w is None:
             seg.problem = "its power is not known"
