@@ -246,12 +246,8 @@ def entry_points_installed() -> bool:
     found = _scan_entry_points(sys.path)
     if found is not None:
         return found
-    from importlib import metadata
-
-    try:
-        return bool(list(metadata.entry_points(group=ENTRY_POINT_GROUP)))
-    except Exception:  # noqa: BLE001 - the worker that loads the plugins reports it
-        return True
+    errors: list[str] = []      # a failure counts as installed: the worker that loads them reports it
+    return bool(_entry_points(errors)) or bool(errors)
 
 
 def _scan_entry_points(paths) -> bool | None:
