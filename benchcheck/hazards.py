@@ -30,7 +30,7 @@ from .abcd import PLANES
 from .coatings import pass_factor
 from .model import WAVELENGTH_MATCH
 from .raycast import TABLE_EDGE, ZONE
-from .solve import radius_along
+from .solve import linspace_rows, radius_along
 
 NM_TO_MM = 1e-6
 M2_TO_CM2 = 1e4
@@ -248,13 +248,13 @@ def _smallest_radii(profile: dict, spans) -> list[float | None]:
     """``_smallest_radius`` of each (s0, s1) span of one path, with one radius look-up per
     plane for all of them (a path's legs share its pieces; the radius at a point does not
     depend on the other points asked).  The samples are those of ``np.linspace(s0, s1,
-    _SAMPLES)`` span by span (``_spaced``) plus the waists inside each span."""
+    _SAMPLES)`` span by span (``linspace_rows``) plus the waists inside each span."""
     if not spans:
         return []
     lo = np.array([float(a) for a, _ in spans])
     hi = np.array([float(b) for _, b in spans])
     best = np.full(len(spans), np.nan)
-    samples = _spaced(lo, hi)             # the same in both planes
+    samples = linspace_rows(lo, hi, _SAMPLES)   # the same in both planes
     for plane in PLANES:
         pieces = profile.get(plane) or []
         if not pieces:
@@ -287,20 +287,6 @@ def _waists(pieces) -> np.ndarray:
     z = np.divide(-q0.real, k, out=np.full(len(pieces), -1.0), where=k > 0)
     inside = (z >= 0.0) & (z <= length)
     return (s0 + z)[inside]
-
-
-def _spaced(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """Row i is ``np.linspace(lo[i], hi[i], _SAMPLES)`` to the last bit (the same
-    arithmetic, step by step: k * step + start, the end set to stop; where the step
-    underflows to 0, k / div * delta + start), for many spans at once."""
-    div = _SAMPLES - 1
-    k = np.arange(_SAMPLES, dtype=float)
-    delta = hi - lo
-    step = delta / div
-    y = np.where((step == 0)[:, None], (k / div)[None, :] * delta[:, None], k[None, :] * step[:, None])
-    y += lo[:, None]
-    y[:, -1] = hi
-    return y
 
 
 def _piece_at(pieces, s: float, arriving: bool):

@@ -256,6 +256,24 @@ class Piece:
         return self.scale * gauss.radius(self.q0 + z * self.k, self.wavelength, self.m2)
 
 
+def linspace_rows(lo, hi, num: int) -> np.ndarray:
+    """Row i is ``np.linspace(lo[i], hi[i], num)`` to the last bit, for many stretches of a
+    path at once (the same arithmetic, step by step: k * step + start, the end set to
+    stop; where the step underflows to 0, k / div * delta + start).  The hazard assessment
+    and beam-obstructed sample every leg of a path this way, then ask ``radius_along``
+    once."""
+    lo = np.asarray(lo, dtype=float)
+    hi = np.asarray(hi, dtype=float)
+    div = num - 1
+    k = np.arange(num, dtype=float)
+    delta = hi - lo
+    step = delta / div
+    y = np.where((step == 0)[:, None], (k / div)[None, :] * delta[:, None], k[None, :] * step[:, None])
+    y += lo[:, None]
+    y[:, -1] = hi
+    return y
+
+
 def radius_along(pieces: list[Piece], s) -> np.ndarray:
     """Radius at path coordinates ``s`` (array), from the piece that holds each one; NaN
     outside every piece (inside a thin element there is no free propagation).  Where two

@@ -37,7 +37,7 @@ from shapely.geometry import LineString, Point, Polygon
 from benchcheck.clipping import edge_clip_fraction
 from benchcheck.coatings import pass_factor
 from benchcheck.findings import ERROR, WARNING, Finding, Option, Rule
-from benchcheck.solve import radius_along
+from benchcheck.solve import linspace_rows, radius_along
 
 SQRT2 = math.sqrt(2.0)
 #: Uniform samples along a leg; the radius changes on the scale of the Rayleigh range and
@@ -333,16 +333,6 @@ def sampler_for(leg: Leg) -> LegSampler | None:
     return samplers([leg])[0]
 
 
-def _grids(lengths: np.ndarray) -> np.ndarray:
-    """``np.linspace(0, length, BASE_SAMPLES)`` of every length, one row each, built the
-    way linspace builds one (index times step, the end set exactly), in one product."""
-    step = lengths / (BASE_SAMPLES - 1)
-    grid = np.arange(BASE_SAMPLES, dtype=float)[None, :] * step[:, None]
-    grid += 0.0
-    grid[:, -1] = lengths
-    return grid
-
-
 def samplers(legs: list[Leg]) -> list[LegSampler | None]:
     """``sampler_for`` of every leg, with the base radii of all the legs that share a
     path's pieces found in one ``radius_along`` call (a per-leg call costs more in numpy
@@ -354,7 +344,7 @@ def samplers(legs: list[Leg]) -> list[LegSampler | None]:
     b = np.array([leg.b for leg in legs], dtype=float)
     v = b - a
     lengths = np.hypot(v[:, 0], v[:, 1])
-    grids = _grids(lengths)
+    grids = linspace_rows(np.zeros(len(legs)), lengths, BASE_SAMPLES)   # np.linspace(0, length) each
     lines = shapely.linestrings(np.stack([a, b], axis=1))
     pending = [i for i in range(len(legs)) if float(lengths[i]) >= 1e-6]
     for plane in ("t", "s"):

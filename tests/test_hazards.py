@@ -485,22 +485,28 @@ def test_an_upper_bound_power_stays_marked_in_the_hazard_figures(tmp_path, capsy
     assert segs["enh/M2"]["power_is_upper_bound"] is False
 
 
-def test_the_samples_along_many_spans_are_numpys_linspace_to_the_last_bit():
+@pytest.mark.parametrize("num", [33, 257])
+def test_the_samples_along_many_spans_are_numpys_linspace_to_the_last_bit(num):
     """The smallest radius of a segment is taken over np.linspace(s0, s1, 33) plus its
-    waists; all the segments of a path are sampled at once, so each row must be numpy's
-    own linspace exactly (numpy's result, compared bit for bit), zero-length and
-    subnormal spans included."""
+    waists, and beam-obstructed samples each leg at np.linspace(0, length, 257); all the
+    stretches of a path are sampled at once, so each row must be numpy's own linspace
+    exactly (numpy's result, compared bit for bit), zero-length and subnormal spans
+    included."""
     import numpy as np
 
-    from benchcheck.hazards import _SAMPLES, _spaced
+    from benchcheck.solve import linspace_rows
 
     rng = np.random.default_rng(9)
     lo = np.concatenate([rng.uniform(-1e3, 1e4, 200), [0.0, 5.0, 1e-320, 100.0, 3.0, -2.5]])
     hi = np.concatenate([lo[:200] + rng.uniform(0.0, 2e3, 200), [0.0, 5.0, 3e-320, 100.0, 1.0, 7.25]])
-    rows = _spaced(lo, hi)
+    rows = linspace_rows(lo, hi, num)
     for i in range(len(lo)):
-        expected = np.linspace(lo[i], hi[i], _SAMPLES)
+        expected = np.linspace(lo[i], hi[i], num)
         assert rows[i].tobytes() == expected.tobytes(), (lo[i], hi[i])
+    lengths = rng.uniform(1e-6, 5e3, 300)
+    from_zero = linspace_rows(np.zeros(len(lengths)), lengths, num)
+    for i, length in enumerate(lengths):
+        assert from_zero[i].tobytes() == np.linspace(0.0, length, num).tobytes(), length
 
 
 def test_the_piece_at_a_point_is_found_by_bisection_as_by_looking_at_every_piece():
