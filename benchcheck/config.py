@@ -36,7 +36,6 @@ safety_factor = 2.0
 
 from __future__ import annotations
 
-import difflib
 import re
 import sys
 from dataclasses import dataclass, field
@@ -242,7 +241,9 @@ def _parse(doc: dict, file: str, positions: dict, prefix: tuple) -> Config:
         return LayoutError(msg, loc(*path))
 
     def unknown(key: str, allowed, where: str, path: tuple) -> LayoutError:
-        close = difflib.get_close_matches(key, list(allowed), n=1, cutoff=0.6)
+        from .loader import close_matches
+
+        close = close_matches(key, list(allowed), n=1, cutoff=0.6)
         hint = f"; did you mean '{close[0]}'?" if close else f"; allowed: {', '.join(allowed)}"
         return fail(path, f"unknown key '{key}' in {where}{hint}")
 

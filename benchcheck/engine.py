@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import copy
 import datetime as _dt
-import difflib
 import math
 import numbers
 import pickle
@@ -19,7 +18,7 @@ from typing import Any, Callable
 
 from .config import Config, find_config, load_config
 from .findings import SEVERITIES, WARNING, Bench, Finding, Rule
-from .loader import load_bytes, load_path, load_text
+from .loader import close_matches, load_bytes, load_path, load_text
 from .model import LayoutError, Loc
 from .plugins import BUILTIN, RuleSet, describe, load_rules, raised
 from .solve import solve_layout
@@ -56,7 +55,7 @@ def validate_options(config: Config, ruleset: RuleSet) -> list[LayoutError]:
         if rule_id not in ruleset.rules:
             if ruleset.errors or ruleset.incomplete:
                 continue
-            close = difflib.get_close_matches(rule_id, list(ruleset.rules), n=1, cutoff=0.6)
+            close = close_matches(rule_id, list(ruleset.rules), n=1, cutoff=0.6)
             hint = f"; did you mean '{close[0]}'?" if close else ""
             problems.append(LayoutError(f"no rule '{rule_id}' is installed{hint} (see 'benchcheck rules')",
                                         entry["loc"]))
@@ -66,7 +65,7 @@ def validate_options(config: Config, ruleset: RuleSet) -> list[LayoutError]:
         for key, value in entry["options"].items():
             where = entry["option_locs"].get(key, entry["loc"])
             if key not in declared:
-                close = difflib.get_close_matches(key, list(declared) + ["enabled", "severity"], n=1, cutoff=0.6)
+                close = close_matches(key, list(declared) + ["enabled", "severity"], n=1, cutoff=0.6)
                 hint = f"; did you mean '{close[0]}'?" if close else (
                     f"; its options: {', '.join(declared)}" if declared else "; it has no options")
                 problems.append(LayoutError(f"rule '{rule_id}' has no option '{key}'{hint}", where))

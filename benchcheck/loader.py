@@ -329,8 +329,10 @@ class _AllKeyLocs(Mapping):
         return repr(dict(self))
 
 
-def _close_matches(word: str, choices, n: int, cutoff: float) -> list:
-    """``difflib.get_close_matches``, imported on the first error that suggests a word."""
+def close_matches(word: str, choices, n: int, cutoff: float) -> list:
+    """``difflib.get_close_matches``, imported on the first error that suggests a word
+    (the loader, the configuration and the rule options all suggest with it; a clean run
+    never imports difflib)."""
     import difflib
 
     return difflib.get_close_matches(word, choices, n=n, cutoff=cutoff)
@@ -410,7 +412,7 @@ class _Reader:
 
     @staticmethod
     def _unknown(key: str, allowed: tuple, what: str) -> str:
-        close = _close_matches(key, allowed, n=1, cutoff=0.6)
+        close = close_matches(key, allowed, n=1, cutoff=0.6)
         synonym = SYNONYMS.get(key.lower())
         if synonym in allowed and synonym != key:
             close = [synonym]
@@ -474,7 +476,7 @@ class _Reader:
         if not isinstance(value, str):
             raise self.fail(path, f"{self.name(path)} must be a string, found {_kind_name(value)}")
         if choices is not None and value not in choices:
-            close = _close_matches(value, choices, n=1, cutoff=0.6)
+            close = close_matches(value, choices, n=1, cutoff=0.6)
             hint = f" (did you mean \"{close[0]}\"?)" if close else ""
             opts = " | ".join(f'"{c}"' for c in choices)
             raise self.fail(path, f"{self.name(path)} must be one of {opts}, found \"{value}\"{hint}")
@@ -591,7 +593,7 @@ class _Reader:
 
     def _dangling(self, path: tuple, ident: str, known: Iterable[str], what: str) -> LayoutError:
         known = list(known)
-        close = _close_matches(ident, known, n=1, cutoff=0.5)
+        close = close_matches(ident, known, n=1, cutoff=0.5)
         hint = f"; did you mean \"{close[0]}\"?" if close else (f"; known: {', '.join(known)}" if known else "")
         return self.fail(path, f"\"{ident}\" is not {what} in this layout{hint}")
 
@@ -619,7 +621,7 @@ class _Reader:
         for key in value:
             if key not in allowed:
                 others = [k for k, keys in OPTIC_KEYS.items() if key in keys]
-                if others and _close_matches(key, allowed, n=1, cutoff=0.8) == []:
+                if others and close_matches(key, allowed, n=1, cutoff=0.8) == []:
                     raise self.fail(path + (key,), f"'{key}' does not apply to a {kind} (optic \"{ident}\"); "
                                                    f"it is a key of: {', '.join(others)}. Keys for a {kind}: {', '.join(allowed)}")
                 raise self.fail(path + (key,), self._unknown(key, allowed, f"optic \"{ident}\" ({kind})"))
