@@ -16,10 +16,8 @@ import numpy as np
 
 from benchcheck import clipping, tolspec
 from benchcheck.abcd import PLANES
-from benchcheck.alignment import cavity_alignment
 from benchcheck.findings import NOTE, WARNING, Finding, Option, Rule
 from benchcheck.placement import DEFAULT_DIAMETER
-from benchcheck.tolerance import run_cavity, wilson_interval
 
 PLANE_NAMES = {"t": "tangential", "s": "sagittal"}
 
@@ -54,6 +52,8 @@ def check_yield(bench, options):
     if tol is None:
         yield from _skipped(bench, "build-yield")
         return
+    from benchcheck.tolerance import run_cavity, wilson_interval   # only where tolerances apply
+
     rng = np.random.default_rng(int(options["seed"]))
     for cid, cav in bench.solution.cavities.items():
         if not _stable(cav):
@@ -91,6 +91,8 @@ def check_alignment(bench, options):
     if _tolerances(bench) is None:
         yield from _skipped(bench, "alignment-sensitivity")
         return
+    from benchcheck.alignment import cavity_alignment   # only where tolerances apply
+
     layout = bench.layout
     for cid, cav in bench.solution.cavities.items():
         if not _stable(cav):
