@@ -163,10 +163,21 @@ def _answer(job: Job, conn, cache: dict, here: bool = False):
                                         "please report it with this layout"])
 
 
-def _config_path(job: Job) -> Path | None:
+def _config_path(job: Job, cache: dict) -> Path | None:
+    """The configuration that applies to ``job``: the one named with --config, else the
+    one found from its layout, searched once per folder in a run (1,000 layouts of one
+    folder share it)."""
     from .config import find_config
 
-    return Path(job.config) if job.config else find_config(Path(job.start or job.path or "."))
+    if job.config:
+        return Path(job.config)
+    folder = Path(job.start or job.path or ".").resolve()   # where find_config starts (a link's target)
+    if folder.is_file() or not folder.exists():
+        folder = folder.parent
+    found = cache.setdefault("found", {})
+    if folder not in found:
+        found[folder] = find_config(folder)
+    return found[folder]
 
 
 def _config(cfg_path: Path | None, cache: dict, exclude: tuple[str, ...] = ()):
@@ -187,7 +198,7 @@ def _run(job: Job, conn, cache: dict, here: bool = False):
 
     name = job.path or "<rules>"
     try:
-        cfg_path = _config_path(job)
+        cfg_path = _config_path(job, cache)
         key = (str(cfg_path), job.exclude)
         if key not in cache:
             config = _config(cfg_path, cache, job.exclude)
@@ -275,7 +286,7 @@ def _plugin_free(jobs: list[Job], cache: dict) -> bool:
 
     for job in jobs:
         try:
-            config = _config(_config_path(job), cache)
+            config = _config(_config_path(job, cache), cache)
         except Exception:  # noqa: BLE001 - the same failure is reported by the check itself
             continue
         if config.plugins:
