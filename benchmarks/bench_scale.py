@@ -7,7 +7,8 @@ Generates invented layouts in a temporary folder and runs the real command line 
    fold mirrors at the row ends, each leaking a secondary beam), checked for N = 1,000,
    2,000 and 4,000: the time and the ratio time(2N)/time(N), which stays near 2 when the
    work is linear in N;
-2. 1,000 small layouts in one folder, checked with a single `check` (process pool);
+2. 1,000 small layouts in one folder, checked with a single `check` (process pool), and
+   once more with `--jobs 1` for the time per layout;
 3. `report` on the 1,000-optic bench (250 with --quick; needs matplotlib), three runs;
 
 and prints each time with its target.  Peak memory comes from /usr/bin/time -v where
@@ -134,6 +135,11 @@ def main(quick: bool = False) -> None:
         dt, rc, mem = best_of(3, ["check", "many"], work)
         print(f"\ncheck, {count} small layouts in one folder: {dt:.2f} s, exit {rc}{mem}"
               + (f"  (target < 2.5 s on 2 cores: {verdict(dt, 2.5)})" if count == 1000 else ""))
+        dt1, rc1, mem1 = run(["check", "--jobs", "1", "many"], work)
+        print(f"the same with --jobs 1 (checked in one process, no workers): {dt1:.2f} s, exit {rc1}{mem1}: "
+              f"{dt1 / count * 1e3:.1f} ms per layout, start included"
+              + ("  (the 2.5 s target on 2 cores leaves 5 ms of CPU per layout, the workers' start included)"
+                 if count == 1000 else ""))
         try:
             import matplotlib  # noqa: F401
         except ImportError:
