@@ -171,9 +171,7 @@ def _config_path(job: Job, cache: dict) -> Path | None:
 
     if job.config:
         return Path(job.config)
-    folder = Path(job.start or job.path or ".").resolve()   # where find_config starts (a link's target)
-    if folder.is_file() or not folder.exists():
-        folder = folder.parent
+    folder = _start_folder(job)
     found = cache.setdefault("found", {})
     if folder not in found:
         found[folder] = find_config(folder)
@@ -375,9 +373,7 @@ def _config_key(job: Job, found: dict) -> str | None:
 
     if job.config:
         return job.config
-    start = Path(job.start or job.path or ".").resolve()
-    if start.is_file() or not start.exists():
-        start = start.parent
+    start = _start_folder(job)
     folder = str(start)
     if folder not in found:
         try:
@@ -385,6 +381,15 @@ def _config_key(job: Job, found: dict) -> str | None:
         except (LayoutError, OSError):
             found[folder] = folder
     return found[folder]
+
+
+def _start_folder(job: Job) -> Path:
+    """The folder a job's configuration is searched from, as ``find_config`` takes it: the
+    layout's (a link's target's) folder, or ``start``."""
+    folder = Path(job.start or job.path or ".").resolve()
+    if folder.is_file() or not folder.exists():
+        folder = folder.parent
+    return folder
 
 
 def _limit(w: _Worker, timeout_s: float | None) -> float | None:
