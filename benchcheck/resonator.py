@@ -99,6 +99,22 @@ def classify(matrix: np.ndarray, length_scale: float) -> str:
     return MARGINAL_RETRACE if near_identity else MARGINAL_WALKOFF
 
 
+def classify_many(matrices, length_scales) -> list[str]:
+    """``classify`` of each matrix of a stack (K, 2, 2), each with its own length scale,
+    in a handful of array operations (the same comparisons on the same numbers)."""
+    matrices = np.asarray(matrices, dtype=float)
+    disc, allowance = discriminant(matrices, length_scales)
+    a, b = matrices[..., 0, 0], matrices[..., 0, 1]
+    c, d = matrices[..., 1, 0], matrices[..., 1, 1]
+    sign = np.where(half_trace(matrices) > 0, 1.0, -1.0)
+    scale = np.maximum(np.asarray(length_scales, dtype=float), 1e-30)
+    near_identity = ((np.abs(a - sign) < RETRACE_TOL) & (np.abs(d - sign) < RETRACE_TOL)
+                     & (np.abs(b) < RETRACE_TOL * scale) & (np.abs(c) * scale < RETRACE_TOL))
+    stable, unstable = (disc < -allowance).tolist(), (disc > allowance).tolist()
+    return [STABLE if s else UNSTABLE if u else MARGINAL_RETRACE if n else MARGINAL_WALKOFF
+            for s, u, n in zip(stable, unstable, near_identity.tolist())]
+
+
 def is_stable(matrix, length_scale=1.0) -> np.ndarray:
     """Vectorised strict test (boundary cases count as not stable), as ``classify``."""
     disc, allowance = discriminant(matrix, length_scale)
