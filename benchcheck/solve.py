@@ -352,7 +352,7 @@ def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0, q_marks
         if isinstance(st, Space):
             if st.forward and st.k > 0:
                 pieces.append(Piece(st.s0, st.length, st.k, st.scale, q, wavelength, m2))
-                z = float(gauss.waist_offset(q)) / st.k
+                z = -q.real / st.k      # gauss.waist_offset of a plain complex
                 if -1e-9 <= z <= st.length + 1e-9:
                     z = min(max(z, 0.0), st.length)
                     w0 = st.scale * float(gauss.radius(q + z * st.k, wavelength, m2))
