@@ -322,7 +322,8 @@ def _piece_index(pieces) -> tuple | None:
     s0, length, k, scale, wavelength, m2 = np.array(
         [(p.s0, p.length, p.k, p.scale, p.wavelength, p.m2) for p in pieces], dtype=float).T.copy()
     end = s0 + length
-    ordered = bool(np.all(np.diff(s0) >= 0.0) and np.all(np.diff(end) >= 0.0))
+    # neighbours compared directly (for finite coordinates the same test as diff >= 0)
+    ordered = bool((s0[1:] >= s0[:-1]).all() and (end[1:] >= end[:-1]).all())
     index = None
     if ordered:
         # with each piece's reach, 1e-9 mm of rounding either side

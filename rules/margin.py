@@ -95,12 +95,6 @@ def air_gaps(layout, path) -> list[Gap]:
     return out
 
 
-def _gap_steps(steps: list, gap: Gap) -> list[int]:
-    """Indices of the air-space steps of one gap in a round-trip train (out and back in a
-    linear cavity): the spaces the train marks with that gap's index."""
-    return [i for i, st in enumerate(steps) if isinstance(st, Space) and st.gap == gap.index]
-
-
 def step_matrices(steps: list) -> list:
     """Each step's matrix (None for a marker), built once per train and shared by the scans
     of all its gaps."""
@@ -112,12 +106,45 @@ _IDENTITY = abcd.identity()
 _IDENTITY.flags.writeable = False
 
 
-def _fixed_products(steps: list, where: list[int], mats: list | None = None) -> list[np.ndarray]:
-    """Products of the steps before, between and after the gap's steps (light order)."""
+class TrainParts:
+    """What the scans of every gap of one round-trip train share: each step's matrix, where
+    each gap's air-space steps are (the spaces the train marks with that gap's index: out
+    and back in a linear cavity), the reduced length, and the products of its first steps
+    (the part before a gap is one of them)."""
+
+    def __init__(self, steps: list):
+        self.steps = steps
+        self.mats = step_matrices(steps)
+        self.gaps: dict[int, list[int]] = {}
+        for i, st in enumerate(steps):
+            if isinstance(st, Space) and st.gap is not None:
+                self.gaps.setdefault(st.gap, []).append(i)
+        self.reduced = sum(st.length * st.k for st in steps if isinstance(st, Space))
+        self._prefix = [_IDENTITY]
+
+    def prefix(self, k: int) -> np.ndarray:
+        """The product of the first ``k`` steps (light order), from the identity as
+        ``_fixed_products`` takes it; the chain is extended as far as asked, once."""
+        chain = self._prefix
+        m = chain[-1]
+        for st in self.mats[len(chain) - 1:k]:
+            if st is not None:
+                m = np.matmul(st, m)
+            chain.append(m)
+        return chain[k]
+
+
+def _fixed_products(steps: list, where: list[int], mats: list | None = None,
+                    shared: TrainParts | None = None) -> list[np.ndarray]:
+    """Products of the steps before, between and after the gap's steps (light order); the
+    first from ``shared``'s chain where given."""
     mats = step_matrices(steps) if mats is None else mats
     bounds = [-1] + where + [len(steps)]
     out = []
     for a, b in itertools.pairwise(bounds):
+        if a < 0 and shared is not None:
+            out.append(shared.prefix(b))
+            continue
         m = _IDENTITY
         for st in mats[a + 1:b]:
             if st is not None:
@@ -129,20 +156,20 @@ def _fixed_products(steps: list, where: list[int], mats: list | None = None) -> 
 class GapScan:
     """The round trip of one plane as a function of one gap's air length."""
 
-    def __init__(self, train, gap: Gap, role: str, mats: list | None = None):
-        """``mats``: ``step_matrices(train.steps)`` where the caller scans several gaps."""
+    def __init__(self, train, gap: Gap, role: str, shared: TrainParts | None = None):
+        """``shared``: ``TrainParts(train.steps)`` where the caller scans several gaps."""
         steps = train.steps
+        shared = TrainParts(steps) if shared is None else shared
         self.gap = gap
         self.plane = train.plane
-        self.where = _gap_steps(steps, gap)
+        self.where = shared.gaps.get(gap.index, [])
         expected = 2 if role == "linear" else 1
         if len(self.where) != expected:
             raise RuntimeError(f"air gap {gap.first} -> {gap.second} found {len(self.where)} times in the "
                                f"{train.plane} round trip, expected {expected}")
-        self.parts = _fixed_products(steps, self.where, mats)
-        reduced = sum(st.length * st.k for st in steps if isinstance(st, Space))
+        self.parts = _fixed_products(steps, self.where, shared.mats, shared)
         # the B, C tolerance of the +-I test scales with the round trip's reduced length
-        self._scale_fixed = reduced - len(self.where) * gap.length
+        self._scale_fixed = shared.reduced - len(self.where) * gap.length
 
     def round_trips(self, x) -> np.ndarray:
         """Round-trip matrices (..., 2, 2) for air lengths ``x`` (mm, array): the gap's
@@ -271,9 +298,9 @@ def _real_roots(a: float, b: float, c: float) -> list[float]:
 def spacing_windows(cav, layout, path) -> list[Window]:
     """The stability window of every air gap of a cavity stable in both planes."""
     out = []
-    mats = {plane: step_matrices(cav.trains[plane].steps) for plane in PLANES}
+    shared = {plane: TrainParts(cav.trains[plane].steps) for plane in PLANES}
     gaps = [gap for gap in air_gaps(layout, path) if gap.length >= 0]   # overlaps: layout-geometry
-    scans = [GapScan(cav.trains[plane], gap, path.role, mats[plane]) for gap in gaps for plane in PLANES]
+    scans = [GapScan(cav.trains[plane], gap, path.role, shared[plane]) for gap in gaps for plane in PLANES]
     plans = [sc.probes() for sc in scans]
     status = _statuses(scans, [np.array(probes[0] + probes[1]) for _, probes in plans]) if scans else []
     found = {(sc.gap.index, sc.plane): sc.edges(*plan, st) for sc, plan, st in zip(scans, plans, status)}
