@@ -12,6 +12,8 @@ every fold.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 TANGENTIAL = "t"
@@ -36,6 +38,21 @@ def _mat(a, b, c, d) -> np.ndarray:
     return out
 
 
+def _inverse(x):
+    """1/x, and 0 where x is infinite (a flat face, no lens).  One finite, non-zero value
+    takes plain float division (correctly rounded, as numpy's), without the array
+    machinery and error-state switching that cost more than the work."""
+    if _scalar(x):
+        v = float(x)
+        if math.isinf(v):
+            return 0.0
+        if v != 0.0:
+            return 1.0 / v
+    x = np.asarray(x, dtype=float)
+    with np.errstate(divide="ignore"):
+        return np.where(np.isinf(x), 0.0, 1.0 / x)
+
+
 def identity(shape=()) -> np.ndarray:
     return _mat(np.ones(shape), 0.0, 0.0, 1.0)
 
@@ -48,10 +65,7 @@ def free_space(length, index=1.0) -> np.ndarray:
 
 def thin_lens(focal_length) -> np.ndarray:
     """Thin lens, C = -1/f (f > 0 converging).  ``inf`` gives the identity."""
-    f = np.asarray(focal_length, dtype=float)
-    with np.errstate(divide="ignore"):
-        power = np.where(np.isinf(f), 0.0, 1.0 / f)
-    return _mat(1.0, 0.0, -power, 1.0)
+    return _mat(1.0, 0.0, -np.asarray(_inverse(focal_length), dtype=float), 1.0)
 
 
 def lens_power(power) -> np.ndarray:
@@ -72,10 +86,8 @@ def mirror_focal_length(roc, aoi, plane: str):
 
 def mirror(roc, aoi=0.0, plane: str = TANGENTIAL) -> np.ndarray:
     """Curved mirror in the unfolded path; ``roc = inf`` is a flat mirror (identity)."""
-    roc = np.asarray(roc, dtype=float)
     cos = np.cos(np.asarray(aoi, dtype=float))
-    with np.errstate(divide="ignore"):
-        inv_r = np.where(np.isinf(roc), 0.0, 1.0 / roc)
+    inv_r = _inverse(roc)
     power = 2.0 * inv_r / cos if plane == TANGENTIAL else 2.0 * inv_r * cos
     return _mat(1.0, 0.0, -power, 1.0)
 
@@ -100,9 +112,7 @@ def interface(n1, n2, aoi=0.0, roc=np.inf, plane: str = TANGENTIAL) -> np.ndarra
     t1 = np.asarray(aoi, dtype=float)
     t2 = refraction_angle(t1, n1, n2)
     c1, c2 = np.cos(t1), np.cos(t2)
-    roc = np.asarray(roc, dtype=float)
-    with np.errstate(divide="ignore"):
-        inv_r = np.where(np.isinf(roc), 0.0, 1.0 / roc)
+    inv_r = _inverse(roc)
     power = (n2 * c2 - n1 * c1) * inv_r
     if plane == TANGENTIAL:
         return _mat(c2 / c1, 0.0, -power / (c1 * c2), c1 / c2)

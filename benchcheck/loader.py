@@ -131,7 +131,11 @@ def load_path(path: str | Path) -> Layout:
         if info.st_size > MAX_LAYOUT_BYTES:
             raise LayoutError(f"is {info.st_size:,} bytes; {_TOO_LARGE}", file=name)
         with open(path, "rb") as fh:
-            data = fh.read(MAX_LAYOUT_BYTES + 1)
+            # the size found, and one byte more to see growth: a read of the whole limit
+            # would allocate (and page in) a 1 MiB buffer for every small file
+            data = fh.read(info.st_size + 1)
+            if len(data) > info.st_size:     # it grew since: read on, up to the limit
+                data += fh.read(MAX_LAYOUT_BYTES + 1 - len(data))
     except IsADirectoryError:
         raise LayoutError("is a folder, not a layout file", file=name) from None
     except OSError as exc:

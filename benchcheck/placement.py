@@ -14,6 +14,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+import shapely
 from shapely.geometry import Polygon
 
 from .model import Layout, LayoutError, Loc, Optic
@@ -132,6 +133,7 @@ def place(layout: Layout) -> Placement:
                           "{ id = ..., distance = ... }", o.loc)
     placed = {}
     notes = []
+    mounts = []         # (id, corners): every mount's rectangle, made into polygons in one call
     for oid, optic in layout.optics.items():
         if optic.kind == "obstacle":
             placed[oid] = Placed(optic, _obstacle_anchor(optic), np.array([1.0, 0.0]), None, obstacle_footprint(optic))
@@ -139,7 +141,11 @@ def place(layout: Layout) -> Placement:
         direction, by, note = _orientation(optic, arrivals.get(oid, []))
         if note:
             notes.append(note)
-        placed[oid] = Placed(optic, points[oid], direction, by, footprint(optic, points[oid], direction))
+        placed[oid] = Placed(optic, points[oid], direction, by, None)
+        mounts.append((oid, footprint_corners(optic, points[oid], direction)))
+    if mounts:
+        for (oid, _), poly in zip(mounts, shapely.polygons(np.array([c for _, c in mounts]))):
+            placed[oid].footprint = poly
     return Placement(layout, placed, sources, notes)
 
 
@@ -348,6 +354,11 @@ def mount_size(optic: Optic) -> tuple[float, float]:
 
 def _rect(center, along, width, depth) -> Polygon:
     """Rectangle with ``width`` across ``along`` and ``depth`` along it, centred at ``center``."""
+    return Polygon(_rect_corners(center, along, width, depth))
+
+
+def _rect_corners(center, along, width, depth) -> list[tuple[float, float]]:
+    """The four corners of ``_rect``, in order round the outline."""
     ax, ay = (float(v) for v in np.asarray(along, dtype=float))
     px, py = (float(v) for v in np.asarray(center, dtype=float))
     cx, cy = -ay, ax
@@ -355,16 +366,22 @@ def _rect(center, along, width, depth) -> Polygon:
     # plain floats, in the order numpy would take them: center + c * sx * hw + a * sy * hd
     corners = [(px + cx * sx * hw + ax * sy * hd, py + cy * sx * hw + ay * sy * hd)
                for sx, sy in ((-1, -1), (1, -1), (1, 1), (-1, 1))]
-    return Polygon(corners)
+    return corners
 
 
 def footprint(optic: Optic, point: np.ndarray, direction: np.ndarray) -> Polygon:
     """Mount outline on the table: a mirror's spans its face and reaches ``depth`` behind it;
     a transmissive optic's is centred on it (docs/design.md §3)."""
+    return Polygon(footprint_corners(optic, point, direction))
+
+
+def footprint_corners(optic: Optic, point: np.ndarray, direction: np.ndarray) -> list[tuple[float, float]]:
+    """The corners of ``footprint`` (``place`` makes the polygons of every mount in one
+    shapely call)."""
     width, depth = mount_size(optic)
     if optic.kind in FOLDING_KINDS:
-        return _rect(point - direction * depth / 2.0, direction, width, depth)
-    return _rect(point, direction, width, depth)
+        return _rect_corners(point - direction * depth / 2.0, direction, width, depth)
+    return _rect_corners(point, direction, width, depth)
 
 
 def _obstacle_anchor(optic: Optic) -> np.ndarray:

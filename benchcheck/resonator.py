@@ -81,6 +81,11 @@ def classify(matrix: np.ndarray, length_scale: float) -> str:
     numbers resolve), unstable when > 0; otherwise on the boundary, where a round trip of
     +-I retraces and any other walks off."""
     disc, allowance = (float(x) for x in discriminant(matrix, length_scale))
+    return _classify(matrix, length_scale, disc, allowance)
+
+
+def _classify(matrix: np.ndarray, length_scale: float, disc: float, allowance: float) -> str:
+    """``classify`` given the discriminant and allowance it computes."""
     if disc < -allowance:
         return STABLE
     if disc > allowance:
@@ -99,6 +104,22 @@ def classify(matrix: np.ndarray, length_scale: float) -> str:
     return MARGINAL_RETRACE if near_identity else MARGINAL_WALKOFF
 
 
+def classify_many(matrices, length_scales) -> list[str]:
+    """``classify`` of each matrix of a stack (K, 2, 2), each with its own length scale,
+    in a handful of array operations (the same comparisons on the same numbers)."""
+    matrices = np.asarray(matrices, dtype=float)
+    disc, allowance = discriminant(matrices, length_scales)
+    a, b = matrices[..., 0, 0], matrices[..., 0, 1]
+    c, d = matrices[..., 1, 0], matrices[..., 1, 1]
+    sign = np.where(half_trace(matrices) > 0, 1.0, -1.0)
+    scale = np.maximum(np.asarray(length_scales, dtype=float), 1e-30)
+    near_identity = ((np.abs(a - sign) < RETRACE_TOL) & (np.abs(d - sign) < RETRACE_TOL)
+                     & (np.abs(b) < RETRACE_TOL * scale) & (np.abs(c) * scale < RETRACE_TOL))
+    stable, unstable = (disc < -allowance).tolist(), (disc > allowance).tolist()
+    return [STABLE if s else UNSTABLE if u else MARGINAL_RETRACE if n else MARGINAL_WALKOFF
+            for s, u, n in zip(stable, unstable, near_identity.tolist())]
+
+
 def is_stable(matrix, length_scale=1.0) -> np.ndarray:
     """Vectorised strict test (boundary cases count as not stable), as ``classify``."""
     disc, allowance = discriminant(matrix, length_scale)
@@ -111,12 +132,14 @@ def margin(matrix, length_scale=1.0):
     return -disc / (1.0 + np.abs(half_trace(matrix)))
 
 
-def eigen_q(matrix):
-    """Self-reproducing q^ of a stable round trip (NaN where not stable or B = 0)."""
+def eigen_q(matrix, disc=None):
+    """Self-reproducing q^ of a stable round trip (NaN where not stable or B = 0).
+    ``disc``: ``discriminant(matrix)[0]`` where the caller has it."""
     a = matrix[..., 0, 0]
     b = matrix[..., 0, 1]
     d = matrix[..., 1, 1]
-    disc, _ = discriminant(matrix)
+    if disc is None:
+        disc, _ = discriminant(matrix)
     with np.errstate(invalid="ignore", divide="ignore"):
         root = np.sqrt(-disc)
         inv_q = (d - a) / (2.0 * b) - 1j * root / np.abs(b)
@@ -125,12 +148,14 @@ def eigen_q(matrix):
     return np.where(ok, q, np.nan + 1j * np.nan)
 
 
-def gouy_round_trip(matrix):
+def gouy_round_trip(matrix, disc=None):
     """Round-trip Gouy phase in radians with the branch chosen by the sign of B;
-    arccos(m) as atan2(sqrt(1 - m^2), m), so that it stays accurate near m = +-1."""
+    arccos(m) as atan2(sqrt(1 - m^2), m), so that it stays accurate near m = +-1.
+    ``disc``: ``discriminant(matrix)[0]`` where the caller has it."""
     m = half_trace(matrix)
     b = matrix[..., 0, 1]
-    disc, _ = discriminant(matrix)
+    if disc is None:
+        disc, _ = discriminant(matrix)
     base = np.arctan2(np.sqrt(np.maximum(-disc, 0.0)), m)
     return np.where(b < 0, 2.0 * np.pi - base, base)
 
@@ -154,11 +179,14 @@ class PlaneMode:
 def solve_plane(round_trip: np.ndarray, length_scale: float, halves=()) -> PlaneMode:
     """Mode of one plane.  ``halves`` are (H1, H2) pairs with H2 @ H1 = round trip; on a
     +-I boundary the first stable half whose eigenmode exists gives the mode."""
-    status = classify(round_trip, length_scale)
+    disc, allowance = discriminant(round_trip, length_scale)
+    status = _classify(round_trip, length_scale, float(disc), float(allowance))
     m = float(half_trace(round_trip))
-    edge = float(margin(round_trip, length_scale))
+    edge = float(-disc / (1.0 + np.abs(half_trace(round_trip))))     # margin(round_trip, length_scale)
     if status == STABLE:
-        return PlaneMode(status, m, complex(eigen_q(round_trip)), float(gouy_round_trip(round_trip)), edge)
+        plain, _ = discriminant(round_trip)
+        return PlaneMode(status, m, complex(eigen_q(round_trip, plain)), float(gouy_round_trip(round_trip, plain)),
+                         edge)
     if status == MARGINAL_RETRACE:
         for h1, h2 in halves:
             if classify(h1, length_scale) == STABLE and classify(h2, length_scale) == STABLE:

@@ -322,7 +322,8 @@ def _piece_index(pieces) -> tuple | None:
     s0, length, k, scale, wavelength, m2 = np.array(
         [(p.s0, p.length, p.k, p.scale, p.wavelength, p.m2) for p in pieces], dtype=float).T.copy()
     end = s0 + length
-    ordered = bool(np.all(np.diff(s0) >= 0.0) and np.all(np.diff(end) >= 0.0))
+    # neighbours compared directly (for finite coordinates the same test as diff >= 0)
+    ordered = bool((s0[1:] >= s0[:-1]).all() and (end[1:] >= end[:-1]).all())
     index = None
     if ordered:
         # with each piece's reach, 1e-9 mm of rounding either side
@@ -352,7 +353,7 @@ def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0, q_marks
         if isinstance(st, Space):
             if st.forward and st.k > 0:
                 pieces.append(Piece(st.s0, st.length, st.k, st.scale, q, wavelength, m2))
-                z = float(gauss.waist_offset(q)) / st.k
+                z = -q.real / st.k      # gauss.waist_offset of a plain complex
                 if -1e-9 <= z <= st.length + 1e-9:
                     z = min(max(z, 0.0), st.length)
                     w0 = st.scale * float(gauss.radius(q + z * st.k, wavelength, m2))

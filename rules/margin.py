@@ -95,12 +95,6 @@ def air_gaps(layout, path) -> list[Gap]:
     return out
 
 
-def _gap_steps(steps: list, gap: Gap) -> list[int]:
-    """Indices of the air-space steps of one gap in a round-trip train (out and back in a
-    linear cavity): the spaces the train marks with that gap's index."""
-    return [i for i, st in enumerate(steps) if isinstance(st, Space) and st.gap == gap.index]
-
-
 def step_matrices(steps: list) -> list:
     """Each step's matrix (None for a marker), built once per train and shared by the scans
     of all its gaps."""
@@ -112,12 +106,45 @@ _IDENTITY = abcd.identity()
 _IDENTITY.flags.writeable = False
 
 
-def _fixed_products(steps: list, where: list[int], mats: list | None = None) -> list[np.ndarray]:
-    """Products of the steps before, between and after the gap's steps (light order)."""
+class TrainParts:
+    """What the scans of every gap of one round-trip train share: each step's matrix, where
+    each gap's air-space steps are (the spaces the train marks with that gap's index: out
+    and back in a linear cavity), the reduced length, and the products of its first steps
+    (the part before a gap is one of them)."""
+
+    def __init__(self, steps: list):
+        self.steps = steps
+        self.mats = step_matrices(steps)
+        self.gaps: dict[int, list[int]] = {}
+        for i, st in enumerate(steps):
+            if isinstance(st, Space) and st.gap is not None:
+                self.gaps.setdefault(st.gap, []).append(i)
+        self.reduced = sum(st.length * st.k for st in steps if isinstance(st, Space))
+        self._prefix = [_IDENTITY]
+
+    def prefix(self, k: int) -> np.ndarray:
+        """The product of the first ``k`` steps (light order), from the identity as
+        ``_fixed_products`` takes it; the chain is extended as far as asked, once."""
+        chain = self._prefix
+        m = chain[-1]
+        for st in self.mats[len(chain) - 1:k]:
+            if st is not None:
+                m = np.matmul(st, m)
+            chain.append(m)
+        return chain[k]
+
+
+def _fixed_products(steps: list, where: list[int], mats: list | None = None,
+                    shared: TrainParts | None = None) -> list[np.ndarray]:
+    """Products of the steps before, between and after the gap's steps (light order); the
+    first from ``shared``'s chain where given."""
     mats = step_matrices(steps) if mats is None else mats
     bounds = [-1] + where + [len(steps)]
     out = []
     for a, b in itertools.pairwise(bounds):
+        if a < 0 and shared is not None:
+            out.append(shared.prefix(b))
+            continue
         m = _IDENTITY
         for st in mats[a + 1:b]:
             if st is not None:
@@ -129,19 +156,20 @@ def _fixed_products(steps: list, where: list[int], mats: list | None = None) -> 
 class GapScan:
     """The round trip of one plane as a function of one gap's air length."""
 
-    def __init__(self, train, gap: Gap, role: str, mats: list | None = None):
-        """``mats``: ``step_matrices(train.steps)`` where the caller scans several gaps."""
+    def __init__(self, train, gap: Gap, role: str, shared: TrainParts | None = None):
+        """``shared``: ``TrainParts(train.steps)`` where the caller scans several gaps."""
         steps = train.steps
+        shared = TrainParts(steps) if shared is None else shared
         self.gap = gap
-        self.where = _gap_steps(steps, gap)
+        self.plane = train.plane
+        self.where = shared.gaps.get(gap.index, [])
         expected = 2 if role == "linear" else 1
         if len(self.where) != expected:
             raise RuntimeError(f"air gap {gap.first} -> {gap.second} found {len(self.where)} times in the "
                                f"{train.plane} round trip, expected {expected}")
-        self.parts = _fixed_products(steps, self.where, mats)
-        reduced = sum(st.length * st.k for st in steps if isinstance(st, Space))
+        self.parts = _fixed_products(steps, self.where, shared.mats, shared)
         # the B, C tolerance of the +-I test scales with the round trip's reduced length
-        self._scale_fixed = reduced - len(self.where) * gap.length
+        self._scale_fixed = shared.reduced - len(self.where) * gap.length
 
     def round_trips(self, x) -> np.ndarray:
         """Round-trip matrices (..., 2, 2) for air lengths ``x`` (mm, array): the gap's
@@ -180,41 +208,64 @@ class GapScan:
         return sorted(x for x in out if math.isfinite(x))
 
     def statuses(self, x: np.ndarray) -> list[str]:
-        """``resonator.classify`` of each probe: the discriminant of all of them at once, the
-        full test (+-I or walk-off) only for those inside its rounding band."""
-        mats = self.round_trips(x)
-        scales = np.maximum(self._scale_fixed + len(self.where) * np.asarray(x, dtype=float), 1e-9)
-        # plain floats: cheaper to compare one by one than numpy scalars
-        disc, allowance = (v.tolist() for v in resonator.discriminant(mats, scales))
-        return [resonator.STABLE if disc[i] < -allowance[i] else resonator.UNSTABLE if disc[i] > allowance[i]
-                else resonator.classify(mats[i], float(scales[i])) for i in range(len(x))]
+        """``resonator.classify`` of each probe, all at once."""
+        return _statuses([self], [np.asarray(x, dtype=float)])[0]
 
-    def window(self) -> tuple[float, float]:
-        """(lo, hi) of the stable stretch around the plan in this plane; +-inf where none.
-
-        Walking out from the plan, each side is a sequence of probes: the middle of the next
-        stretch between candidate points, then the point itself, and finally a point beyond
-        the last candidate.  All probes of both sides are evaluated in one broadcast product.
-        """
+    def probes(self) -> tuple[list, list]:
+        """The probes of ``window``: walking out from the plan, each side is a sequence of
+        the middle of the next stretch between candidate points, then the point itself,
+        and finally a point beyond the last candidate.  Returns (sides, probes), each
+        with the upper side first."""
         x0 = self.gap.length
         eps = 1e-12 * max(1.0, abs(x0))
         pts = self.candidates()
-        sides = {1.0: [p for p in pts if p > x0 + eps], -1.0: [p for p in reversed(pts) if p < x0 - eps]}
-        probes = {}
-        for sign, side in sides.items():
+        sides = [[p for p in pts if p > x0 + eps], [p for p in reversed(pts) if p < x0 - eps]]
+        probes = []
+        for sign, side in zip((1.0, -1.0), sides):
             seq, prev = [], x0
             for p in side:
                 seq += [(prev + p) / 2.0, p]
                 prev = p
             seq.append(prev + sign * max(1.0, abs(prev)))
-            probes[sign] = seq
-        flat = np.array(probes[1.0] + probes[-1.0])
-        status = self.statuses(flat)
-        ok = {1.0: status[:len(probes[1.0])], -1.0: status[len(probes[1.0]):]}
-        edges = {}
-        for sign, side in sides.items():
-            edges[sign] = _walk(x0, side, [s in _OK for s in ok[sign]], sign)
-        return edges[-1.0], edges[1.0]
+            probes.append(seq)
+        return sides, probes
+
+    def edges(self, sides: list, probes: list, status: list[str]) -> tuple[float, float]:
+        """(lo, hi) from the status of every probe of ``probes()`` (upper side first)."""
+        up = len(probes[0])
+        hi = _walk(self.gap.length, sides[0], [s in _OK for s in status[:up]], 1.0)
+        lo = _walk(self.gap.length, sides[1], [s in _OK for s in status[up:]], -1.0)
+        return lo, hi
+
+    def window(self) -> tuple[float, float]:
+        """(lo, hi) of the stable stretch around the plan in this plane; +-inf where none.
+        All probes of both sides are evaluated in one broadcast product."""
+        sides, probes = self.probes()
+        return self.edges(sides, probes, self.statuses(np.array(probes[0] + probes[1])))
+
+
+def _statuses(scans: list[GapScan], xs: list[np.ndarray]) -> list[list[str]]:
+    """The status of each scan's round trip at its trial lengths ``xs`` (one array per
+    scan): the scans' fixed products stacked row by row, so that all of them (every gap
+    of a cavity, both planes) take one broadcast product and one classification."""
+    counts = [len(x) for x in xs]
+    rows = np.repeat(np.arange(len(scans)), counts)
+    x = np.concatenate(xs)
+    nparts = len(scans[0].parts)
+    parts = [np.stack([sc.parts[k] for sc in scans])[rows] for k in range(nparts)]
+    space = abcd.free_space(x)
+    m = parts[0]
+    for part in parts[1:]:
+        m = np.matmul(part, np.matmul(space, m))
+    fixed = np.array([sc._scale_fixed for sc in scans])[rows]
+    passes = np.array([len(sc.where) for sc in scans])[rows]
+    scales = np.maximum(fixed + passes * x, 1e-9)
+    flat = resonator.classify_many(m, scales)
+    out, start = [], 0
+    for n in counts:
+        out.append(flat[start:start + n])
+        start += n
+    return out
 
 
 def _walk(x0: float, side: list[float], ok: list[bool], sign: float) -> float:
@@ -247,13 +298,16 @@ def _real_roots(a: float, b: float, c: float) -> list[float]:
 def spacing_windows(cav, layout, path) -> list[Window]:
     """The stability window of every air gap of a cavity stable in both planes."""
     out = []
-    mats = {plane: step_matrices(cav.trains[plane].steps) for plane in PLANES}
-    for gap in air_gaps(layout, path):
-        if gap.length < 0:
-            continue   # elements overlap: layout-geometry reports it
+    shared = {plane: TrainParts(cav.trains[plane].steps) for plane in PLANES}
+    gaps = [gap for gap in air_gaps(layout, path) if gap.length >= 0]   # overlaps: layout-geometry
+    scans = [GapScan(cav.trains[plane], gap, path.role, shared[plane]) for gap in gaps for plane in PLANES]
+    plans = [sc.probes() for sc in scans]
+    status = _statuses(scans, [np.array(probes[0] + probes[1]) for _, probes in plans]) if scans else []
+    found = {(sc.gap.index, sc.plane): sc.edges(*plan, st) for sc, plan, st in zip(scans, plans, status)}
+    for gap in gaps:
         per_plane = {}
         for plane in PLANES:
-            lo, hi = GapScan(cav.trains[plane], gap, path.role, mats[plane]).window()
+            lo, hi = found[gap.index, plane]
             # a lower edge below zero is no edge: the gap closes before the cavity goes unstable
             tol = 1e-9 * max(1.0, gap.length)
             per_plane[plane] = (None if lo < -tol else max(float(lo), 0.0), None if math.isinf(hi) else float(hi))
