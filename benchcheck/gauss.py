@@ -11,8 +11,6 @@ callers convert from nm once).
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 
 
@@ -30,38 +28,8 @@ def rayleigh_range(w0, wavelength, m2=1.0, index=1.0):
 
 def radius(q, wavelength, m2=1.0):
     """1/e^2 intensity radius from q^: w^2 = -lambda0 M^2 / (pi Im(1/q^))."""
-    if type(q) is complex and type(wavelength) is float and type(m2) in (float, int):
-        w = _radius_one(q, wavelength, m2)     # one plain q^ (a beam walk): no arrays
-        if w is not None:
-            return w
     inv = 1.0 / np.asarray(q, dtype=complex)
     return np.sqrt(-np.asarray(m2, dtype=float) * wavelength / (np.pi * inv.imag))
-
-
-def _radius_one(q: complex, wavelength: float, m2: float):
-    """``radius`` of one plain complex q^ in plain floats, or None where the numbers are
-    not ordinary (zero, infinite, not a number, not a beam) and the array path decides.
-
-    Im(1/q^) is taken by the steps of numpy's complex division (Smith's method: the ratio
-    of the smaller part to the larger, then one reciprocal of the denominator, then
-    products), each a correctly rounded operation, so the radius is numpy's to the last bit
-    (the solutions compared before and after agree exactly); Python's own complex division
-    divides by the denominator instead and may differ in the last bit."""
-    qr, qi = q.real, q.imag
-    if not (math.isfinite(qr) and math.isfinite(qi)) or (qr == 0.0 and qi == 0.0):
-        return None
-    if abs(qr) >= abs(qi):
-        rat = qi / qr
-        inv_imag = (0.0 - rat) * (1.0 / (qr + qi * rat))
-    else:
-        rat = qr / qi
-        inv_imag = (0.0 * rat - 1.0) * (1.0 / (qi + qr * rat))
-    if not inv_imag < 0.0 or not math.isfinite(inv_imag):
-        return None
-    w2 = -float(m2) * wavelength / (math.pi * inv_imag)
-    if not (w2 > 0.0 and math.isfinite(w2)):
-        return None
-    return np.float64(math.sqrt(w2))
 
 
 def propagate(matrix, q):
