@@ -1,9 +1,10 @@
 """The indexed beam-radius lookup and the vectorised ray cast give the same answers as the
-plain methods they replace (speed itself is measured by benchmarks/bench_scale.py).
+plain methods they replace, and the stability classification of many round trips at once
+agrees with the one-at-a-time one (speed itself is measured by benchmarks/bench_scale.py).
 
 References: the radius from each piece on its own (``Piece.radius``, the first piece in
 list order that holds the point), and shapely's own intersection of the ray with every
-outline (shapely's result).
+outline (shapely's result); ``classify`` applied to one matrix at a time.
 """
 
 from __future__ import annotations
@@ -169,3 +170,39 @@ def test_the_one_match_path_of_the_position_scan_agrees_with_the_step_by_step_on
     slow = tomlpos.key_positions(text)
     assert fast == slow
     assert len(fast) > 10
+
+
+def _round_trips(rng):
+    """Round trips of every kind ``classify`` tells apart: two-mirror cavities spread over
+    the whole g1 g2 plane (stable, unstable, and the g1 g2 = 0 and 1 edges), +-I (retrace),
+    free-space-like shears (walk-off), points just either side of an edge, and NaN."""
+    out = []
+    for _ in range(300):
+        length = float(rng.uniform(10.0, 500.0))
+        r1, r2 = (float(rng.choice([rng.uniform(-2000, 2000), 1e300, length, length / 2])) for _ in range(2))
+        space = np.array([[1.0, length], [0.0, 1.0]])
+        m1, m2 = (np.array([[1.0, 0.0], [-2.0 / r, 1.0]]) for r in (r1, r2))
+        out.append((m1 @ space @ m2 @ space, length))
+    for sign in (1.0, -1.0):
+        out.append((sign * np.eye(2), 100.0))
+        out.append((sign * np.array([[1.0, 1e-14], [0.0, 1.0]]), 100.0))
+        out.append((sign * np.array([[1.0, 50.0], [0.0, 1.0]]), 100.0))
+        for eps in (1e-15, 1e-12, 1e-9, -1e-9):
+            out.append((np.array([[sign * (1.0 + eps), 20.0], [-eps / 10.0, sign]]), 100.0))
+    out.append((np.full((2, 2), np.nan), 100.0))
+    return out
+
+
+def test_classify_many_gives_what_classify_gives_one_by_one():
+    """The stability-margin rule classifies all its probes at once; each answer must be
+    the one-matrix ``classify``'s (the reference: the same comparisons, one at a time)."""
+    from benchcheck.resonator import classify, classify_many
+
+    rng = np.random.default_rng(11)
+    cases = _round_trips(rng)
+    matrices = np.array([m for m, _ in cases])
+    scales = np.array([s for _, s in cases])
+    together = classify_many(matrices, scales)
+    alone = [classify(m, s) for m, s in cases]
+    assert together == alone
+    assert len(set(alone)) == 4     # every status is among the cases
