@@ -163,8 +163,20 @@ def _housing(tree: STRtree | None, ids: list | None, point) -> set:
     """Ids of footprints a source stands in or on (a laser head drawn as an obstacle)."""
     if tree is None:
         return set()
-    near = tree.query(Point(point).buffer(ON_FOOTPRINT_MM), predicate="intersects")
-    return {ids[int(k)] for k in near}
+    # the disk's polygon lies inside the circle of radius ON_FOOTPRINT_MM: only footprints
+    # within twice that can meet it.  A footprint the point itself meets surely does; the
+    # polygon is built only to settle the others (most sources stand clear of every mount)
+    centre = Point(point)
+    near = tree.query(centre, predicate="dwithin", distance=2.0 * ON_FOOTPRINT_MM)
+    if near.size == 0:
+        return set()
+    on = shapely.intersects(tree.geometries.take(near), centre)
+    found = {ids[int(k)] for k in near[on]}
+    rest = near[~on]
+    if rest.size:
+        disk = centre.buffer(ON_FOOTPRINT_MM)
+        found |= {ids[int(k)] for k in rest[shapely.intersects(tree.geometries.take(rest), disk)]}
+    return found
 
 
 # --- clearance along one leg -----------------------------------------------------------
