@@ -669,14 +669,21 @@ def _dir(a, b) -> np.ndarray:
 def _off_table(placement: Placement, issues) -> None:
     layout: Layout = placement.layout
     w, h = layout.bench.size
-    table = box(0.0, 0.0, w, h)
     optics = list(placement.optics.values())
     if not optics:
         return
-    # every centre and every mount tested against the table in one call each
-    centres = shapely.points(np.array([np.asarray(p.point, dtype=float)[:2] for p in optics]))
-    centre_on = shapely.covers(table, centres).tolist()
-    mount_on = shapely.covers(table, np.array([p.footprint for p in optics], dtype=object)).tolist()
+    # whatever lies within the table's bounds lies on it (the table is a box: it holds the
+    # convex hull of any points inside it); only the rest, if any, goes to shapely's covers
+    centres = np.array([np.asarray(p.point, dtype=float)[:2] for p in optics])
+    mounts = np.array([p.footprint for p in optics], dtype=object)
+    bounds = shapely.bounds(mounts)
+    centre_on = (centres >= 0.0).all(axis=1) & (centres[:, 0] <= w) & (centres[:, 1] <= h)
+    mount_on = (bounds[:, :2] >= 0.0).all(axis=1) & (bounds[:, 2] <= w) & (bounds[:, 3] <= h)
+    if not (centre_on.all() and mount_on.all()):
+        table = box(0.0, 0.0, w, h)
+        centre_on |= shapely.covers(table, shapely.points(centres))
+        mount_on |= shapely.covers(table, mounts)
+    centre_on, mount_on = centre_on.tolist(), mount_on.tolist()
     for placed, centre_ok, mount_ok in zip(optics, centre_on, mount_on):
         o = placed.optic
         if not centre_ok and o.kind != "obstacle":
