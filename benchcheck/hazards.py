@@ -191,10 +191,21 @@ class Assessment:
 
 # --- building the segments ------------------------------------------------------------------
 
-def enclosures(layout):
+def zone_polygons(solution) -> dict:
+    """Every zone's polygon by id: those the trace built for its ray casts, so that a bench
+    builds each once."""
+    layout, table = solution.layout, solution.trace.table
+    if table is not None and len(table.zone_shapes) == len(layout.zones):
+        return table.zone_shapes
+    return {z.id: Polygon(z.polygon) for z in layout.zones}
+
+
+def enclosures(layout, polygons: dict | None = None):
     """All enclosure zones as one cover (two boxes that abut count as one), built once per
-    bench; None where there is no enclosure."""
-    polys = [Polygon(z.polygon) for z in layout.zones if z.kind == "enclosure"]
+    bench; None where there is no enclosure.  ``polygons``: the zones' polygons by id,
+    where the caller has them (``zone_polygons``)."""
+    polys = [Polygon(z.polygon) if polygons is None else polygons[z.id] for z in layout.zones
+             if z.kind == "enclosure"]
     return unary_union(polys) if polys else None
 
 
@@ -378,7 +389,7 @@ def _pulse_of(layout, origin: str):
 
 def segments(solution) -> list[Segment]:
     layout, traced = solution.layout, solution.trace
-    cover = enclosures(layout)
+    cover = enclosures(layout, zone_polygons(solution))
     out: list[Segment] = []
     for cid, path in traced.cavities.items():
         cav, res = layout.cavities[cid], solution.cavities[cid]
@@ -725,7 +736,8 @@ def assess(solution, policy: Policy | None = None) -> Assessment:
     """Every segment on the table judged against the exposure limits, the class estimate of
     each source and cavity output, and a summary per wavelength."""
     policy = policy or Policy()
-    keepouts = {z.id: Polygon(z.polygon) for z in solution.layout.zones if z.kind == "keepout"}
+    polygons = zone_polygons(solution)
+    keepouts = {z.id: polygons[z.id] for z in solution.layout.zones if z.kind == "keepout"}
     segs = segments(solution)
     for s in segs:
         judge(s, policy, keepouts)

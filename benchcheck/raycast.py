@@ -52,6 +52,8 @@ class Table:
         self._footprint_segments = _Segments(shapely.boundary(self._shape_array)) if self.shapes else None
         self.zone_ids = list(zones)
         self.zone_kinds = [zones[z][0] for z in self.zone_ids]
+        #: the zone polygons by id (the hazard assessment and the rules reuse them)
+        self.zone_shapes = {z: zones[z][1] for z in self.zone_ids}
         self.zone_lines = [zones[z][1].exterior for z in self.zone_ids]
         self.zone_tree = STRtree(self.zone_lines) if self.zone_lines else None
         self._zone_segments = _Segments(np.array(self.zone_lines, dtype=object)) if self.zone_lines else None
