@@ -367,11 +367,10 @@ def samplers(legs: list[Leg]) -> list[LegSampler | None]:
                 groups.setdefault(id(pieces), (pieces, []))[1].append(i)
         done = set()
         for pieces, members in groups.values():
-            s = np.concatenate([legs[i].s0 + grids[i] for i in members])
-            w_all = radius_along(pieces, s)
-            for n, i in enumerate(members):
-                w = w_all[n * BASE_SAMPLES:(n + 1) * BASE_SAMPLES]
-                if np.any(np.isfinite(w)):
+            s = np.array([legs[i].s0 for i in members])[:, None] + grids[members]
+            w_all = radius_along(pieces, s.ravel()).reshape(s.shape)
+            for i, w, sized in zip(members, w_all, np.isfinite(w_all).any(axis=1).tolist()):
+                if sized:
                     out[i] = LegSampler(legs[i], pieces, plane, grids[i], w, lines[i])
                     done.add(i)
         pending = [i for i in pending if i not in done]
@@ -404,8 +403,8 @@ def check(bench, options):
         return
     # the footprints within a margin of each leg (exact distance: no buffer polygon built),
     # every leg in one query
-    margins = np.array([max(MARGIN_RADII, ratio_needed) * float(np.nanmax(sampler.w)) + MARGIN_MM
-                        for _, sampler in found])
+    margins = max(MARGIN_RADII, ratio_needed) * np.nanmax(np.stack([sampler.w for _, sampler in found]), axis=1) \
+        + MARGIN_MM
     which, near = tree.query(np.array([sampler.line for _, sampler in found], dtype=object),
                              predicate="dwithin", distance=margins)
     by_leg: list[list[int]] = [[] for _ in found]
