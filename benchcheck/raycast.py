@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 import shapely
@@ -43,34 +44,42 @@ class Table:
 
     def __init__(self, size: tuple[float, float], footprints: dict, zones: dict):
         self.size = (float(size[0]), float(size[1]))
-        self.outline = box(0.0, 0.0, size[0], size[1])
         self.reach = float(np.hypot(*size)) * 4.0 + 1.0
         self.ids = list(footprints)
         self.shapes = [footprints[i] for i in self.ids]
         self.tree = STRtree(self.shapes) if self.shapes else None
         self._shape_array = np.array(self.shapes, dtype=object)
-        self._footprint_segments = _Segments(shapely.boundary(self._shape_array)) if self.shapes else None
         self.zone_ids = list(zones)
         self.zone_kinds = [zones[z][0] for z in self.zone_ids]
         #: the zone polygons by id (the hazard assessment and the rules reuse them)
         self.zone_shapes = {z: zones[z][1] for z in self.zone_ids}
         self.zone_lines = [zones[z][1].exterior for z in self.zone_ids]
         self.zone_tree = STRtree(self.zone_lines) if self.zone_lines else None
-        self._zone_segments = _Segments(np.array(self.zone_lines, dtype=object)) if self.zone_lines else None
+        # the outlines of the footprints, then of the zones (outline k >= len(ids) is zone
+        # k - len(ids)): one crossing test serves both
+        outlines = np.concatenate([shapely.boundary(self._shape_array), np.array(self.zone_lines, dtype=object)])
+        self._segments = _Segments(outlines) if len(outlines) else None
+
+    @cached_property
+    def outline(self):
+        """The table as a polygon (built on first use: the casts do not need it)."""
+        return box(0.0, 0.0, self.size[0], self.size[1])
 
     def cast(self, origin, direction, exclude: frozenset | set = frozenset()) -> RayEnd:
         """First thing the ray from ``origin`` along unit ``direction`` meets."""
         return self.cast_many([origin], [direction], [exclude])[0]
 
     def cast_many(self, origins, directions, excludes) -> list[RayEnd]:
-        """``cast`` of many rays at once (one STRtree query and one vectorised crossing test
-        for all of them); ``excludes`` gives each ray's set of footprint ids to pass by."""
+        """``cast`` of many rays at once (one STRtree query per tree and one vectorised
+        crossing test for all of them); ``excludes`` gives each ray's set of footprint ids to
+        pass by."""
         if not len(origins):
             return []
         o = np.asarray(origins, dtype=float).reshape(len(origins), 2)
         d = np.asarray(directions, dtype=float).reshape(len(origins), 2)
         rays = shapely.linestrings(np.stack([o, o + d * self.reach], axis=1))
         best = [self._edge(o[r], d[r]) for r in range(len(o))]
+        rows, owners = [], []
         if self.tree is not None:
             which, found = self.tree.query(rays, predicate="intersects")
             keep = [self.ids[k] not in excludes[r] for r, k in zip(which.tolist(), found.tolist())]
@@ -79,11 +88,26 @@ class Table:
                 # starting inside a mount (one's own neighbour) is not a hit on it
                 away = ~shapely.contains_xy(self._shape_array[found], o[which, 0], o[which, 1])
                 which, found = which[away], found[away]
-            for r, k, dist in self._footprint_segments.first(which, found, o, d, best):
-                best[r] = RayEnd(FOOTPRINT, self.ids[k], tuple(o[r] + d[r] * dist), dist)
+            rows.append(which)
+            owners.append(found)
         if self.zone_tree is not None:
             which, found = self.zone_tree.query(rays, predicate="intersects")
-            for r, k, dist in self._zone_segments.first(which, found, o, d, best):
+            rows.append(which)
+            owners.append(found + len(self.ids))
+        if not rows:
+            return best
+        which, found = np.concatenate(rows), np.concatenate(owners)
+        if len(rows) > 1:
+            # each ray's footprints, then its zones: the nearest crossing wins, and a zone
+            # only where it is nearer than every footprint (the first on a tie)
+            order = np.argsort(which, kind="stable")
+            which, found = which[order], found[order]
+        nf = len(self.ids)
+        for r, k, dist in self._segments.first(which, found, o, d, best):
+            if k < nf:
+                best[r] = RayEnd(FOOTPRINT, self.ids[k], tuple(o[r] + d[r] * dist), dist)
+            else:
+                k -= nf
                 best[r] = RayEnd(ZONE, self.zone_ids[k], tuple(o[r] + d[r] * dist), dist, self.zone_kinds[k])
         return best
 
