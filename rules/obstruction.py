@@ -395,7 +395,11 @@ def check(bench, options):
     shapes = [bench.placement.optics[i].footprint for i in ids]
     if not shapes:
         return
-    tree = STRtree(shapes)
+    # the ray-cast scene's tree holds the same footprints in the same order: reuse it
+    table = bench.trace.table
+    same = table is not None and table.tree is not None and table.ids == ids \
+        and all(a is b for a, b in zip(table.shapes, shapes))
+    tree = table.tree if same else STRtree(shapes)
     all_legs = list(legs(bench, tree, ids))
     # no sampler: no beam size on a leg in either plane (e.g. an unstable cavity)
     found = [(leg, sampler) for leg, sampler in zip(all_legs, samplers(all_legs)) if sampler is not None]
