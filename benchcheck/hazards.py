@@ -18,6 +18,7 @@ wavelength) the segment says why in ``problem``; it is never dropped.
 from __future__ import annotations
 
 import math
+from bisect import bisect_left, bisect_right
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -191,10 +192,21 @@ class Assessment:
 
 # --- building the segments ------------------------------------------------------------------
 
-def enclosures(layout):
+def zone_polygons(solution) -> dict:
+    """Every zone's polygon by id: those the trace built for its ray casts, so that a bench
+    builds each once."""
+    layout, table = solution.layout, solution.trace.table
+    if table is not None and len(table.zone_shapes) == len(layout.zones):
+        return table.zone_shapes
+    return {z.id: Polygon(z.polygon) for z in layout.zones}
+
+
+def enclosures(layout, polygons: dict | None = None):
     """All enclosure zones as one cover (two boxes that abut count as one), built once per
-    bench; None where there is no enclosure."""
-    polys = [Polygon(z.polygon) for z in layout.zones if z.kind == "enclosure"]
+    bench; None where there is no enclosure.  ``polygons``: the zones' polygons by id,
+    where the caller has them (``zone_polygons``)."""
+    polys = [Polygon(z.polygon) if polygons is None else polygons[z.id] for z in layout.zones
+             if z.kind == "enclosure"]
     return unary_union(polys) if polys else None
 
 
@@ -280,13 +292,14 @@ def _smallest_radii(profile: dict, spans) -> list[float | None]:
 def _waists(pieces) -> np.ndarray:
     """Path coordinates of the waists inside the pieces (z = -Re q^ / k into a piece of
     reduced length factor k > 0, kept where 0 <= z <= its length), in piece order."""
-    q0 = np.array([p.q0 for p in pieces], dtype=complex)
-    k = np.array([p.k for p in pieces], dtype=float)
-    length = np.array([p.length for p in pieces], dtype=float)
-    s0 = np.array([p.s0 for p in pieces], dtype=float)
-    z = np.divide(-q0.real, k, out=np.full(len(pieces), -1.0), where=k > 0)
-    inside = (z >= 0.0) & (z <= length)
-    return (s0 + z)[inside]
+    out = []
+    for p in pieces:       # one pass in plain floats: four numpy columns cost more than the arithmetic
+        k = float(p.k)
+        if k > 0:
+            z = -complex(p.q0).real / k
+            if 0.0 <= z <= float(p.length):
+                out.append(float(p.s0) + z)
+    return np.array(out, dtype=float)
 
 
 def _piece_at(pieces, s: float, arriving: bool):
@@ -309,11 +322,11 @@ def _piece_at(pieces, s: float, arriving: bool):
     s0, end, lower, upper = cols
     # holding s is lower <= s <= upper; both columns are non-decreasing, so the pieces that
     # hold s are one run of the list
-    i, j = int(np.searchsorted(upper, s, side="left")), int(np.searchsorted(lower, s, side="right"))
+    i, j = bisect_left(upper, s), bisect_right(lower, s)
     if i >= j:
         return None
-    d = np.abs((end if arriving else s0)[i:j] - s)
-    return pieces[i + int(np.argmin(d))]
+    edge = end if arriving else s0
+    return pieces[min(range(i, j), key=lambda k: abs(edge[k] - s))]     # the first on a tie
 
 
 #: The columns of a few recent piece lists (see ``_piece_at``), by list identity.
@@ -322,19 +335,20 @@ _COLUMNS_SIZE = 16
 
 
 def _piece_columns(pieces):
-    """(s0, end, s0 - 1e-6, end + 1e-6) of pieces in path order, or None where the starts
-    or ends go backwards (then every piece is looked at)."""
+    """(s0, end, s0 - 1e-6, end + 1e-6) of pieces in path order, as lists of floats (a
+    stray asks a few of them: plain bisection beats numpy's per-call cost), or None where
+    the starts or ends go backwards (then every piece is looked at)."""
     if not pieces:
         return None
     hit = _COLUMNS.get(id(pieces))
     if hit is not None and hit[0] is pieces and hit[1] == len(pieces) and hit[2] is pieces[0] \
             and hit[3] is pieces[-1]:
         return hit[4]
-    s0 = np.array([p.s0 for p in pieces], dtype=float)
-    end = s0 + np.array([p.length for p in pieces], dtype=float)
-    lower, upper = s0 - 1e-6, end + 1e-6
-    cols = (s0, end, lower, upper) if bool(np.all(np.diff(lower) >= 0.0) and np.all(np.diff(upper) >= 0.0)) \
-        else None
+    s0 = [float(p.s0) for p in pieces]
+    end = [a + float(p.length) for a, p in zip(s0, pieces)]
+    lower, upper = [a - 1e-6 for a in s0], [b + 1e-6 for b in end]
+    ordered = all(b - a >= 0.0 for col in (lower, upper) for a, b in zip(col, col[1:]))
+    cols = (s0, end, lower, upper) if ordered else None
     if len(_COLUMNS) >= _COLUMNS_SIZE:
         _COLUMNS.pop(next(iter(_COLUMNS)))
     _COLUMNS[id(pieces)] = (pieces, len(pieces), pieces[0], pieces[-1], cols)
@@ -376,9 +390,12 @@ def _pulse_of(layout, origin: str):
     return None, None
 
 
-def segments(solution) -> list[Segment]:
+def segments(solution, w100: dict | None = None) -> list[Segment]:
+    """Every segment of beam on the table, not yet judged.  ``w100``, where given, receives
+    each beam's ``_smallest_radius`` at 100 mm from its origin (the class estimate's
+    measurement distance), found in the one radius look-up of the beam's legs."""
     layout, traced = solution.layout, solution.trace
-    cover = enclosures(layout)
+    cover = enclosures(layout, zone_polygons(solution))
     out: list[Segment] = []
     for cid, path in traced.cavities.items():
         cav, res = layout.cavities[cid], solution.cavities[cid]
@@ -405,7 +422,11 @@ def segments(solution) -> list[Segment]:
         spans = [(s_at[k], s_at[k + 1]) for k in range(len(path.hits))]
         if path.tail is not None:
             spans.append((path.hits[-1].s, path.hits[-1].s + path.tail.length))
-        radii = _smallest_radii(res.profile, spans)
+        if w100 is not None and res.profile:
+            radii = _smallest_radii(res.profile, spans + [(100.0, 100.0)])
+            w100[bid] = radii.pop()
+        else:
+            radii = _smallest_radii(res.profile, spans)
         for k in range(len(path.hits)):
             a_name = res.origin if k == 0 else path.hits[k - 1].optic
             seg = Segment(BEAM, f"{bid}:{a_name}-{path.hits[k].optic}", bid, (bid,), path.wavelength_nm,
@@ -645,10 +666,11 @@ def _hazard_distance(seg: Segment, amount: float, keepouts: dict) -> None:
 
 # --- sources, wavelengths ----------------------------------------------------------------------
 
-def _classify_sources(solution) -> list[Source]:
+def _classify_sources(solution, w100: dict | None = None) -> list[Source]:
+    """``w100``: the beams' radii at 100 mm where ``segments`` found them already."""
     layout = solution.layout
     out = []
-    for b in solution.beams.values():
+    for bid, b in solution.beams.items():
         origin = b.origin
         if origin in layout.sources:
             src = layout.sources[origin]
@@ -658,8 +680,13 @@ def _classify_sources(solution) -> list[Source]:
         if any(s.id == origin for s in out):
             continue
         pulse_s, rep_hz = _pulse_of(layout, origin)
-        w100 = _smallest_radius(b.profile, 100.0, 100.0) if b.profile else None
-        out.append(_source(origin, kind, wl, b.power_w, b.energy_j, pulse_s, rep_hz, w100))
+        if not b.profile:
+            w = None
+        elif w100 is not None and bid in w100:
+            w = w100[bid]
+        else:
+            w = _smallest_radius(b.profile, 100.0, 100.0)
+        out.append(_source(origin, kind, wl, b.power_w, b.energy_j, pulse_s, rep_hz, w))
     for cid, cav in layout.cavities.items():
         if cav.output_coupler is None or any(s.id == cid for s in out):
             continue
@@ -725,9 +752,11 @@ def assess(solution, policy: Policy | None = None) -> Assessment:
     """Every segment on the table judged against the exposure limits, the class estimate of
     each source and cavity output, and a summary per wavelength."""
     policy = policy or Policy()
-    keepouts = {z.id: Polygon(z.polygon) for z in solution.layout.zones if z.kind == "keepout"}
-    segs = segments(solution)
+    polygons = zone_polygons(solution)
+    keepouts = {z.id: polygons[z.id] for z in solution.layout.zones if z.kind == "keepout"}
+    w100: dict = {}
+    segs = segments(solution, w100)
     for s in segs:
         judge(s, policy, keepouts)
-    sources = _classify_sources(solution)
+    sources = _classify_sources(solution, w100)
     return Assessment(segs, sources, _wavelengths(segs, sources, policy))

@@ -9,7 +9,9 @@ beams: a ray is a point and a direction.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 import shapely
@@ -42,42 +44,71 @@ class Table:
 
     def __init__(self, size: tuple[float, float], footprints: dict, zones: dict):
         self.size = (float(size[0]), float(size[1]))
-        self.outline = box(0.0, 0.0, size[0], size[1])
         self.reach = float(np.hypot(*size)) * 4.0 + 1.0
         self.ids = list(footprints)
         self.shapes = [footprints[i] for i in self.ids]
         self.tree = STRtree(self.shapes) if self.shapes else None
         self._shape_array = np.array(self.shapes, dtype=object)
-        self._footprint_segments = _Segments(shapely.boundary(self._shape_array)) if self.shapes else None
         self.zone_ids = list(zones)
         self.zone_kinds = [zones[z][0] for z in self.zone_ids]
+        #: the zone polygons by id (the hazard assessment and the rules reuse them)
+        self.zone_shapes = {z: zones[z][1] for z in self.zone_ids}
         self.zone_lines = [zones[z][1].exterior for z in self.zone_ids]
         self.zone_tree = STRtree(self.zone_lines) if self.zone_lines else None
-        self._zone_segments = _Segments(np.array(self.zone_lines, dtype=object)) if self.zone_lines else None
+        # the outlines of the footprints, then of the zones (outline k >= len(ids) is zone
+        # k - len(ids)): one crossing test serves both
+        outlines = np.concatenate([shapely.boundary(self._shape_array), np.array(self.zone_lines, dtype=object)])
+        self._segments = _Segments(outlines) if len(outlines) else None
+
+    @cached_property
+    def outline(self):
+        """The table as a polygon (built on first use: the casts do not need it)."""
+        return box(0.0, 0.0, self.size[0], self.size[1])
 
     def cast(self, origin, direction, exclude: frozenset | set = frozenset()) -> RayEnd:
         """First thing the ray from ``origin`` along unit ``direction`` meets."""
-        o = np.asarray(origin, dtype=float)
-        d = np.asarray(direction, dtype=float)
-        # a one-ray array: STRtree.query then skips its per-call reshaping of a lone geometry
-        ray = shapely.linestrings(np.array([[o, o + d * self.reach]]))
-        best = self._edge(o, d)
+        return self.cast_many([origin], [direction], [exclude])[0]
+
+    def cast_many(self, origins, directions, excludes) -> list[RayEnd]:
+        """``cast`` of many rays at once (one STRtree query per tree and one vectorised
+        crossing test for all of them); ``excludes`` gives each ray's set of footprint ids to
+        pass by."""
+        if not len(origins):
+            return []
+        o = np.asarray(origins, dtype=float).reshape(len(origins), 2)
+        d = np.asarray(directions, dtype=float).reshape(len(origins), 2)
+        rays = shapely.linestrings(np.stack([o, o + d * self.reach], axis=1))
+        best = [self._edge(o[r], d[r]) for r in range(len(o))]
+        rows, owners = [], []
         if self.tree is not None:
-            found = self.tree.query(ray, predicate="intersects")[1]
-            found = np.array([k for k in found if self.ids[int(k)] not in exclude], dtype=np.intp)
+            which, found = self.tree.query(rays, predicate="intersects")
+            keep = [self.ids[k] not in excludes[r] for r, k in zip(which.tolist(), found.tolist())]
+            which, found = which[keep], found[keep]
             if found.size:
                 # starting inside a mount (one's own neighbour) is not a hit on it
-                found = found[~shapely.contains_xy(self._shape_array[found], o[0], o[1])]
-            hit = self._footprint_segments.first(found, o, d, best.length)
-            if hit is not None:
-                k, dist = hit
-                best = RayEnd(FOOTPRINT, self.ids[k], tuple(o + d * dist), dist)
+                away = ~shapely.contains_xy(self._shape_array[found], o[which, 0], o[which, 1])
+                which, found = which[away], found[away]
+            rows.append(which)
+            owners.append(found)
         if self.zone_tree is not None:
-            found = self.zone_tree.query(ray, predicate="intersects")[1]
-            hit = self._zone_segments.first(found, o, d, best.length)
-            if hit is not None:
-                k, dist = hit
-                best = RayEnd(ZONE, self.zone_ids[k], tuple(o + d * dist), dist, self.zone_kinds[k])
+            which, found = self.zone_tree.query(rays, predicate="intersects")
+            rows.append(which)
+            owners.append(found + len(self.ids))
+        if not rows:
+            return best
+        which, found = np.concatenate(rows), np.concatenate(owners)
+        if len(rows) > 1:
+            # each ray's footprints, then its zones: the nearest crossing wins, and a zone
+            # only where it is nearer than every footprint (the first on a tie)
+            order = np.argsort(which, kind="stable")
+            which, found = which[order], found[order]
+        nf = len(self.ids)
+        for r, k, dist in self._segments.first(which, found, o, d, best):
+            if k < nf:
+                best[r] = RayEnd(FOOTPRINT, self.ids[k], tuple(o[r] + d[r] * dist), dist)
+            else:
+                k -= nf
+                best[r] = RayEnd(ZONE, self.zone_ids[k], tuple(o[r] + d[r] * dist), dist, self.zone_kinds[k])
         return best
 
     def _edge(self, o, d) -> RayEnd:
@@ -114,31 +145,43 @@ class _Segments:
         self.start = np.searchsorted(seg_owner, np.arange(n), side="left")
         self.stop = np.searchsorted(seg_owner, np.arange(n), side="right")
 
-    def first(self, owners: np.ndarray, o: np.ndarray, d: np.ndarray, before: float):
-        """(owner, distance) of the nearest crossing farther than START_CLEARANCE and
-        nearer than ``before`` on the ray, among the outlines ``owners``; None if none."""
+    def first(self, rays: np.ndarray, owners: np.ndarray, o: np.ndarray, d: np.ndarray, best: list):
+        """(ray, owner, distance) of the nearest crossing of each ray farther than
+        START_CLEARANCE and nearer than its ``best[ray].length``, among the outlines
+        ``owners`` paired with it (pairs grouped by ray, as an STRtree query gives them);
+        rays with no such crossing are left out.  On a tie the first pair and segment win."""
         owners = np.asarray(owners, dtype=np.intp)
         if owners.size == 0:
-            return None
+            return []
         counts = self.stop[owners] - self.start[owners]
         total = int(counts.sum())
         if total == 0:
-            return None
+            return []
         first_of = np.cumsum(counts) - counts
         idx = np.repeat(self.start[owners] - first_of, counts) + np.arange(total)
         who = np.repeat(owners, counts)
-        dist = self._crossings(idx, o, d)
+        ray = np.repeat(np.asarray(rays, dtype=np.intp), counts)
+        dist = self._crossings(idx, ray, o, d)
+        before = np.array([b.length for b in best], dtype=float)[ray]
         dist[~(dist > START_CLEARANCE) | ~(dist < before)] = np.inf
-        k = int(np.argmin(dist))
-        return None if not np.isfinite(dist[k]) else (int(who[k]), float(dist[k]))
+        # each ray's rows are one run: its smallest distance, and the first row that has it
+        new_run = np.empty(ray.size, dtype=bool)
+        new_run[0] = True
+        np.not_equal(ray[1:], ray[:-1], out=new_run[1:])
+        starts = np.flatnonzero(new_run)
+        low = np.minimum.reduceat(dist, starts)
+        run = np.cumsum(new_run) - 1
+        row = np.minimum.reduceat(np.where(dist == low[run], np.arange(ray.size), ray.size), starts)
+        return [(int(ray[k]), int(who[k]), float(dist[k])) for k, m in zip(row.tolist(), low.tolist())
+                if math.isfinite(m)]
 
-    def _crossings(self, idx: np.ndarray, o: np.ndarray, d: np.ndarray) -> np.ndarray:
-        """Distance along the ray (origin ``o``, unit direction ``d``) to the first point of
-        each segment ``idx`` beyond START_CLEARANCE; inf where the ray misses it.  A segment
-        lying along the ray counts from its nearer end (or from where the ray leaves it
-        when the ray starts on it)."""
+    def _crossings(self, idx: np.ndarray, ray: np.ndarray, o: np.ndarray, d: np.ndarray) -> np.ndarray:
+        """Distance along ray ``ray[i]`` (origin ``o[ray[i]]``, unit direction ``d[ray[i]]``)
+        to the first point of segment ``idx[i]`` beyond START_CLEARANCE; inf where the ray
+        misses it.  A segment lying along the ray counts from its nearer end (or from where
+        the ray leaves it when the ray starts on it)."""
         ax, ay, ex, ey, scale = self.cols[:, idx]
-        ox, oy, dx, dy = float(o[0]), float(o[1]), float(d[0]), float(d[1])
+        ox, oy, dx, dy = o[ray, 0], o[ray, 1], d[ray, 0], d[ray, 1]
         wx, wy = ax - ox, ay - oy                   # w = a - o
         denom = dx * ey - dy * ex                   # cross(d, e)
         along = wx * ey - wy * ex                   # cross(w, e)
@@ -151,11 +194,12 @@ class _Segments:
         out = np.where(~parallel & (u >= -tol) & (u <= 1.0 + tol) & (t >= 0.0), t, np.inf)
         # collinear segments: the ray meets the nearer end, or leaves the segment at the farther
         collinear = parallel & (np.abs(across) <= 1e-9 * np.maximum(scale, 1.0))
-        if collinear.any():
-            rows = idx[collinear]
-            ta = (self.a[rows] - o) @ d
-            tb = (self.b[rows] - o) @ d
+        for r in np.unique(ray[collinear]).tolist():     # rare: one ray at a time
+            on = collinear & (ray == r)
+            rows = idx[on]
+            ta = (self.a[rows] - o[r]) @ d[r]
+            tb = (self.b[rows] - o[r]) @ d[r]
             near, far = np.minimum(ta, tb), np.maximum(ta, tb)
             first = np.where(near > START_CLEARANCE, near, far)
-            out[collinear] = np.where(first > START_CLEARANCE, first, np.inf)
+            out[on] = np.where(first > START_CLEARANCE, first, np.inf)
         return out

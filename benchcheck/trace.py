@@ -146,14 +146,24 @@ def trace(placement: Placement, fold_tolerance: float = FOLD_TOLERANCE_DEG) -> T
     out = Trace(placement, {}, {}, [], scene(placement))
     for cav in layout.cavities.values():
         out.cavities[cav.id] = _trace_cavity(placement, cav, fold_tolerance, out.issues)
+    onward = []
     for beam in layout.beams.values():
         path = _trace_beam(placement, beam, fold_tolerance, out.issues)
         last = path.hits[-1]
         path.into = _coupled_into(layout, last, path.wavelength_nm)
         if last.d_out is not None and path.into is None:
-            path.tail = out.table.cast(last.point, last.d_out, exclude={last.optic})
+            onward.append(path)
         out.beams[beam.id] = path
-    out.strays = pass_through(out, _leaks(layout, out) + _secondaries(layout, out))
+    strays = _leaks(layout, out) + _secondaries(layout, out)
+    # the beams traced on and the first leg of every stray: one ray cast for all of them
+    ends = out.table.cast_many([p.hits[-1].point for p in onward] + [st.origin for st in strays],
+                               [p.hits[-1].d_out for p in onward] + [st.direction for st in strays],
+                               [{p.hits[-1].optic} for p in onward] + [{st.optic} for st in strays])
+    for path, end in zip(onward, ends):
+        path.tail = end
+    for st, end in zip(strays, ends[len(onward):]):
+        st.end = end
+    out.strays = pass_through(out, strays)
     _off_table(placement, out.issues)
     return out
 
@@ -161,7 +171,7 @@ def trace(placement: Placement, fold_tolerance: float = FOLD_TOLERANCE_DEG) -> T
 def _leaks(layout: Layout, out: Trace) -> list[Stray]:
     """Every mirror with T > 0 inside a cavity passes light out of its back face along the
     arriving direction: once per arrival, so twice at a fold mirror of a linear cavity
-    (docs/design.md §4)."""
+    (docs/design.md §4).  Their ``end`` is left to the caller's ray cast."""
     strays = []
     sent_out = {b.origin for b in layout.beams.values()}
     for cav in layout.cavities.values():
@@ -182,16 +192,16 @@ def _leaks(layout: Layout, out: Trace) -> list[Stray]:
                 if optic.id == cav.output_coupler and cav.id in sent_out and k == 0:
                     continue   # this leak is the output beam a [[beam]] follows
                 suffix = "" if len(arrivals) == 1 else ("/out" if k == 0 else "/back")
-                end = out.table.cast(hit.point, d, exclude={optic.id})
                 strays.append(Stray(f"{cav.id}/{optic.id}{suffix}", "leak", cav.id, optic.id, i, hit.point,
-                                    np.asarray(d), end, cav.wavelength_nm, t, optic.loc,
+                                    np.asarray(d), None, cav.wavelength_nm, t, optic.loc,
                                     input_reflection=cav.input_coupler == optic.id, from_cavity=True))
     return strays
 
 
 def _secondaries(layout: Layout, out: Trace) -> list[Stray]:
     """The branch a beam does not follow where it meets a splitter, or passes a mirror,
-    unless another beam from the same origin follows that branch."""
+    unless another beam from the same origin follows that branch.  Their ``end`` is left
+    to the caller's ray cast."""
     strays = []
     followed = {}
     for beam in layout.beams.values():
@@ -218,9 +228,8 @@ def _secondaries(layout: Layout, out: Trace) -> list[Stray]:
                 fraction = reflectivity_at(optic, path.wavelength_nm, 1.0 if optic.kind == "mirror" else 0.0)
             if fraction <= 0:
                 continue
-            end = out.table.cast(hit.point, direction, exclude={optic.id})
             strays.append(Stray(f"{beam.id}/{optic.id}", "secondary", beam.id, optic.id, i, hit.point,
-                                np.asarray(direction), end, path.wavelength_nm, fraction, optic.loc))
+                                np.asarray(direction), None, path.wavelength_nm, fraction, optic.loc))
     return strays
 
 
@@ -660,14 +669,21 @@ def _dir(a, b) -> np.ndarray:
 def _off_table(placement: Placement, issues) -> None:
     layout: Layout = placement.layout
     w, h = layout.bench.size
-    table = box(0.0, 0.0, w, h)
     optics = list(placement.optics.values())
     if not optics:
         return
-    # every centre and every mount tested against the table in one call each
-    centres = shapely.points(np.array([np.asarray(p.point, dtype=float)[:2] for p in optics]))
-    centre_on = shapely.covers(table, centres).tolist()
-    mount_on = shapely.covers(table, np.array([p.footprint for p in optics], dtype=object)).tolist()
+    # whatever lies within the table's bounds lies on it (the table is a box: it holds the
+    # convex hull of any points inside it); only the rest, if any, goes to shapely's covers
+    centres = np.array([np.asarray(p.point, dtype=float)[:2] for p in optics])
+    mounts = np.array([p.footprint for p in optics], dtype=object)
+    bounds = shapely.bounds(mounts)
+    centre_on = (centres >= 0.0).all(axis=1) & (centres[:, 0] <= w) & (centres[:, 1] <= h)
+    mount_on = (bounds[:, :2] >= 0.0).all(axis=1) & (bounds[:, 2] <= w) & (bounds[:, 3] <= h)
+    if not (centre_on.all() and mount_on.all()):
+        table = box(0.0, 0.0, w, h)
+        centre_on |= shapely.covers(table, shapely.points(centres))
+        mount_on |= shapely.covers(table, mounts)
+    centre_on, mount_on = centre_on.tolist(), mount_on.tolist()
     for placed, centre_ok, mount_ok in zip(optics, centre_on, mount_on):
         o = placed.optic
         if not centre_ok and o.kind != "obstacle":

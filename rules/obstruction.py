@@ -168,8 +168,20 @@ def _housing(tree: STRtree | None, ids: list | None, point) -> set:
     """Ids of footprints a source stands in or on (a laser head drawn as an obstacle)."""
     if tree is None:
         return set()
-    near = tree.query(Point(point).buffer(ON_FOOTPRINT_MM), predicate="intersects")
-    return {ids[int(k)] for k in near}
+    # the disk's polygon lies inside the circle of radius ON_FOOTPRINT_MM: only footprints
+    # within twice that can meet it.  A footprint the point itself meets surely does; the
+    # polygon is built only to settle the others (most sources stand clear of every mount)
+    centre = Point(point)
+    near = tree.query(centre, predicate="dwithin", distance=2.0 * ON_FOOTPRINT_MM)
+    if near.size == 0:
+        return set()
+    on = shapely.intersects(tree.geometries.take(near), centre)
+    found = {ids[int(k)] for k in near[on]}
+    rest = near[~on]
+    if rest.size:
+        disk = centre.buffer(ON_FOOTPRINT_MM)
+        found |= {ids[int(k)] for k in rest[shapely.intersects(tree.geometries.take(rest), disk)]}
+    return found
 
 
 # --- clearance along one leg -----------------------------------------------------------
@@ -360,11 +372,10 @@ def samplers(legs: list[Leg]) -> list[LegSampler | None]:
                 groups.setdefault(id(pieces), (pieces, []))[1].append(i)
         done = set()
         for pieces, members in groups.values():
-            s = np.concatenate([legs[i].s0 + grids[i] for i in members])
-            w_all = radius_along(pieces, s)
-            for n, i in enumerate(members):
-                w = w_all[n * BASE_SAMPLES:(n + 1) * BASE_SAMPLES]
-                if np.any(np.isfinite(w)):
+            s = np.array([legs[i].s0 for i in members])[:, None] + grids[members]
+            w_all = radius_along(pieces, s.ravel()).reshape(s.shape)
+            for i, w, sized in zip(members, w_all, np.isfinite(w_all).any(axis=1).tolist()):
+                if sized:
                     out[i] = LegSampler(legs[i], pieces, plane, grids[i], w, lines[i])
                     done.add(i)
         pending = [i for i in pending if i not in done]
@@ -389,7 +400,11 @@ def check(bench, options):
     shapes = [bench.placement.optics[i].footprint for i in ids]
     if not shapes:
         return
-    tree = STRtree(shapes)
+    # the ray-cast scene's tree holds the same footprints in the same order: reuse it
+    table = bench.trace.table
+    same = table is not None and table.tree is not None and table.ids == ids \
+        and all(a is b for a, b in zip(table.shapes, shapes))
+    tree = table.tree if same else STRtree(shapes)
     all_legs = list(legs(bench, tree, ids))
     for lo in range(0, len(all_legs), LEG_BLOCK):
         yield from _check_legs(bench, all_legs[lo:lo + LEG_BLOCK], tree, ids, shapes, limit, error_at, ratio_needed)
@@ -403,8 +418,8 @@ def _check_legs(bench, some_legs, tree, ids, shapes, limit, error_at, ratio_need
         return
     # the footprints within a margin of each leg (exact distance: no buffer polygon built),
     # every leg of the block in one query
-    margins = np.array([max(MARGIN_RADII, ratio_needed) * float(np.nanmax(sampler.w)) + MARGIN_MM
-                        for _, sampler in found])
+    margins = max(MARGIN_RADII, ratio_needed) * np.nanmax(np.stack([sampler.w for _, sampler in found]), axis=1) \
+        + MARGIN_MM
     which, near = tree.query(np.array([sampler.line for _, sampler in found], dtype=object),
                              predicate="dwithin", distance=margins)
     by_leg: list[list[int]] = [[] for _ in found]

@@ -10,8 +10,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import shapely
 from shapely import STRtree
-from shapely.geometry import LineString, Polygon
 
 from benchcheck import hazards
 from benchcheck.coatings import transmission
@@ -393,20 +393,28 @@ def check_keepout(bench, options):
     zones = [z for z in bench.layout.zones if z.kind == "keepout"]
     if not zones:
         return
-    polys = [Polygon(z.polygon) for z in zones]
+    shapes = hazards.zone_polygons(bench.solution)
+    polys = [shapes[z.id] for z in zones]
     tree = STRtree(polys)
-    for label, targets, power, pts in _all_lines(bench):
-        line = LineString(pts)
-        for k in tree.query(line, predicate="intersects"):
-            zone, poly = zones[int(k)], polys[int(k)]
-            inside = line.intersection(poly)
-            entry = _first_point(inside, np.asarray(pts[0], dtype=float))
-            how = f"enters keep-out zone \"{zone.id}\" ({inside.length:.0f} mm of its path)" if inside.length > 0.5 \
-                else f"reaches keep-out zone \"{zone.id}\""
-            yield Finding(
-                f"{label} {how} carrying {_w(power)}",
-                targets + (zone.id,), value=power, unit="W",
-                hint="re-route the beam or block it before the zone", at=entry)
+    items = list(_all_lines(bench))
+    if not items:
+        return
+    # every line built and tested against the zones in one call each
+    coords = np.array([tuple(map(float, p)) for *_, pts in items for p in pts], dtype=float)
+    lines = shapely.linestrings(coords, indices=np.repeat(np.arange(len(items)), [len(it[3]) for it in items]))
+    which, near = tree.query(lines, predicate="intersects")
+    for i, k in zip(which.tolist(), near.tolist()):
+        label, targets, power, pts = items[i]
+        line = lines[i]
+        zone, poly = zones[k], polys[k]
+        inside = line.intersection(poly)
+        entry = _first_point(inside, np.asarray(pts[0], dtype=float))
+        how = f"enters keep-out zone \"{zone.id}\" ({inside.length:.0f} mm of its path)" if inside.length > 0.5 \
+            else f"reaches keep-out zone \"{zone.id}\""
+        yield Finding(
+            f"{label} {how} carrying {_w(power)}",
+            targets + (zone.id,), value=power, unit="W",
+            hint="re-route the beam or block it before the zone", at=entry)
 
 
 def _first_point(geom, origin):

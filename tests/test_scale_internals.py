@@ -131,6 +131,32 @@ def test_ray_cast_finds_the_same_first_hit_as_shapely(seed):
         assert got.length == pytest.approx(dist, rel=1e-9, abs=1e-9)
 
 
+@pytest.mark.parametrize("seed", range(3))
+def test_many_rays_cast_at_once_end_where_each_cast_alone_ends(seed):
+    # reference: the same rays cast one at a time (Table.cast), compared to the bit
+    rng = np.random.default_rng(200 + seed)
+    footprints = {f"F{i}": affinity.rotate(box(x, y, x + 20, y + 10), float(rng.choice([0.0, 30.0])))
+                  for i, (x, y) in enumerate(rng.integers(0, 400, size=(25, 2)).astype(float))}
+    # a footprint whose left edge lies on a zone's edge: rays along y = 160 meet both at once
+    footprints["edge"] = box(100, 150, 120, 170)
+    zones = {"Z": ("keepout", box(100, 100, 300, 300)), "E": ("enclosure", box(320, 20, 380, 80))}
+    table = Table((400.0, 400.0), footprints, zones)
+    origins, directions, excludes = [(70.0, 160.0)], [(1.0, 0.0)], [set()]
+    for _ in range(300):
+        origins.append(tuple(rng.integers(0, 400, size=2).astype(float)))
+        angle = float(rng.choice([0.0, 90.0, 180.0, 270.0, rng.uniform(0, 360)]))
+        directions.append((np.cos(np.radians(angle)), np.sin(np.radians(angle))))
+        excludes.append({f"F{rng.integers(25)}"} if rng.random() < 0.3 else set())
+    together = table.cast_many(origins, directions, excludes)
+    alone = [table.cast(o, d, exclude=e) for o, d, e in zip(origins, directions, excludes)]
+    assert [(e.kind, e.id, e.zone_kind, e.length, tuple(map(float, e.point))) for e in together] == \
+        [(e.kind, e.id, e.zone_kind, e.length, tuple(map(float, e.point))) for e in alone]
+    assert {e.kind for e in together} == {FOOTPRINT, ZONE, TABLE_EDGE}
+    # a footprint and a zone edge at the same distance: the footprint stops the ray
+    # (a zone counts only where it is nearer than every footprint)
+    assert (together[0].kind, together[0].id, together[0].length) == (FOOTPRINT, "edge", 30.0)
+
+
 def test_ray_along_an_edge_of_a_footprint_meets_its_near_corner():
     table = Table((100.0, 100.0), {"B": box(40, 10, 60, 20)}, {})
     end = table.cast((10.0, 10.0), (1.0, 0.0))
