@@ -194,7 +194,8 @@ class _Segments:
         out = np.where(~parallel & (u >= -tol) & (u <= 1.0 + tol) & (t >= 0.0), t, np.inf)
         # collinear segments: the ray meets the nearer end, or leaves the segment at the farther
         collinear = parallel & (np.abs(across) <= 1e-9 * np.maximum(scale, 1.0))
-        for r in np.unique(ray[collinear]).tolist():     # rare: one ray at a time
+        # rare: one ray at a time (sorted set, not np.unique: that imports numpy.ma, ~10 ms, on every check)
+        for r in sorted(set(ray[collinear].tolist())):
             on = collinear & (ray == r)
             rows = idx[on]
             ta = (self.a[rows] - o[r]) @ d[r]
