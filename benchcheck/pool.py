@@ -174,7 +174,7 @@ def _config_path(job: Job, cache: dict) -> Path | None:
     folder = _start_folder(job)
     found = cache.setdefault("found", {})
     if folder not in found:
-        found[folder] = find_config(folder)
+        found[folder] = find_config(_start(job))
     return found[folder]
 
 
@@ -373,20 +373,24 @@ def _config_key(job: Job, found: dict) -> str | None:
 
     if job.config:
         return job.config
-    start = _start_folder(job)
-    folder = str(start)
+    folder = str(_start_folder(job))
     if folder not in found:
         try:
-            found[folder] = str(find_config(start))
+            found[folder] = str(find_config(_start(job)))
         except (LayoutError, OSError):
             found[folder] = folder
     return found[folder]
 
 
+def _start(job: Job) -> Path:
+    """Where a job's configuration is searched from: its layout, or ``start``."""
+    return Path(job.start or job.path or ".")
+
+
 def _start_folder(job: Job) -> Path:
-    """The folder a job's configuration is searched from, as ``find_config`` takes it: the
-    layout's (a link's target's) folder, or ``start``."""
-    folder = Path(job.start or job.path or ".").resolve()
+    """The folder ``find_config(_start(job))`` begins in (a link's target's folder; the
+    parent of a path that does not exist): the key its answer is remembered by."""
+    folder = _start(job).resolve()
     if folder.is_file() or not folder.exists():
         folder = folder.parent
     return folder

@@ -167,3 +167,27 @@ def test_a_configuration_that_is_not_a_regular_file_or_far_too_large_is_refused(
             load_config(fifo)
     with pytest.raises(LayoutError, match="not a regular file"):
         load_config(tmp_path)
+
+
+def test_the_check_looks_where_find_config_looks_and_remembers_it_per_folder(tmp_path):
+    """The pool remembers the configuration found for each folder of a run; the answer for
+    every job must be what ``find_config`` itself gives for that job's layout (the
+    reference), including a layout in a folder that does not exist (searched from that
+    folder only, outside a repository: not from the one above it), a linked layout (its
+    target's folder), and a git revision's text found from ``start``."""
+    from benchcheck.pool import Job, _config_key, _config_path
+
+    (tmp_path / "p" / "sub").mkdir(parents=True)
+    (tmp_path / "p" / "benchcheck.toml").write_text('fail_on = "warning"\n', encoding="utf-8")
+    (tmp_path / "p" / "a.toml").write_text(LAYOUT, encoding="utf-8")
+    (tmp_path / "p" / "sub" / "b.toml").write_text(LAYOUT, encoding="utf-8")
+    (tmp_path / "link.toml").symlink_to(tmp_path / "p" / "a.toml")
+    paths = [tmp_path / "p" / "a.toml", tmp_path / "p" / "sub" / "b.toml", tmp_path / "p" / "nodir" / "x.toml",
+             tmp_path / "p" / "nodir", tmp_path / "link.toml"]
+    cache: dict = {}
+    for path in paths + paths:          # the second pass answers from what was remembered
+        assert _config_path(Job(str(path)), cache) == find_config(path), path
+        assert _config_path(Job("rev:a.toml", start=str(path)), cache) == find_config(path), path
+        assert _config_key(Job(str(path)), {}) == str(find_config(path)), path
+    assert find_config(tmp_path / "p" / "nodir" / "x.toml") is None
+    assert find_config(tmp_path / "link.toml") == tmp_path / "p" / "benchcheck.toml"
