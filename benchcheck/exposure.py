@@ -22,7 +22,7 @@ Units: wavelength nm, time s, lengths mm, radiant exposure J/m^2, irradiance W/m
 from __future__ import annotations
 
 import math
-from functools import lru_cache
+from functools import lru_cache, wraps
 
 import numpy as np
 
@@ -190,18 +190,6 @@ def _ir_j_m2(lam, t):
     return np.where(t < 1e-9, 1e11 * t, h)
 
 
-def mpe_j_m2(wavelength_nm, t_s):
-    """Ocular MPE as radiant exposure H (J/m^2) for one exposure of duration ``t_s``.
-
-    At the cornea, averaged over ``limiting_aperture_mm``; NaN where no built-in limit
-    (outside 180 nm - 1 mm, or t_s <= 0 / NaN).
-    """
-    one = _scalars(wavelength_nm, t_s)
-    if one is not None:
-        return _mpe_j_m2_one(*one)
-    return _mpe_j_m2(wavelength_nm, t_s)
-
-
 def _scalars(*xs):
     """The arguments as plain floats where every one is a scalar (the remembered path of
     one value), else None (arrays take the vectorised path).  Plain floats, as the
@@ -213,15 +201,29 @@ def _scalars(*xs):
     return None
 
 
-@lru_cache(maxsize=4096)
-def _mpe_j_m2_one(wavelength_nm: float, t_s: float):
-    """One limit, remembered: a bench asks for the same few (wavelength, duration) pairs
-    again and again (every segment, every pulse rule, every class estimate).  The key is
-    the two plain floats, which are all the limit depends on."""
-    return _mpe_j_m2(wavelength_nm, t_s)
+def _remembered(array_fn):
+    """``array_fn(wavelength_nm, t_s)`` with one value (plain floats, as the hazard
+    assessment passes them) answered from a memo: a bench asks for the same few
+    (wavelength, duration) pairs again and again (every segment, every pulse rule, every
+    class estimate), and the two plain floats are all a limit depends on.  Arrays take the
+    vectorised path; ``__wrapped__`` computes afresh."""
+    one = lru_cache(maxsize=4096)(array_fn)
+
+    @wraps(array_fn)
+    def answer(wavelength_nm, t_s):
+        xs = _scalars(wavelength_nm, t_s)
+        return array_fn(wavelength_nm, t_s) if xs is None else one(*xs)
+
+    return answer
 
 
-def _mpe_j_m2(wavelength_nm, t_s):
+@_remembered
+def mpe_j_m2(wavelength_nm, t_s):
+    """Ocular MPE as radiant exposure H (J/m^2) for one exposure of duration ``t_s``.
+
+    At the cornea, averaged over ``limiting_aperture_mm``; NaN where no built-in limit
+    (outside 180 nm - 1 mm, or t_s <= 0 / NaN).
+    """
     lam, t = np.broadcast_arrays(_f(wavelength_nm), _f(t_s))
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         h = np.where(
@@ -233,26 +235,15 @@ def _mpe_j_m2(wavelength_nm, t_s):
     return np.where(ok, h, np.nan)[()]
 
 
+@_remembered
 def mpe_w_m2(wavelength_nm, t_s):
     """Ocular MPE as irradiance (W/m^2): ``mpe_j_m2 / t_s``."""
-    one = _scalars(wavelength_nm, t_s)
-    if one is not None:
-        return _mpe_w_m2_one(*one)
-    return _mpe_w_m2(wavelength_nm, t_s)
-
-
-@lru_cache(maxsize=4096)
-def _mpe_w_m2_one(wavelength_nm: float, t_s: float):
-    """One limit, remembered on the two plain floats (as ``_mpe_j_m2_one``)."""
-    return _mpe_w_m2(wavelength_nm, t_s)
-
-
-def _mpe_w_m2(wavelength_nm, t_s):
     t = _f(t_s)
     with np.errstate(invalid="ignore", divide="ignore"):
         return (mpe_j_m2(wavelength_nm, t) / t)[()]
 
 
+@_remembered
 def limiting_aperture_mm(wavelength_nm, t_s):
     """Limiting aperture diameter (mm) for the eye, IEC 60825-1:2014 Table A.3 (from memory).
 
@@ -261,19 +252,6 @@ def limiting_aperture_mm(wavelength_nm, t_s):
     (ANSI Z136.1-2014 Table 8 may use the time-dependent aperture in the ultraviolet too;
     not modelled.)  NaN outside 180 nm - 1 mm.
     """
-    one = _scalars(wavelength_nm, t_s)
-    if one is not None:
-        return _aperture_one(*one)
-    return _aperture_mm(wavelength_nm, t_s)
-
-
-@lru_cache(maxsize=4096)
-def _aperture_one(wavelength_nm: float, t_s: float):
-    """One aperture, remembered on the two plain floats it depends on (as ``_mpe_j_m2_one``)."""
-    return _aperture_mm(wavelength_nm, t_s)
-
-
-def _aperture_mm(wavelength_nm, t_s):
     lam, t = np.broadcast_arrays(_f(wavelength_nm), _f(t_s))
     with np.errstate(invalid="ignore"):
         ir = np.where(t < 0.35, 1.0, np.where(t < 10.0, 1.5 * np.abs(t) ** 0.375, 3.5))
