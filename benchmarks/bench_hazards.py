@@ -16,7 +16,6 @@ Run: python benchmarks/bench_hazards.py [--quick]   (--quick: N = 250..1000, few
 from __future__ import annotations
 
 import sys
-import time
 from pathlib import Path
 
 from benchcheck import hazards, solve_file, solve_text
@@ -25,19 +24,9 @@ from benchcheck.trace import trace
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from bench_scale import long_bench  # noqa: E402  (the same generated line as the scale benchmark)
+from cputime import cpu_ms  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
-
-
-def cpu_ms(fn, repeat: int, rounds: int = 5) -> float:
-    """Least CPU time of one call (ms), over ``rounds`` rounds of ``repeat`` calls."""
-    best = float("inf")
-    for _ in range(rounds):
-        t0 = time.process_time()
-        for _ in range(repeat):
-            fn()
-        best = min(best, (time.process_time() - t0) / repeat)
-    return best * 1e3
 
 
 def demos(repeat: int) -> None:

@@ -29,6 +29,9 @@ from benchcheck.plugins import load_rules
 from benchcheck.solve import solve_layout
 from benchcheck.unfold import Marker, Space
 
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from cputime import cpu_ms  # noqa: E402
+
 ROOT = Path(__file__).resolve().parent.parent
 
 
@@ -71,25 +74,14 @@ NUMERIC_RULES = ("build-yield", "alignment-sensitivity", "beam-obstructed", "sta
                  "cavity-unstable", "layout-geometry")
 
 
-def _cpu_ms(fn, number: int = 10, repeat: int = 5) -> float:
-    """Best of ``repeat`` runs of ``number`` calls: CPU milliseconds per call."""
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.process_time()
-        for _ in range(number):
-            fn()
-        best = min(best, (time.process_time() - t0) / number)
-    return best * 1e3
-
-
 def time_checks() -> None:
     for path in sorted((ROOT / "layouts").glob("*.toml")):
         config = load_config(find_config(path))
         ruleset = load_rules(config.plugins, search_path=config_folder(config), entry_points=False)
         layout = load_path(path)
         solution = solve_layout(layout)
-        parts = {"check": _cpu_ms(lambda: check_file(path, config, ruleset)),
-                 "solve_layout": _cpu_ms(lambda: solve_layout(layout))}
+        parts = {"check": cpu_ms(lambda: check_file(path, config, ruleset), 10),
+                 "solve_layout": cpu_ms(lambda: solve_layout(layout), 10)}
         for rule_id in NUMERIC_RULES:
             if rule_id not in ruleset.rules:
                 continue
@@ -99,7 +91,7 @@ def time_checks() -> None:
             def run(rule=rule, options=options):
                 bench = Bench(layout, solution, dict(config.limits), config.exposure, tolerances=config.tolerances)
                 list(rule.check(bench, options) or ())
-            parts[rule_id] = _cpu_ms(run)
+            parts[rule_id] = cpu_ms(run, 10)
         shown = "  ".join(f"{k} {v:.2f}" for k, v in parts.items() if k == "check" or v >= 0.05)
         print(f"check {path.name:<28} CPU ms: {shown}")
 
