@@ -90,18 +90,20 @@ def _classify(matrix: np.ndarray, length_scale: float, disc: float, allowance: f
         return STABLE
     if disc > allowance:
         return UNSTABLE
-    m = float(half_trace(matrix))
-    sign = 1.0 if m > 0 else -1.0
-    scale = max(length_scale, 1e-30)
-    a, b = matrix[0, 0], matrix[0, 1]
-    c, d = matrix[1, 0], matrix[1, 1]
-    near_identity = (
-        abs(a - sign) < RETRACE_TOL
-        and abs(d - sign) < RETRACE_TOL
-        and abs(b) < RETRACE_TOL * scale
-        and abs(c) * scale < RETRACE_TOL
-    )
-    return MARGINAL_RETRACE if near_identity else MARGINAL_WALKOFF
+    return MARGINAL_RETRACE if _retraces(matrix, length_scale) else MARGINAL_WALKOFF
+
+
+def _retraces(matrix, length_scale):
+    """Whether a round trip on the boundary is +-I (the sign of its half-trace) within
+    RETRACE_TOL, B and C scaled by ``length_scale``: it then retraces, else it walks off.
+    One matrix or a stack (K, 2, 2) with K length scales: ``classify`` and
+    ``classify_many`` decide by this one test."""
+    sign = np.where(half_trace(matrix) > 0, 1.0, -1.0)
+    scale = np.maximum(length_scale, 1e-30)
+    a, b = matrix[..., 0, 0], matrix[..., 0, 1]
+    c, d = matrix[..., 1, 0], matrix[..., 1, 1]
+    return ((np.abs(a - sign) < RETRACE_TOL) & (np.abs(d - sign) < RETRACE_TOL)
+            & (np.abs(b) < RETRACE_TOL * scale) & (np.abs(c) * scale < RETRACE_TOL))
 
 
 def classify_many(matrices, length_scales) -> list[str]:
@@ -109,12 +111,7 @@ def classify_many(matrices, length_scales) -> list[str]:
     in a handful of array operations (the same comparisons on the same numbers)."""
     matrices = np.asarray(matrices, dtype=float)
     disc, allowance = discriminant(matrices, length_scales)
-    a, b = matrices[..., 0, 0], matrices[..., 0, 1]
-    c, d = matrices[..., 1, 0], matrices[..., 1, 1]
-    sign = np.where(half_trace(matrices) > 0, 1.0, -1.0)
-    scale = np.maximum(np.asarray(length_scales, dtype=float), 1e-30)
-    near_identity = ((np.abs(a - sign) < RETRACE_TOL) & (np.abs(d - sign) < RETRACE_TOL)
-                     & (np.abs(b) < RETRACE_TOL * scale) & (np.abs(c) * scale < RETRACE_TOL))
+    near_identity = _retraces(matrices, np.asarray(length_scales, dtype=float))
     stable, unstable = (disc < -allowance).tolist(), (disc > allowance).tolist()
     return [STABLE if s else UNSTABLE if u else MARGINAL_RETRACE if n else MARGINAL_WALKOFF
             for s, u, n in zip(stable, unstable, near_identity.tolist())]
