@@ -31,7 +31,7 @@ from .abcd import PLANES
 from .coatings import pass_factor
 from .model import WAVELENGTH_MATCH
 from .raycast import TABLE_EDGE, ZONE
-from .solve import linspace_rows, radius_along
+from .solve import linspace_rows, per_piece_list, radius_along
 
 NM_TO_MM = 1e-6
 M2_TO_CM2 = 1e4
@@ -331,28 +331,21 @@ def _piece_at(pieces, s: float, arriving: bool):
 
 #: The columns of a few recent piece lists (see ``_piece_at``), by list identity.
 _COLUMNS: dict[int, tuple] = {}
-_COLUMNS_SIZE = 16
 
 
 def _piece_columns(pieces):
     """(s0, end, s0 - 1e-6, end + 1e-6) of pieces in path order, as lists of floats (a
     stray asks a few of them: plain bisection beats numpy's per-call cost), or None where
     the starts or ends go backwards (then every piece is looked at)."""
-    if not pieces:
-        return None
-    hit = _COLUMNS.get(id(pieces))
-    if hit is not None and hit[0] is pieces and hit[1] == len(pieces) and hit[2] is pieces[0] \
-            and hit[3] is pieces[-1]:
-        return hit[4]
+    return per_piece_list(_COLUMNS, pieces, _columns) if pieces else None
+
+
+def _columns(pieces):
     s0 = [float(p.s0) for p in pieces]
     end = [a + float(p.length) for a, p in zip(s0, pieces)]
     lower, upper = [a - 1e-6 for a in s0], [b + 1e-6 for b in end]
     ordered = all(b - a >= 0.0 for col in (lower, upper) for a, b in zip(col, col[1:]))
-    cols = (s0, end, lower, upper) if ordered else None
-    if len(_COLUMNS) >= _COLUMNS_SIZE:
-        _COLUMNS.pop(next(iter(_COLUMNS)))
-    _COLUMNS[id(pieces)] = (pieces, len(pieces), pieces[0], pieces[-1], cols)
-    return cols
+    return (s0, end, lower, upper) if ordered else None
 
 
 def _gaussian(piece, s: float, reverse: bool = False) -> Gaussian | None:

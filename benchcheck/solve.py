@@ -304,19 +304,33 @@ def radius_along(pieces: list[Piece], s) -> np.ndarray:
 #: A few recent piece lists with their columns, so that many queries on one path cost one
 #: pass over its pieces (the obstruction rule samples every leg of a long path).
 _INDEX_CACHE: dict[int, tuple] = {}
-_INDEX_CACHE_SIZE = 16
+_PIECE_MEMO_SIZE = 16
+
+
+def per_piece_list(memo: dict, pieces: list, build):
+    """``build(pieces)`` for a non-empty list of pieces, remembered in ``memo`` for the
+    last few lists asked.  A list is known by its identity, checked against the list, its
+    length and its first and last pieces (so a list changed since, or a new list at a
+    freed list's address, is built afresh).  Every lookup by path coordinate on a path
+    goes through this: the radius columns here, the hazard assessment's piece search."""
+    hit = memo.get(id(pieces))
+    if hit is not None and hit[0] is pieces and hit[1] == len(pieces) and hit[2] is pieces[0] \
+            and hit[3] is pieces[-1]:
+        return hit[4]
+    value = build(pieces)
+    if len(memo) >= _PIECE_MEMO_SIZE:
+        memo.pop(next(iter(memo)))
+    memo[id(pieces)] = (pieces, len(pieces), pieces[0], pieces[-1], value)
+    return value
 
 
 def _piece_index(pieces) -> tuple | None:
     """The pieces as columns of numpy arrays, or None where they are empty or not in path
     order (starts and ends both non-decreasing)."""
-    if not pieces:
-        return None
-    key = id(pieces)
-    hit = _INDEX_CACHE.get(key)
-    if hit is not None and hit[0] is pieces and hit[1] == len(pieces) and hit[2] is pieces[0] \
-            and hit[3] is pieces[-1]:
-        return hit[4]
+    return per_piece_list(_INDEX_CACHE, pieces, _index_columns) if pieces else None
+
+
+def _index_columns(pieces) -> tuple | None:
     # the real columns in one array (one row each, contiguous), q^ apart: one pass over
     # the pieces instead of one per column
     s0, length, k, scale, wavelength, m2 = np.array(
@@ -324,15 +338,10 @@ def _piece_index(pieces) -> tuple | None:
     end = s0 + length
     # neighbours compared directly (for finite coordinates the same test as diff >= 0)
     ordered = bool((s0[1:] >= s0[:-1]).all() and (end[1:] >= end[:-1]).all())
-    index = None
-    if ordered:
-        # with each piece's reach, 1e-9 mm of rounding either side
-        index = (s0, length, k, scale, np.array([p.q0 for p in pieces]), wavelength, m2,
-                 s0 - 1e-9, end + 1e-9)
-    if len(_INDEX_CACHE) >= _INDEX_CACHE_SIZE:
-        _INDEX_CACHE.pop(next(iter(_INDEX_CACHE)))
-    _INDEX_CACHE[key] = (pieces, len(pieces), pieces[0], pieces[-1], index)
-    return index
+    if not ordered:
+        return None
+    # with each piece's reach, 1e-9 mm of rounding either side
+    return (s0, length, k, scale, np.array([p.q0 for p in pieces]), wavelength, m2, s0 - 1e-9, end + 1e-9)
 
 
 def _walk(train: Train, q0: complex, wavelength: float, m2: float = 1.0, q_marks: dict | None = None):
